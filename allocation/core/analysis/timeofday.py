@@ -1,0 +1,131 @@
+"""When in the day things happen: occurrence-time distributions over a 24-hour day.
+
+A distribution is a mixture of uniform pieces ``(start, end, weight)`` within
+``[0, 86400)`` seconds, enough for fixed times with uniform jitter, rates spread evenly
+over the awake or asleep part of the day, and shifts along a chain. It answers one
+question exactly: what share of occurrences falls inside a window such as a person's
+sleep.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+from ..model import Agent, Study, seconds_of_day
+
+__all__ = [
+    "DAY_S",
+    "DayShare",
+    "asleep_intervals",
+    "awake_intervals",
+    "primary_sleeper",
+    "wrap_interval",
+]
+
+DAY_S = 86400.0
+
+
+def wrap_interval(start: float, end: float) -> list[tuple[float, float]]:
+    """An interval of the day, possibly crossing midnight, as non-wrapping pieces."""
+    length = end - start
+    if length >= DAY_S:
+        return [(0.0, DAY_S)]
+    start %= DAY_S
+    end = start + length
+    if end <= DAY_S:
+        return [(start, end)]
+    return [(start, DAY_S), (0.0, end - DAY_S)]
+
+
+def asleep_intervals(agent: Agent | None) -> list[tuple[float, float]]:
+    """A human's asleep window as non-wrapping pieces; none without a window."""
+    if agent is None or agent.asleep is None:
+        return []
+    start, end = (float(seconds_of_day(clock)) for clock in agent.asleep)
+    if end < start:
+        end += DAY_S
+    return wrap_interval(start, end)
+
+
+def awake_intervals(agent: Agent | None) -> list[tuple[float, float]]:
+    """The rest of the day; the whole day for someone with no asleep window."""
+    asleep = sorted(asleep_intervals(agent))
+    pieces, cursor = [], 0.0
+    for start, end in asleep:
+        if start > cursor:
+            pieces.append((cursor, start))
+        cursor = max(cursor, end)
+    if cursor < DAY_S:
+        pieces.append((cursor, DAY_S))
+    return pieces
+
+
+def primary_sleeper(study: Study) -> Agent | None:
+    """The human whose sleep defines "awake" and "asleep" for rates: the first human
+    with an asleep window (tool assumption; DESIGN §2 speaks of one person's day)."""
+    return next((agent for agent in study.humans if agent.asleep is not None), None)
+
+
+@dataclass(frozen=True)
+class DayShare:
+    """A distribution of occurrence times over the day, as weighted uniform pieces."""
+
+    pieces: tuple[tuple[float, float, float], ...]
+
+    @classmethod
+    def uniform(cls, intervals: Iterable[tuple[float, float]]) -> DayShare:
+        """Evenly spread over the given non-wrapping intervals (the whole day if none)."""
+        intervals = [(a, b) for a, b in intervals if b > a] or [(0.0, DAY_S)]
+        total = sum(b - a for a, b in intervals)
+        return cls(tuple((a, b, (b - a) / total) for a, b in intervals))
+
+    @classmethod
+    def at_times(cls, seconds: Iterable[float], jitter_s: float = 0.0) -> DayShare:
+        """Fixed times of day, each spread uniformly over ``± jitter_s``.
+
+        The uniform jitter is a tool assumption; with no jitter a time is taken as a
+        one-second slot.
+        """
+        seconds = list(seconds)
+        half = max(float(jitter_s), 0.5)
+        pieces = []
+        for moment in seconds:
+            parts = wrap_interval(moment - half, moment + half)
+            for a, b in parts:
+                pieces.append((a, b, (b - a) / (2 * half) / len(seconds)))
+        return cls(tuple(pieces))
+
+    def share_within(self, intervals: Iterable[tuple[float, float]]) -> float:
+        """The share of occurrences that fall inside the non-wrapping ``intervals``."""
+        intervals = list(intervals)
+        share = 0.0
+        for a, b, weight in self.pieces:
+            for lo, hi in intervals:
+                overlap = min(b, hi) - max(a, lo)
+                if overlap > 0:
+                    share += weight * overlap / (b - a)
+        return min(share, 1.0)
+
+    def shifted(self, seconds: float) -> DayShare:
+        """The same distribution ``seconds`` later (wrapping past midnight)."""
+        if not seconds:
+            return self
+        pieces = []
+        for a, b, weight in self.pieces:
+            for lo, hi in wrap_interval(a + seconds, b + seconds):
+                pieces.append((lo, hi, weight * (hi - lo) / (b - a)))
+        return DayShare(tuple(pieces))
+
+    @staticmethod
+    def mixture(parts: Iterable[tuple[float, DayShare]]) -> DayShare | None:
+        """Mix distributions by weight; ``None`` when every weight is zero."""
+        parts = [(w, share) for w, share in parts if w > 0]
+        total = sum(w for w, _share in parts)
+        if not total:
+            return None
+        return DayShare(
+            tuple(
+                (a, b, weight * w / total) for w, share in parts for a, b, weight in share.pieces
+            )
+        )

@@ -1,0 +1,308 @@
+"""Cross-reference checks of a study: ids, references, hierarchy, cycles, levels.
+
+These run on a :class:`~allocation.core.model.Study` whose values already have the right
+shapes (see :mod:`allocation.core.reading`) and report what only the whole study shows:
+duplicate ids, references to missing agents, tasks, events or modes, goals carrying work,
+levels that do not fit the study's scale, cycles in the hierarchy and in ``precedes``
+links (naming the tasks on the cycle), and, as warnings, leaf tasks that never occur or
+that a plan leaves unallocated.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterable
+from typing import Any
+
+from .errors import Problem
+from .graph import hierarchy_cycle, never_occurring, precedence_cycle, triggers
+from .model import Assignment, ModeMap, Plan, Study
+from .reading import child_path
+
+__all__ = ["check_study"]
+
+Locate = Callable[[object, str], str]
+
+
+def _no_map(_obj: object, default: str) -> str:
+    return default
+
+
+def check_study(study: Study, locate: Locate = _no_map) -> list[Problem]:
+    """Every cross-reference problem of ``study``, errors and warnings.
+
+    Parameters
+    ----------
+    study : Study
+        The study to check.
+    locate : callable, optional
+        ``locate(obj, default)`` gives the JSON path where ``obj`` was read; by default
+        the path follows the object's position in the study.
+
+    Returns
+    -------
+    list of Problem
+    """
+    return _Checker(study, locate).run()
+
+
+class _Checker:
+    def __init__(self, study: Study, locate: Locate):
+        self.study = study
+        self.locate = locate
+        self.problems: list[Problem] = []
+        self.task_paths = {
+            task.id: locate(task, f"$.tasks[{i}]") for i, task in enumerate(study.tasks)
+        }
+
+    def error(self, path: str, message: str) -> None:
+        self.problems.append(Problem(path, message))
+
+    def warn(self, path: str, message: str) -> None:
+        self.problems.append(Problem(path, message, "warning"))
+
+    def run(self) -> list[Problem]:
+        study = self.study
+        for name, items in (
+            ("agents", study.agents),
+            ("events", study.events),
+            ("tasks", study.tasks),
+            ("plans", study.plans),
+        ):
+            self.unique_ids(name, items, "$")
+        self.agents()
+        self.hierarchy()
+        self.tasks()
+        cycle_free = self.links()
+        for index, plan in enumerate(study.plans):
+            self.plan(plan, self.locate(plan, f"$.plans[{index}]"))
+        if cycle_free:
+            self.occurrence_warnings()
+        return self.problems
+
+    def unique_ids(self, name: str, items: Iterable[Any], base: str) -> None:
+        seen: dict[str, str] = {}
+        for index, item in enumerate(items):
+            path = self.locate(item, f"{base}.{name}[{index}]")
+            if item.id in seen:
+                self.error(
+                    child_path(path, "id"),
+                    f"repeats the id {item.id!r} already used at {seen[item.id]}",
+                )
+            else:
+                seen[item.id] = path
+
+    def agents(self) -> None:
+        for index, agent in enumerate(self.study.agents):
+            path = self.locate(agent, f"$.agents[{index}]")
+            if agent.asleep is not None and not agent.is_human:
+                self.error(
+                    child_path(path, "asleep"),
+                    f"only a human has an asleep window; {agent.id} is an automation",
+                )
+            keys = set(agent.response_s or {})
+            if not agent.is_human and keys - {"any"}:
+                self.error(
+                    child_path(path, "response_s"),
+                    'an automation has one response time, under "any"',
+                )
+            elif "any" in keys and keys & {"awake", "asleep"}:
+                self.error(
+                    child_path(path, "response_s"),
+                    'give either "any", or "awake" and "asleep", not both',
+                )
+
+    def hierarchy(self) -> None:
+        tasks = self.study.tasks_by_id
+        for task in self.study.tasks:
+            path = self.task_paths[task.id]
+            if task.parent is None:
+                continue
+            if task.parent == task.id:
+                self.error(child_path(path, "parent"), f"task {task.id} cannot be its own parent")
+            elif task.parent not in tasks:
+                self.error(
+                    child_path(path, "parent"),
+                    f"names the task {task.parent!r}, which the study does not have",
+                )
+        cycle = hierarchy_cycle(self.study)
+        if cycle and len(cycle) > 1:
+            self.error(
+                child_path(self.task_paths[cycle[0]], "parent"),
+                f"the hierarchy goes round in a circle: {' -> '.join(cycle + cycle[:1])}",
+            )
+
+    def tasks(self) -> None:
+        study = self.study
+        for task in study.tasks:
+            path = self.task_paths[task.id]
+            if study.is_goal(task.id):
+                children = ", ".join(study.children[task.id][:5])
+                for key in task.carries_work():
+                    self.error(
+                        child_path(path, key),
+                        f"task {task.id} is a goal (it has the sub-tasks {children}) "
+                        f"and carries no work itself; move {key} to a leaf task",
+                    )
+                continue
+            if (
+                task.occurs is not None
+                and task.occurs.event is not None
+                and (task.occurs.event not in study.events_by_id)
+            ):
+                self.error(
+                    child_path(child_path(path, "occurs"), "event"),
+                    f"names the event {task.occurs.event!r}, which the study does not have",
+                )
+            if task.duration_s is None:
+                self.warn(path, f"leaf task {task.id} has no duration_s; it counts as 0 s")
+            if task.severity is None:
+                self.warn(
+                    path, f"leaf task {task.id} has no severity; it counts as 1 (negligible)"
+                )
+
+    def links(self) -> bool:
+        """Check links; ``False`` when the ``precedes`` links form a cycle."""
+        study = self.study
+        seen: dict[tuple[str, str, str], str] = {}
+        for index, link in enumerate(study.links):
+            path = self.locate(link, f"$.links[{index}]")
+            for key, task_id in (("from", link.source), ("to", link.target)):
+                if task_id not in study.tasks_by_id:
+                    self.error(
+                        child_path(path, key),
+                        f"names the task {task_id!r}, which the study does not have",
+                    )
+                elif study.is_goal(task_id):
+                    self.error(
+                        child_path(path, key), f"{task_id} is a goal; links join leaf tasks"
+                    )
+            if link.source == link.target:
+                self.error(path, f"links task {link.source} to itself")
+            signature = (link.source, link.target, link.kind)
+            if signature in seen:
+                self.error(
+                    path,
+                    f"repeats the {link.kind} link {link.source} -> "
+                    f"{link.target} of {seen[signature]}",
+                )
+            seen.setdefault(signature, path)
+        known = [
+            link
+            for link in study.links
+            if link.source in study.tasks_by_id and link.target in study.tasks_by_id
+        ]
+        cycle = precedence_cycle(study)
+        if cycle:
+            first = next(
+                i
+                for i, link in enumerate(study.links)
+                if link.kind == "precedes"
+                and link.source == cycle[0]
+                and link.target == (cycle + cycle[:1])[1]
+            )
+            path = self.locate(study.links[first], f"$.links[{first}]")
+            self.error(
+                path,
+                "the precedes links go round in a circle: "
+                f"{' -> '.join(cycle + cycle[:1])}; no task on it could ever start",
+            )
+            return False
+        return len(known) == len(study.links)
+
+    def plan(self, plan: Plan, path: str) -> None:
+        study = self.study
+        assignments_path = child_path(path, "assignments")
+        self.assignments(plan.assignments, assignments_path)
+        for task in study.leaves:
+            if task.id not in plan.assignments:
+                self.warn(
+                    assignments_path, f"plan {plan.id} does not allocate leaf task {task.id}"
+                )
+        if plan.modes is not None:
+            self.mode_map(plan.modes, child_path(path, "modes"))
+
+    def assignments(self, assignments: dict[str, Assignment], path: str) -> None:
+        study = self.study
+        for task_id, assignment in assignments.items():
+            item_path = child_path(path, task_id)
+            if task_id not in study.tasks_by_id:
+                self.error(
+                    item_path, f"allocates the task {task_id!r}, which the study does not have"
+                )
+            elif study.is_goal(task_id):
+                self.error(item_path, f"{task_id} is a goal; only leaf tasks are allocated")
+            self.assignment(assignment, item_path)
+
+    def assignment(self, assignment: Assignment, path: str) -> None:
+        agents = self.study.agents_by_id
+        for key, kind in (("human", "human"), ("automation", "automation")):
+            agent_id = getattr(assignment, key)
+            if agent_id is None:
+                continue
+            if agent_id not in agents:
+                self.error(
+                    child_path(path, key),
+                    f"names the agent {agent_id!r}, which the study does not have",
+                )
+            elif agents[agent_id].kind != kind:
+                self.error(
+                    child_path(path, key), f"{agent_id} is {agents[agent_id].kind}, not {kind}"
+                )
+        if assignment.accountable is not None and assignment.accountable not in agents:
+            self.error(
+                child_path(path, "accountable"),
+                f"names the agent {assignment.accountable!r}, which the study does not have",
+            )
+        levels_path = child_path(path, "levels")
+        if assignment.is_shared and assignment.levels is None:
+            self.error(
+                path, "shares the task between a human and an automation, so it needs levels"
+            )
+        elif (
+            not assignment.is_shared
+            and assignment.levels is not None
+            and (assignment.human is not None or assignment.automation is not None)
+        ):
+            self.error(
+                levels_path, "levels apply only when a human and an automation share the task"
+            )
+        if isinstance(assignment.levels, dict) and self.study.scale != "sv10":
+            self.error(
+                levels_path,
+                f"the {self.study.scale} scale takes one level per assignment, not one per stage",
+            )
+
+    def mode_map(self, modes: ModeMap, path: str) -> None:
+        self.unique_ids("states", modes.states, path)
+        mode_ids = {mode.id for mode in modes.states}
+        if modes.initial and modes.initial not in mode_ids:
+            self.error(
+                child_path(path, "initial"),
+                f"names the mode {modes.initial!r}, which is not among the states",
+            )
+        for index, mode in enumerate(modes.states):
+            mode_path = self.locate(mode, f"{path}.states[{index}]")
+            if mode.overrides:
+                self.assignments(mode.overrides, child_path(mode_path, "overrides"))
+        for index, transition in enumerate(modes.transitions):
+            item_path = self.locate(transition, f"{path}.transitions[{index}]")
+            for key, mode_id in (("from", transition.source), ("to", transition.target)):
+                if mode_id not in mode_ids:
+                    self.error(
+                        child_path(item_path, key),
+                        f"names the mode {mode_id!r}, which is not among the states",
+                    )
+
+    def occurrence_warnings(self) -> None:
+        study = self.study
+        for trigger in triggers(study):
+            if trigger.kind == "event" and not trigger.roots:
+                index = next(i for i, e in enumerate(study.events) if e.id == trigger.id)
+                path = self.locate(study.events[index], f"$.events[{index}]")
+                self.warn(path, f"event {trigger.id} starts no task")
+        for task_id in never_occurring(study):
+            self.warn(
+                self.task_paths[task_id],
+                f"leaf task {task_id} never occurs: give it occurs, or a precedes link "
+                "from a task that does",
+            )

@@ -1,0 +1,758 @@
+"""Reading a study file (JSON format version 1) into the model.
+
+Reading checks the shape of every value: unknown and missing keys, types, enumerations,
+ranges, times of day. It collects every problem with its JSON path rather than stopping
+at the first, and builds as much of the study as it can so that the cross-reference
+checks of :mod:`allocation.core.checks` can run on the rest.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import re
+from collections.abc import Callable, Iterable
+from typing import Any
+
+from .assumptions import check_assumptions
+from .errors import Problem
+from .model import (
+    Agent,
+    Assignment,
+    Event,
+    Lag,
+    Link,
+    Mode,
+    ModeMap,
+    Occurs,
+    Plan,
+    Range,
+    Study,
+    Task,
+    Transition,
+)
+from .vocabulary import (
+    AGENT_KINDS,
+    ASSIGNMENT_STATUSES,
+    CHANNELS,
+    CUES,
+    EVENT_WHEN,
+    INITIATORS,
+    LINK_KINDS,
+    SCALES,
+    STAGES,
+    TRANSITION_CAUSES,
+)
+
+__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "StudyReader", "child_path", "parse_json_text"]
+
+FORMAT_NAME = "baton.study"
+FORMAT_VERSION = 1
+
+_IDENTIFIER = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,63}\Z")
+_PLAIN_KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*\Z")
+_CLOCK = re.compile(r"^([0-9]{2}):([0-9]{2})(?::([0-9]{2}))?\Z")
+_MISSING = object()
+
+
+def child_path(path: str, key: str | int) -> str:
+    """The JSON path of ``key`` inside the value at ``path``."""
+    if isinstance(key, int):
+        return f"{path}[{key}]"
+    if _PLAIN_KEY.match(key):
+        return f"{path}.{key}"
+    return f"{path}[{json.dumps(key)}]"
+
+
+def parse_json_text(text: str | bytes) -> tuple[Any, list[Problem]]:
+    """Parse JSON text; a syntax error becomes a problem naming line and column.
+
+    A key repeated inside one object is an error too (JSON parsers keep only the last).
+    """
+    repeated: list[str] = []
+
+    def unique_keys(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+        result: dict[str, Any] = {}
+        for key, value in pairs:
+            if key in result:
+                repeated.append(key)
+            result[key] = value
+        return result
+
+    try:
+        data = json.loads(text, object_pairs_hook=unique_keys)
+        if repeated:
+            keys = ", ".join(json.dumps(key) for key in dict.fromkeys(repeated))
+            return None, [
+                Problem("$", f"a key appears twice in one object: {keys}; give each key once")
+            ]
+        return data, []
+    except UnicodeDecodeError:
+        return None, [Problem("$", "the file is not UTF-8 text")]
+    except RecursionError:
+        return None, [Problem("$", "the file is not valid JSON: it is nested too deeply")]
+    except json.JSONDecodeError as error:
+        message = f"the file is not valid JSON: {error.msg} at line {error.lineno}, "
+        message += f"column {error.colno}"
+        return None, [Problem("$", message)]
+
+
+def _finite(value: int | float) -> bool:
+    """Whether a number is finite; an int too large for a float counts as not finite."""
+    try:
+        return math.isfinite(value)
+    except OverflowError:
+        return False
+
+
+def _describe(value: Any) -> str:
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "true or false"
+    if isinstance(value, int | float):
+        return "a number"
+    if isinstance(value, str):
+        return "text"
+    if isinstance(value, list):
+        return "a list"
+    if isinstance(value, dict):
+        return "an object"
+    return type(value).__name__
+
+
+class StudyReader:
+    """Turns a decoded study file into a :class:`Study`, collecting problems.
+
+    Use :func:`allocation.core.fileformat.load_study`; this class is the machinery.
+    """
+
+    def __init__(self) -> None:
+        self.problems: list[Problem] = []
+        self.located: dict[int, str] = {}
+
+    def locate(self, obj: object, default: str) -> str:
+        """The JSON path ``obj`` was read from (``default`` if it was not read here)."""
+        return self.located.get(id(obj), default)
+
+    # -- generic value checks -------------------------------------------------------
+
+    def error(self, path: str, message: str) -> None:
+        self.problems.append(Problem(path, message))
+
+    def obj(
+        self, value: Any, path: str, required: Iterable[str], optional: Iterable[str] = ()
+    ) -> dict[str, Any] | None:
+        """Check an object's type and keys; ``None`` when it is not an object."""
+        if not isinstance(value, dict):
+            self.error(path, f"must be an object, not {_describe(value)}")
+            return None
+        required = tuple(required)
+        allowed = set(required) | set(optional)
+        for key in value:
+            if key not in allowed:
+                known = ", ".join(sorted(allowed))
+                self.error(child_path(path, key), f"is not a known key here (known: {known})")
+        for key in required:
+            if key not in value:
+                self.error(child_path(path, key), "is missing")
+        return value
+
+    def listing(self, value: Any, path: str) -> list[Any]:
+        if not isinstance(value, list):
+            self.error(path, f"must be a list, not {_describe(value)}")
+            return []
+        return value
+
+    def text(self, value: Any, path: str) -> str | None:
+        """Text that is not blank (an optional text is left out rather than blank)."""
+        if not isinstance(value, str):
+            self.error(path, f"must be text, not {_describe(value)}")
+            return None
+        if not value.strip():
+            self.error(path, "must not be blank (leave an optional key out instead)")
+            return None
+        return value
+
+    def identifier(self, value: Any, path: str) -> str | None:
+        if not isinstance(value, str):
+            self.error(path, f"must be an id (text), not {_describe(value)}")
+            return None
+        if not _IDENTIFIER.match(value):
+            self.error(
+                path,
+                f"{value!r} is not a valid id: use 1-64 letters, digits, '.', '-' or '_', "
+                "starting with a letter or digit",
+            )
+            return None
+        return value
+
+    def number(
+        self,
+        value: Any,
+        path: str,
+        *,
+        minimum: float | None = 0,
+        positive: bool = False,
+        maximum: float | None = None,
+    ) -> int | float | None:
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            self.error(path, f"must be a number, not {_describe(value)}")
+            return None
+        if not _finite(value):
+            self.error(path, "must be a finite number")
+            return None
+        if positive and value <= 0:
+            self.error(path, f"must be more than 0, not {value:g}")
+            return None
+        if minimum is not None and value < minimum:
+            self.error(path, f"must be at least {minimum:g}, not {value:g}")
+            return None
+        if maximum is not None and value > maximum:
+            self.error(path, f"must be at most {maximum:g}, not {value:g}")
+            return None
+        return value
+
+    def integer(self, value: Any, path: str, low: int, high: int) -> int | None:
+        if isinstance(value, bool) or not isinstance(value, int):
+            self.error(path, f"must be a whole number from {low} to {high}, not {value!r}")
+            return None
+        if not low <= value <= high:
+            self.error(path, f"must be from {low} to {high}, not {value}")
+            return None
+        return value
+
+    def choice(self, value: Any, path: str, options: Iterable[str]) -> str | None:
+        options = tuple(options)
+        if not isinstance(value, str) or value not in options:
+            allowed = ", ".join(options)
+            self.error(path, f"must be one of {allowed}, not {json.dumps(value)}")
+            return None
+        return value
+
+    def clock(self, value: Any, path: str) -> str | None:
+        if not isinstance(value, str):
+            self.error(path, f'must be a time of day as "HH:MM", not {_describe(value)}')
+            return None
+        match = _CLOCK.match(value)
+        if not match or int(match[1]) > 23 or int(match[2]) > 59 or int(match[3] or 0) > 59:
+            self.error(path, f'{value!r} is not a time of day: use "HH:MM" from 00:00 to 23:59')
+            return None
+        return value
+
+    def strings(self, value: Any, path: str) -> tuple[str, ...] | None:
+        items = self.listing(value, path)
+        if not isinstance(value, list):
+            return None
+        good = [self.text(item, child_path(path, i)) for i, item in enumerate(items)]
+        return tuple(item for item in good if item is not None)
+
+    def range_(self, value: Any, path: str) -> Range | None:
+        """A ``[min, typical, max]`` list or a single number, all at least 0."""
+        if isinstance(value, list):
+            if len(value) != 3:
+                self.error(path, f"must be [min, typical, max], not a list of {len(value)}")
+                return None
+            numbers = [self.number(item, child_path(path, i)) for i, item in enumerate(value)]
+            if any(number is None for number in numbers):
+                return None
+            low, typical, high = numbers
+            if not low <= typical <= high:
+                self.error(path, f"must be in order min <= typical <= max, not {value}")
+                return None
+            return Range(low, typical, high)
+        number = self.number(value, path)
+        return None if number is None else Range.exactly(number)
+
+    def lag(self, value: Any, path: str) -> Lag | None:
+        if isinstance(value, list):
+            if len(value) != 2:
+                self.error(path, f"must be [min, max], not a list of {len(value)}")
+                return None
+            numbers = [self.number(item, child_path(path, i)) for i, item in enumerate(value)]
+            if any(number is None for number in numbers):
+                return None
+            if numbers[0] > numbers[1]:
+                self.error(path, f"must be in order min <= max, not {value}")
+                return None
+            return Lag(numbers[0], numbers[1])
+        number = self.number(value, path)
+        return None if number is None else Lag.exactly(number)
+
+    def optional(
+        self, data: dict[str, Any], key: str, path: str, read: Callable[[Any, str], Any]
+    ) -> Any:
+        """Read ``data[key]`` with ``read`` if the key is there, else ``None``."""
+        value = data.get(key, _MISSING)
+        if value is _MISSING:
+            return None
+        return read(value, child_path(path, key))
+
+    def entries(self, data: dict[str, Any], key: str, path: str, read: Callable) -> tuple:
+        """Read every item of the list at ``data[key]``, dropping unreadable ones."""
+        if key not in data:
+            return ()
+        list_path = child_path(path, key)
+        result = []
+        for index, item in enumerate(self.listing(data[key], list_path)):
+            item_path = child_path(list_path, index)
+            value = read(item, item_path)
+            if value is not None:
+                self.located[id(value)] = item_path
+                result.append(value)
+        return tuple(result)
+
+    # -- the study ------------------------------------------------------------------
+
+    def study(self, data: Any) -> Study | None:
+        root = self.obj(
+            data,
+            "$",
+            ("format", "version", "study", "agents", "events", "tasks", "links", "plans"),
+        )
+        if root is None:
+            return None
+        if "format" in root and root["format"] != FORMAT_NAME:
+            self.error(
+                "$.format", f"must be {json.dumps(FORMAT_NAME)}, not {json.dumps(root['format'])}"
+            )
+        if "version" in root and (
+            isinstance(root["version"], bool) or root["version"] != FORMAT_VERSION
+        ):
+            self.error(
+                "$.version",
+                f"must be {FORMAT_VERSION}; this Baton reads version "
+                f"{FORMAT_VERSION} only, not {json.dumps(root['version'])}",
+            )
+        header = (
+            self.obj(
+                root["study"],
+                "$.study",
+                ("id", "title", "scale"),
+                ("description", "bin_s", "assumptions", "risk_policy"),
+            )
+            if "study" in root
+            else None
+        )
+        if header is None:
+            header = {}  # already reported; read the rest so that every error is found
+        path = "$.study"
+        study_id = self.identifier(header.get("id", "study"), child_path(path, "id"))
+        title = self.text(header.get("title", "?"), child_path(path, "title"))
+        scale = self.choice(header.get("scale", "sv10"), child_path(path, "scale"), SCALES)
+        description = self.optional(header, "description", path, self.text)
+        bin_s = self.optional(header, "bin_s", path, lambda v, p: self.number(v, p, positive=True))
+        assumptions = self.optional(header, "assumptions", path, self.assumptions)
+        risk_policy = self.optional(header, "risk_policy", path, self.risk_policy)
+        return Study(
+            id=study_id or "study",
+            title=title or "?",
+            scale=scale or "sv10",
+            description=description,
+            bin_s=bin_s,
+            assumptions=assumptions,
+            risk_policy=risk_policy,
+            agents=self.entries(root, "agents", "$", self.agent),
+            events=self.entries(root, "events", "$", self.event),
+            tasks=self.entries(root, "tasks", "$", self.task),
+            links=self.entries(root, "links", "$", self.link),
+            plans=self.entries(root, "plans", "$", self.plan),
+        )
+
+    def assumptions(self, value: Any, path: str) -> dict[str, Any] | None:
+        if not isinstance(value, dict):
+            self.error(path, f"must be an object, not {_describe(value)}")
+            return None
+        for key, message in check_assumptions(value):
+            self.error(child_path(path, key), message)
+        return value
+
+    def risk_policy(self, value: Any, path: str) -> dict[str, Any] | None:
+        policy = self.obj(value, path, (), ("likelihood_bands", "review", "unacceptable", "note"))
+        if policy is None:
+            return None
+        if "likelihood_bands" in policy:
+            bands_path = child_path(path, "likelihood_bands")
+            bands = self.listing(policy["likelihood_bands"], bands_path)
+            cuts = [
+                self.number(b, child_path(bands_path, i), positive=True, maximum=1)
+                for i, b in enumerate(bands)
+            ]
+            for i, cut in enumerate(cuts):
+                if cut == 1:  # the bands lie in (0, 1): a cut at 1 leaves the top band empty
+                    self.error(child_path(bands_path, i), "must be less than 1")
+            if isinstance(policy["likelihood_bands"], list) and len(bands) != 4:
+                self.error(bands_path, "must list 4 cut points between the 5 likelihood bands")
+            elif None not in cuts and any(a >= b for a, b in zip(cuts, cuts[1:], strict=False)):
+                self.error(bands_path, "must rise strictly from band to band")
+        review = self.optional(policy, "review", path, lambda v, p: self.integer(v, p, 1, 25))
+        unacceptable = self.optional(
+            policy, "unacceptable", path, lambda v, p: self.integer(v, p, 1, 25)
+        )
+        if review is not None and unacceptable is not None and review > unacceptable:
+            self.error(
+                child_path(path, "review"),
+                f"must not be above unacceptable ({review} > {unacceptable})",
+            )
+        self.optional(policy, "note", path, self.text)
+        return value
+
+    def agent(self, value: Any, path: str) -> Agent | None:
+        data = self.obj(
+            value, path, ("id", "name", "kind"), ("capabilities", "asleep", "response_s", "notes")
+        )
+        if data is None or "id" not in data:
+            return None
+        agent_id = self.identifier(data["id"], child_path(path, "id"))
+        if agent_id is None:
+            return None
+        kind = self.optional(data, "kind", path, lambda v, p: self.choice(v, p, AGENT_KINDS))
+        return Agent(
+            id=agent_id,
+            name=self.optional(data, "name", path, self.text) or agent_id,
+            kind=kind or "human",
+            capabilities=self.optional(data, "capabilities", path, self.strings),
+            asleep=self.optional(data, "asleep", path, self.asleep),
+            response_s=self.optional(data, "response_s", path, self.response),
+            notes=self.optional(data, "notes", path, self.text),
+        )
+
+    def asleep(self, value: Any, path: str) -> tuple[str, str] | None:
+        items = self.listing(value, path)
+        if isinstance(value, list) and len(items) != 2:
+            self.error(path, "must be [from, to] as two times of day")
+            return None
+        clocks = [self.clock(item, child_path(path, i)) for i, item in enumerate(items)]
+        if None in clocks or not clocks:
+            return None
+        if clocks[0] == clocks[1]:
+            self.error(path, "must not start and end at the same time")
+            return None
+        return (clocks[0], clocks[1])
+
+    def response(self, value: Any, path: str) -> dict[str, Range] | None:
+        data = self.obj(value, path, (), EVENT_WHEN)
+        if data is None:
+            return None
+        result = {}
+        for key in EVENT_WHEN:
+            if key in data:
+                latency = self.range_(data[key], child_path(path, key))
+                if latency is not None:
+                    result[key] = latency
+        return result
+
+    def _occurrence_fields(self, data: dict[str, Any], path: str) -> dict[str, Any]:
+        """The ways of occurring shared by events and tasks: times, per_day, every_days."""
+        fields: dict[str, Any] = {}
+        if "times" in data:
+            times_path = child_path(path, "times")
+            items = self.listing(data["times"], times_path)
+            clocks = [self.clock(item, child_path(times_path, i)) for i, item in enumerate(items)]
+            if isinstance(data["times"], list) and not items:
+                self.error(times_path, "must list at least one time of day")
+            fields["times"] = tuple(c for c in clocks if c is not None)
+        fields["jitter_s"] = self.optional(data, "jitter_s", path, self.number)
+        fields["per_day"] = self.optional(
+            data, "per_day", path, lambda v, p: self.number(v, p, positive=True)
+        )
+        fields["when"] = self.optional(
+            data, "when", path, lambda v, p: self.choice(v, p, EVENT_WHEN)
+        )
+        fields["every_days"] = self.optional(
+            data, "every_days", path, lambda v, p: self.number(v, p, positive=True)
+        )
+        self._one_way(data, path, ("times", "per_day", "every_days", "event"))
+        if "jitter_s" in data and "times" not in data:
+            self.error(child_path(path, "jitter_s"), "goes only with times")
+        if "when" in data and "per_day" not in data:
+            self.error(child_path(path, "when"), "goes only with per_day")
+        return fields
+
+    def _one_way(self, data: dict[str, Any], path: str, ways: tuple[str, ...]) -> None:
+        given = [way for way in ways if way in data]
+        if len(given) > 1:
+            self.error(path, f"must occur in one way only, but gives {' and '.join(given)}")
+
+    def event(self, value: Any, path: str) -> Event | None:
+        data = self.obj(
+            value,
+            path,
+            ("id", "name"),
+            ("times", "jitter_s", "per_day", "when", "every_days", "notes"),
+        )
+        if data is None or "id" not in data:
+            return None
+        event_id = self.identifier(data["id"], child_path(path, "id"))
+        if event_id is None:
+            return None
+        fields = self._occurrence_fields(data, path)
+        if not any(way in data for way in ("times", "per_day", "every_days")):
+            self.error(path, "must occur in one way: times, per_day or every_days")
+        return Event(
+            id=event_id,
+            name=self.optional(data, "name", path, self.text) or event_id,
+            notes=self.optional(data, "notes", path, self.text),
+            **fields,
+        )
+
+    def occurs(self, value: Any, path: str) -> Occurs | None:
+        data = self.obj(
+            value,
+            path,
+            (),
+            ("times", "jitter_s", "per_day", "when", "every_days", "event", "probability"),
+        )
+        if data is None:
+            return None
+        fields = self._occurrence_fields(data, path)
+        if not any(way in data for way in ("times", "per_day", "every_days", "event")):
+            self.error(
+                path,
+                "must give one way of occurring: times, per_day, every_days "
+                "or event (leave occurs out for a task that occurs only in a chain)",
+            )
+        if "probability" in data and "event" not in data:
+            self.error(child_path(path, "probability"), "goes only with event")
+        return Occurs(
+            event=self.optional(data, "event", path, self.identifier),
+            probability=self.optional(
+                data, "probability", path, lambda v, p: self.number(v, p, positive=True, maximum=1)
+            ),
+            **fields,
+        )
+
+    def demands(self, value: Any, path: str) -> dict[str, Any] | None:
+        data = self.obj(value, path, (), CHANNELS)
+        if data is None:
+            return None
+        for channel in CHANNELS:
+            self.optional(data, channel, path, lambda v, p: self.number(v, p, maximum=7))
+        return value
+
+    def split(self, value: Any, path: str) -> dict[str, Any] | None:
+        data = self.obj(value, path, (), STAGES)
+        if data is None:
+            return None
+        shares = [self.optional(data, stage, path, self.number) for stage in STAGES]
+        if None not in [shares[i] for i, stage in enumerate(STAGES) if stage in data]:
+            total = sum(share for share in shares if share is not None)
+            if abs(total - 1) > 1e-6:
+                self.error(path, f"shares must add up to 1, not {total:g}")
+        return value
+
+    def task(self, value: Any, path: str) -> Task | None:
+        data = self.obj(
+            value,
+            path,
+            ("id", "title"),
+            (
+                "parent",
+                "occurs",
+                "duration_s",
+                "window_s",
+                "severity",
+                "demands",
+                "split",
+                "needs",
+                "notes",
+            ),
+        )
+        if data is None or "id" not in data:
+            return None
+        task_id = self.identifier(data["id"], child_path(path, "id"))
+        if task_id is None:
+            return None
+        return Task(
+            id=task_id,
+            title=self.optional(data, "title", path, self.text) or task_id,
+            parent=self.optional(data, "parent", path, self.identifier),
+            occurs=self.optional(data, "occurs", path, self.occurs),
+            duration_s=self.optional(data, "duration_s", path, self.range_),
+            window_s=self.optional(
+                data, "window_s", path, lambda v, p: self.number(v, p, positive=True)
+            ),
+            severity=self.optional(data, "severity", path, lambda v, p: self.integer(v, p, 1, 5)),
+            demands=self.optional(data, "demands", path, self.demands),
+            split=self.optional(data, "split", path, self.split),
+            needs=self.optional(data, "needs", path, self.strings),
+            notes=self.optional(data, "notes", path, self.text),
+        )
+
+    def link(self, value: Any, path: str) -> Link | None:
+        data = self.obj(value, path, ("from", "to", "kind"), ("lag_s", "probability", "notes"))
+        if data is None or "from" not in data or "to" not in data:
+            return None
+        source = self.identifier(data["from"], child_path(path, "from"))
+        target = self.identifier(data["to"], child_path(path, "to"))
+        kind = self.optional(data, "kind", path, lambda v, p: self.choice(v, p, LINK_KINDS))
+        if source is None or target is None:
+            return None
+        if kind == "informs":
+            for key in ("lag_s", "probability"):
+                if key in data:
+                    self.error(child_path(path, key), 'goes only with kind "precedes"')
+        return Link(
+            source=source,
+            target=target,
+            kind=kind or "precedes",
+            lag_s=self.optional(data, "lag_s", path, self.lag),
+            probability=self.optional(
+                data, "probability", path, lambda v, p: self.number(v, p, positive=True, maximum=1)
+            ),
+            notes=self.optional(data, "notes", path, self.text),
+        )
+
+    def levels(self, value: Any, path: str) -> int | dict[str, int] | None:
+        if isinstance(value, dict):
+            data = self.obj(value, path, STAGES)
+            if data is None:
+                return None
+            levels = {
+                stage: self.integer(data[stage], child_path(path, stage), 1, 10)
+                for stage in STAGES
+                if stage in data
+            }
+            if len(levels) < len(STAGES) or None in levels.values():
+                return None
+            return levels
+        return self.integer(value, path, 1, 10)
+
+    def assignment(self, value: Any, path: str) -> Assignment | None:
+        data = self.obj(
+            value,
+            path,
+            (),
+            (
+                "human",
+                "automation",
+                "levels",
+                "duration_s",
+                "accountable",
+                "feedback",
+                "initiator",
+                "status",
+                "rationale",
+                "applies",
+            ),
+        )
+        if data is None:
+            return None
+        applies = self.optional(data, "applies", path, self.applies)
+        if applies is False:
+            for key in sorted(set(data) - {"applies", "rationale", "status"}):
+                self.error(
+                    child_path(path, key),
+                    "goes only with a task that applies; "
+                    'an assignment with "applies": false names no one',
+                )
+        elif "human" not in data and "automation" not in data:
+            self.error(
+                path,
+                "must name a human, an automation, or both (or say "
+                '"applies": false for a task not done under this plan)',
+            )
+        return Assignment(
+            human=self.optional(data, "human", path, self.identifier),
+            automation=self.optional(data, "automation", path, self.identifier),
+            # An unreadable level is kept as given, so the checks do not add "needs levels".
+            levels=self.optional(data, "levels", path, self.levels) or data.get("levels"),
+            duration_s=self.optional(data, "duration_s", path, self.range_),
+            accountable=self.optional(data, "accountable", path, self.identifier),
+            feedback=self.optional(data, "feedback", path, lambda v, p: self.choice(v, p, CUES)),
+            initiator=self.optional(
+                data, "initiator", path, lambda v, p: self.choice(v, p, INITIATORS)
+            ),
+            status=self.optional(
+                data, "status", path, lambda v, p: self.choice(v, p, ASSIGNMENT_STATUSES)
+            ),
+            rationale=self.optional(data, "rationale", path, self.text),
+            applies=applies,
+        )
+
+    def applies(self, value: Any, path: str) -> bool | None:
+        if value is not False:
+            self.error(
+                path,
+                f"can only be false (a task applies unless it says so), not {json.dumps(value)}",
+            )
+            return None
+        return False
+
+    def assignment_map(self, value: Any, path: str) -> dict[str, Assignment] | None:
+        if not isinstance(value, dict):
+            self.error(
+                path, f"must be an object mapping task ids to assignments, not {_describe(value)}"
+            )
+            return None
+        result = {}
+        for task_id, item in value.items():
+            item_path = child_path(path, task_id)
+            if self.identifier(task_id, item_path) is None:
+                continue
+            assignment = self.assignment(item, item_path)
+            if assignment is not None:
+                result[task_id] = assignment
+        return result
+
+    def plan(self, value: Any, path: str) -> Plan | None:
+        data = self.obj(value, path, ("id", "name", "assignments"), ("description", "modes"))
+        if data is None or "id" not in data:
+            return None
+        plan_id = self.identifier(data["id"], child_path(path, "id"))
+        if plan_id is None:
+            return None
+        return Plan(
+            id=plan_id,
+            name=self.optional(data, "name", path, self.text) or plan_id,
+            description=self.optional(data, "description", path, self.text),
+            assignments=self.optional(data, "assignments", path, self.assignment_map) or {},
+            modes=self.optional(data, "modes", path, self.mode_map),
+        )
+
+    def mode_map(self, value: Any, path: str) -> ModeMap | None:
+        data = self.obj(value, path, ("initial", "states", "transitions"))
+        if data is None:
+            return None
+        initial = self.optional(data, "initial", path, self.identifier)
+        return ModeMap(
+            initial=initial or "",
+            states=self.entries(data, "states", path, self.mode),
+            transitions=self.entries(data, "transitions", path, self.transition),
+        )
+
+    def mode(self, value: Any, path: str) -> Mode | None:
+        data = self.obj(value, path, ("id", "name"), ("indication", "overrides", "notes"))
+        if data is None or "id" not in data:
+            return None
+        mode_id = self.identifier(data["id"], child_path(path, "id"))
+        if mode_id is None:
+            return None
+        return Mode(
+            id=mode_id,
+            name=self.optional(data, "name", path, self.text) or mode_id,
+            indication=self.optional(data, "indication", path, self.text),
+            overrides=self.optional(data, "overrides", path, self.assignment_map),
+            notes=self.optional(data, "notes", path, self.text),
+        )
+
+    def transition(self, value: Any, path: str) -> Transition | None:
+        data = self.obj(value, path, ("from", "to", "trigger", "by", "cue"), ("per_day", "notes"))
+        if data is None or "from" not in data or "to" not in data:
+            return None
+        source = self.identifier(data["from"], child_path(path, "from"))
+        target = self.identifier(data["to"], child_path(path, "to"))
+        if source is None or target is None:
+            return None
+        return Transition(
+            source=source,
+            target=target,
+            trigger=self.optional(data, "trigger", path, self.text) or "",
+            by=self.optional(data, "by", path, lambda v, p: self.choice(v, p, TRANSITION_CAUSES))
+            or "human",
+            cue=self.optional(data, "cue", path, lambda v, p: self.choice(v, p, CUES)) or "none",
+            per_day=self.optional(
+                data, "per_day", path, lambda v, p: self.number(v, p, positive=True)
+            ),
+            notes=self.optional(data, "notes", path, self.text),
+        )

@@ -1,0 +1,27 @@
+"""What the study commands share: finding a study and reporting problems."""
+
+from __future__ import annotations
+
+from django.core.management.base import CommandError
+
+from allocation import models as m
+from allocation import selectors
+from allocation.core import Problem
+
+
+def study_from_reference(reference: str) -> m.Study:
+    """The one study a command names by id or number; a clear error otherwise."""
+    matches = selectors.studies_by_reference(reference=reference)
+    if not matches:
+        raise CommandError(f"no study with the id or number {reference!r}")
+    if len(matches) > 1:
+        numbers = ", ".join(str(study.pk) for study in matches)
+        raise CommandError(
+            f"{len(matches)} studies have the id {reference!r} (numbers {numbers}); "
+            "name one by its number"
+        )
+    return matches[0]
+
+
+def problem_lines(problems: list[Problem]) -> str:
+    return "\n".join(f"  {problem.level}: {problem}" for problem in problems)

@@ -1,0 +1,49 @@
+"""``manage.py import_study FILE``: store a study file as a new study."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from django.conf import settings
+from django.contrib.auth import get_user_model
+from django.core.management.base import BaseCommand, CommandError
+
+from allocation import services
+from allocation.core import StudyInvalid, load_study_text
+
+from ._study import problem_lines
+
+
+class Command(BaseCommand):
+    help = "Import a study file (JSON, format version 1) as a new study."
+
+    def add_arguments(self, parser) -> None:
+        parser.add_argument("file", type=Path)
+        parser.add_argument("--owner", help="user name of the owner (default: the local sign-in)")
+
+    def handle(self, *args, file: Path, owner: str | None, **options) -> None:
+        try:
+            text = file.read_bytes()
+        except OSError as error:
+            raise CommandError(f"cannot read {file}: {error.strerror}") from None
+        result = load_study_text(text)
+        if not result.ok:
+            raise CommandError(
+                f"{file} was not imported; {len(result.errors)} error(s):\n"
+                + problem_lines(result.problems)
+            )
+        if owner:
+            user = get_user_model().objects.filter(username=owner).first()
+            if user is None:
+                raise CommandError(f"no user named {owner!r}")
+        else:
+            user, _password = services.local_user_ensure(data_dir=Path(settings.DATA_DIR))
+        try:
+            study = services.study_create(study=result.study, owner=user)
+        except StudyInvalid as error:  # pragma: no cover - checked above
+            raise CommandError(problem_lines(error.problems)) from None
+        if result.warnings:
+            self.stdout.write(problem_lines(result.warnings))
+        self.stdout.write(
+            f"Imported {study.key!r} as study {study.pk}, owned by {user.get_username()}."
+        )

@@ -1,0 +1,335 @@
+"""Persistence only: a study's agents, tasks, links, events, plans and mode maps as rows.
+
+Each row keeps one thing a screen can edit on its own. Small structured values (ranges,
+VACP demands, stage splits, occurrence rules, levels) are JSON columns holding exactly
+the study file's form of them; the core reads and checks them (see ``selectors``).
+Optional text that a study leaves out is stored as the empty string.
+"""
+
+from __future__ import annotations
+
+from django.conf import settings
+from django.db import models
+from django.db.models import F, Q
+
+from allocation.core import vocabulary
+
+
+def _choices(values: tuple[str, ...] | dict) -> list[tuple[str, str]]:
+    return [(value, value.replace("_", " ")) for value in values]
+
+
+class Role(models.TextChoices):
+    OWNER = "owner", "Owner"
+    EDITOR = "editor", "Editor"
+    REVIEWER = "reviewer", "Reviewer"
+    VIEWER = "viewer", "Viewer"
+
+    @classmethod
+    def rank(cls, role: str) -> int:
+        """Higher ranks may do everything lower ranks may."""
+        return [cls.VIEWER, cls.REVIEWER, cls.EDITOR, cls.OWNER].index(role)
+
+
+class Study(models.Model):
+    key = models.CharField("id", max_length=64)
+    title = models.CharField(max_length=200)
+    description = models.TextField(blank=True)
+    scale = models.CharField(max_length=8, choices=_choices(tuple(vocabulary.SCALES)))
+    bin_s = models.FloatField(null=True, blank=True)
+    assumptions = models.JSONField(null=True, blank=True)
+    risk_policy = models.JSONField(null=True, blank=True)
+    members = models.ManyToManyField(
+        settings.AUTH_USER_MODEL, through="Membership", related_name="studies"
+    )
+    created_at = models.DateTimeField(auto_now_add=True)
+    updated_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        verbose_name_plural = "studies"
+        ordering = ["title", "pk"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(scale__in=tuple(vocabulary.SCALES)), name="study_scale_known"
+            ),
+            models.CheckConstraint(
+                condition=Q(bin_s__isnull=True) | Q(bin_s__gt=0), name="study_bin_positive"
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.title} ({self.key})"
+
+
+class Membership(models.Model):
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="memberships")
+    user = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.CASCADE, related_name="memberships"
+    )
+    role = models.CharField(max_length=16, choices=Role.choices, default=Role.VIEWER)
+
+    class Meta:
+        constraints = [
+            models.UniqueConstraint(fields=["study", "user"], name="membership_unique"),
+            models.CheckConstraint(condition=Q(role__in=Role.values), name="membership_role"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.user} is {self.role} of {self.study}"
+
+
+class Agent(models.Model):
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="agents")
+    key = models.CharField("id", max_length=64)
+    name = models.CharField(max_length=200)
+    kind = models.CharField(max_length=16, choices=_choices(vocabulary.AGENT_KINDS))
+    capabilities = models.JSONField(null=True, blank=True)
+    asleep_from = models.CharField(max_length=8, blank=True)
+    asleep_to = models.CharField(max_length=8, blank=True)
+    response_s = models.JSONField(null=True, blank=True)
+    notes = models.TextField(blank=True)
+    position = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        ordering = ["position", "pk"]
+        constraints = [
+            models.UniqueConstraint(fields=["study", "key"], name="agent_key_unique"),
+            models.CheckConstraint(
+                condition=Q(kind__in=vocabulary.AGENT_KINDS), name="agent_kind_known"
+            ),
+            models.CheckConstraint(
+                condition=Q(asleep_from="", asleep_to="")
+                | (Q(kind="human") & ~Q(asleep_from="") & ~Q(asleep_to="")),
+                name="agent_asleep_human_both",
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.name} ({self.kind})"
+
+
+class Event(models.Model):
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="events")
+    key = models.CharField("id", max_length=64)
+    name = models.CharField(max_length=200)
+    times = models.JSONField(null=True, blank=True)
+    jitter_s = models.FloatField(null=True, blank=True)
+    per_day = models.FloatField(null=True, blank=True)
+    when = models.CharField(max_length=8, blank=True, choices=_choices(vocabulary.EVENT_WHEN))
+    every_days = models.FloatField(null=True, blank=True)
+    notes = models.TextField(blank=True)
+    position = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        ordering = ["position", "pk"]
+        constraints = [
+            models.UniqueConstraint(fields=["study", "key"], name="event_key_unique"),
+            models.CheckConstraint(
+                condition=(
+                    Q(times__isnull=False, per_day__isnull=True, every_days__isnull=True)
+                    | Q(times__isnull=True, per_day__isnull=False, every_days__isnull=True)
+                    | Q(times__isnull=True, per_day__isnull=True, every_days__isnull=False)
+                ),
+                name="event_one_way",
+            ),
+            models.CheckConstraint(
+                condition=Q(per_day__isnull=True) | Q(per_day__gt=0), name="event_rate_positive"
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return self.name
+
+
+class Task(models.Model):
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="tasks")
+    key = models.CharField("id", max_length=64)
+    title = models.CharField(max_length=300)
+    parent = models.ForeignKey(
+        "self", on_delete=models.CASCADE, null=True, blank=True, related_name="children"
+    )
+    occurs = models.JSONField(null=True, blank=True)
+    duration_s = models.JSONField(null=True, blank=True)
+    window_s = models.FloatField(null=True, blank=True)
+    severity = models.PositiveSmallIntegerField(
+        null=True,
+        blank=True,
+        choices=[(n, name) for n, (name, _) in vocabulary.SEVERITIES.items()],
+    )
+    demands = models.JSONField(null=True, blank=True)
+    split = models.JSONField(null=True, blank=True)
+    needs = models.JSONField(null=True, blank=True)
+    notes = models.TextField(blank=True)
+    position = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        ordering = ["position", "pk"]
+        constraints = [
+            models.UniqueConstraint(fields=["study", "key"], name="task_key_unique"),
+            models.CheckConstraint(
+                condition=Q(severity__isnull=True) | Q(severity__gte=1, severity__lte=5),
+                name="task_severity_1_5",
+            ),
+            models.CheckConstraint(
+                condition=Q(window_s__isnull=True) | Q(window_s__gt=0),
+                name="task_window_positive",
+            ),
+            models.CheckConstraint(condition=~Q(parent=F("pk")), name="task_not_own_parent"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.key} {self.title}"
+
+
+class Link(models.Model):
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="links")
+    source = models.ForeignKey(Task, on_delete=models.CASCADE, related_name="outgoing")
+    target = models.ForeignKey(Task, on_delete=models.CASCADE, related_name="incoming")
+    kind = models.CharField(max_length=16, choices=_choices(vocabulary.LINK_KINDS))
+    lag_s = models.JSONField(null=True, blank=True)
+    probability = models.FloatField(null=True, blank=True)
+    notes = models.TextField(blank=True)
+    position = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        ordering = ["position", "pk"]
+        constraints = [
+            models.UniqueConstraint(fields=["source", "target", "kind"], name="link_unique"),
+            models.CheckConstraint(condition=~Q(source=F("target")), name="link_not_to_self"),
+            models.CheckConstraint(
+                condition=Q(kind__in=vocabulary.LINK_KINDS), name="link_kind_known"
+            ),
+            models.CheckConstraint(
+                condition=Q(probability__isnull=True) | Q(probability__gt=0, probability__lte=1),
+                name="link_probability_range",
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.source.key} {self.kind} {self.target.key}"
+
+
+class Plan(models.Model):
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="plans")
+    key = models.CharField("id", max_length=64)
+    name = models.CharField(max_length=200)
+    description = models.TextField(blank=True)
+    # The mode map's initial mode; empty when the plan has no mode map.
+    initial_mode = models.CharField(max_length=64, blank=True)
+    position = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        ordering = ["position", "pk"]
+        constraints = [
+            models.UniqueConstraint(fields=["study", "key"], name="plan_key_unique"),
+        ]
+
+    def __str__(self) -> str:
+        return self.name
+
+
+class AssignmentFields(models.Model):
+    """Who does a task and how: shared by plan assignments and mode overrides."""
+
+    human = models.ForeignKey(
+        Agent, on_delete=models.RESTRICT, null=True, blank=True, related_name="+"
+    )
+    automation = models.ForeignKey(
+        Agent, on_delete=models.RESTRICT, null=True, blank=True, related_name="+"
+    )
+    levels = models.JSONField(null=True, blank=True)
+    duration_s = models.JSONField(null=True, blank=True)
+    accountable = models.ForeignKey(
+        Agent, on_delete=models.RESTRICT, null=True, blank=True, related_name="+"
+    )
+    feedback = models.CharField(max_length=16, blank=True, choices=_choices(vocabulary.CUES))
+    initiator = models.CharField(
+        max_length=16, blank=True, choices=_choices(vocabulary.INITIATORS)
+    )
+    status = models.CharField(
+        max_length=16, blank=True, choices=_choices(vocabulary.ASSIGNMENT_STATUSES)
+    )
+    rationale = models.TextField(blank=True)
+    # False when the task is not done at all under the plan; then no agent is named.
+    applies = models.BooleanField(default=True)
+    position = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        abstract = True
+        ordering = ["position", "pk"]
+
+
+def _someone_assigned(name: str) -> models.CheckConstraint:
+    return models.CheckConstraint(
+        condition=Q(human__isnull=False) | Q(automation__isnull=False) | Q(applies=False),
+        name=name,
+    )
+
+
+class Assignment(AssignmentFields):
+    plan = models.ForeignKey(Plan, on_delete=models.CASCADE, related_name="assignments")
+    task = models.ForeignKey(Task, on_delete=models.CASCADE, related_name="assignments")
+
+    class Meta(AssignmentFields.Meta):
+        constraints = [
+            models.UniqueConstraint(fields=["plan", "task"], name="assignment_unique"),
+            _someone_assigned("assignment_has_agent"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.plan}: {self.task}"
+
+
+class ModeState(models.Model):
+    plan = models.ForeignKey(Plan, on_delete=models.CASCADE, related_name="mode_states")
+    key = models.CharField("id", max_length=64)
+    name = models.CharField(max_length=200)
+    indication = models.TextField(blank=True)
+    # Whether the study file gave this mode an "overrides" object (even an empty one).
+    lists_overrides = models.BooleanField(default=False)
+    notes = models.TextField(blank=True)
+    position = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        ordering = ["position", "pk"]
+        constraints = [
+            models.UniqueConstraint(fields=["plan", "key"], name="mode_key_unique"),
+        ]
+
+    def __str__(self) -> str:
+        return self.name
+
+
+class ModeOverride(AssignmentFields):
+    state = models.ForeignKey(ModeState, on_delete=models.CASCADE, related_name="overrides")
+    task = models.ForeignKey(Task, on_delete=models.CASCADE, related_name="mode_overrides")
+
+    class Meta(AssignmentFields.Meta):
+        constraints = [
+            models.UniqueConstraint(fields=["state", "task"], name="override_unique"),
+            _someone_assigned("override_has_agent"),
+        ]
+
+
+class ModeTransition(models.Model):
+    plan = models.ForeignKey(Plan, on_delete=models.CASCADE, related_name="mode_transitions")
+    source = models.ForeignKey(ModeState, on_delete=models.CASCADE, related_name="+")
+    target = models.ForeignKey(ModeState, on_delete=models.CASCADE, related_name="+")
+    trigger = models.CharField(max_length=300)
+    by = models.CharField(max_length=16, choices=_choices(vocabulary.TRANSITION_CAUSES))
+    cue = models.CharField(max_length=16, choices=_choices(vocabulary.CUES))
+    per_day = models.FloatField(null=True, blank=True)
+    notes = models.TextField(blank=True)
+    position = models.PositiveIntegerField(default=0)
+
+    class Meta:
+        ordering = ["position", "pk"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(per_day__isnull=True) | Q(per_day__gt=0),
+                name="transition_rate_positive",
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.source} -> {self.target}: {self.trigger}"

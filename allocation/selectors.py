@@ -1,0 +1,242 @@
+"""Reads: database rows to study documents and core objects, and what a user may see.
+
+A study's rows are turned into the study file's JSON form and read by the core, so the
+database, the file format and the analyses share one reading and one set of checks.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from django.contrib.auth.models import AbstractBaseUser, AnonymousUser
+from django.db.models import F, Prefetch, QuerySet
+from django.http import Http404
+
+from allocation import models as m
+from allocation.core import LoadResult, load_study
+from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
+
+User = AbstractBaseUser | AnonymousUser
+
+
+def _number(value: float | None) -> int | float | None:
+    """A stored float as the file wrote it: whole numbers without a decimal part."""
+    if value is None:
+        return None
+    return int(value) if float(value).is_integer() else value
+
+
+def _compact(pairs: dict[str, Any]) -> dict[str, Any]:
+    return {key: value for key, value in pairs.items() if value is not None and value != ""}
+
+
+def studies_for_user(*, user: User) -> QuerySet[m.Study]:
+    """The studies ``user`` is a member of, with their role annotated as ``role``."""
+    if not user.is_authenticated:
+        return m.Study.objects.none()
+    return (
+        m.Study.objects.filter(memberships__user=user)
+        .annotate(role=F("memberships__role"))
+        .order_by("title", "pk")
+    )
+
+
+def study_for_user(*, user: User, pk: int, role: str = m.Role.VIEWER) -> m.Study:
+    """The study ``pk`` if ``user`` holds at least ``role`` in it; 404 otherwise.
+
+    A non-member gets the same 404 as for a study that does not exist, so the answer
+    tells nothing about other people's studies.
+    """
+    study = studies_for_user(user=user).filter(pk=pk).first()
+    if study is None or m.Role.rank(study.role) < m.Role.rank(role):
+        raise Http404("No such study.")
+    return study
+
+
+def study_rows(study: m.Study) -> m.Study:
+    """The study with everything needed for its document prefetched (a fixed few queries)."""
+    assignment_related = ("task", "human", "automation", "accountable")
+    return (
+        m.Study.objects.filter(pk=study.pk)
+        .prefetch_related(
+            "agents",
+            "events",
+            Prefetch("tasks", queryset=m.Task.objects.select_related("parent")),
+            Prefetch("links", queryset=m.Link.objects.select_related("source", "target")),
+            Prefetch(
+                "plans__assignments",
+                queryset=m.Assignment.objects.select_related(*assignment_related),
+            ),
+            Prefetch(
+                "plans__mode_states__overrides",
+                queryset=m.ModeOverride.objects.select_related(*assignment_related),
+            ),
+            Prefetch(
+                "plans__mode_transitions",
+                queryset=m.ModeTransition.objects.select_related("source", "target"),
+            ),
+        )
+        .get()
+    )
+
+
+def study_document(study: m.Study) -> dict[str, Any]:
+    """The study as a JSON-ready dict in the study file format (version 1)."""
+    study = study_rows(study)
+    header = _compact(
+        {
+            "id": study.key,
+            "title": study.title,
+            "description": study.description,
+            "scale": study.scale,
+            "bin_s": _number(study.bin_s),
+            "assumptions": study.assumptions,
+            "risk_policy": study.risk_policy,
+        }
+    )
+    return {
+        "format": FORMAT_NAME,
+        "version": FORMAT_VERSION,
+        "study": header,
+        "agents": [_agent(agent) for agent in study.agents.all()],
+        "events": [_event(event) for event in study.events.all()],
+        "tasks": [_task(task) for task in study.tasks.all()],
+        "links": [_link(link) for link in study.links.all()],
+        "plans": [_plan(plan) for plan in study.plans.all()],
+    }
+
+
+def study_load(study: m.Study) -> LoadResult:
+    """The study as a core object, with any problems the core finds in it."""
+    return load_study(study_document(study))
+
+
+def _agent(agent: m.Agent) -> dict[str, Any]:
+    return _compact(
+        {
+            "id": agent.key,
+            "name": agent.name,
+            "kind": agent.kind,
+            "capabilities": agent.capabilities,
+            "asleep": [agent.asleep_from, agent.asleep_to] if agent.asleep_from else None,
+            "response_s": agent.response_s,
+            "notes": agent.notes,
+        }
+    )
+
+
+def _event(event: m.Event) -> dict[str, Any]:
+    return _compact(
+        {
+            "id": event.key,
+            "name": event.name,
+            "times": event.times,
+            "jitter_s": _number(event.jitter_s),
+            "per_day": _number(event.per_day),
+            "when": event.when,
+            "every_days": _number(event.every_days),
+            "notes": event.notes,
+        }
+    )
+
+
+def _task(task: m.Task) -> dict[str, Any]:
+    return _compact(
+        {
+            "id": task.key,
+            "parent": task.parent.key if task.parent else None,
+            "title": task.title,
+            "occurs": task.occurs,
+            "duration_s": task.duration_s,
+            "window_s": _number(task.window_s),
+            "severity": task.severity,
+            "demands": task.demands,
+            "split": task.split,
+            "needs": task.needs,
+            "notes": task.notes,
+        }
+    )
+
+
+def _link(link: m.Link) -> dict[str, Any]:
+    return _compact(
+        {
+            "from": link.source.key,
+            "to": link.target.key,
+            "kind": link.kind,
+            "lag_s": link.lag_s,
+            "probability": _number(link.probability),
+            "notes": link.notes,
+        }
+    )
+
+
+def _assignment(row: m.AssignmentFields) -> dict[str, Any]:
+    return _compact(
+        {
+            "human": row.human.key if row.human else None,
+            "automation": row.automation.key if row.automation else None,
+            "levels": row.levels,
+            "duration_s": row.duration_s,
+            "accountable": row.accountable.key if row.accountable else None,
+            "feedback": row.feedback,
+            "initiator": row.initiator,
+            "status": row.status,
+            "rationale": row.rationale,
+            "applies": None if row.applies else False,
+        }
+    )
+
+
+def _plan(plan: m.Plan) -> dict[str, Any]:
+    document = _compact(
+        {
+            "id": plan.key,
+            "name": plan.name,
+            "description": plan.description,
+        }
+    )
+    document["assignments"] = {row.task.key: _assignment(row) for row in plan.assignments.all()}
+    if plan.initial_mode:
+        document["modes"] = {
+            "initial": plan.initial_mode,
+            "states": [_mode(state) for state in plan.mode_states.all()],
+            "transitions": [_transition(item) for item in plan.mode_transitions.all()],
+        }
+    return document
+
+
+def _mode(state: m.ModeState) -> dict[str, Any]:
+    document = _compact(
+        {
+            "id": state.key,
+            "name": state.name,
+            "indication": state.indication,
+            "notes": state.notes,
+        }
+    )
+    if state.lists_overrides:
+        document["overrides"] = {row.task.key: _assignment(row) for row in state.overrides.all()}
+    return document
+
+
+def _transition(item: m.ModeTransition) -> dict[str, Any]:
+    return _compact(
+        {
+            "from": item.source.key,
+            "to": item.target.key,
+            "trigger": item.trigger,
+            "by": item.by,
+            "cue": item.cue,
+            "per_day": _number(item.per_day),
+            "notes": item.notes,
+        }
+    )
+
+
+def studies_by_reference(*, reference: str) -> list[m.Study]:
+    """Studies whose id is ``reference``, or the one whose number it is (for commands)."""
+    matches = list(m.Study.objects.filter(key=reference).order_by("pk"))
+    if not matches and reference.isdigit():
+        matches = list(m.Study.objects.filter(pk=int(reference)))
+    return matches

@@ -1,0 +1,1 @@
+"""Thin views: parse the request, call a selector or service, render."""

@@ -1,0 +1,102 @@
+"""The study list, a study's page, and study files in and out."""
+
+from __future__ import annotations
+
+import json
+
+from django.conf import settings
+from django.contrib.auth.decorators import login_required
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.utils.text import slugify
+from django.views.decorators.http import require_GET, require_POST
+from django_htmx.http import HttpResponseClientRedirect
+
+from allocation import selectors, services
+from allocation.core import Problem, StudyInvalid
+from allocation.core.describe import (
+    duration_text,
+    occurs_text,
+    seconds_text,
+    severity_text,
+    task_outline,
+)
+from allocation.core.reading import parse_json_text
+
+
+@require_GET
+@login_required
+def study_list(request: HttpRequest) -> HttpResponse:
+    studies = selectors.studies_for_user(user=request.user)
+    return render(request, "studies/list.html", {"studies": studies, "problems": []})
+
+
+@require_POST
+@login_required
+def study_upload(request: HttpRequest) -> HttpResponse:
+    upload = request.FILES.get("file")
+    problems = _upload_problems(upload)
+    if not problems:
+        data, problems = parse_json_text(upload.read())
+    if not problems:
+        try:
+            study = services.study_import(data=data, owner=request.user)
+        except StudyInvalid as error:
+            problems = error.problems
+    if problems:
+        context = {"problems": problems, "filename": getattr(upload, "name", "")}
+        template = "htmx/upload_form.html" if request.htmx else "studies/list.html"
+        if not request.htmx:
+            context["studies"] = selectors.studies_for_user(user=request.user)
+        return render(request, template, context, status=400 if not request.htmx else 200)
+    url = reverse("study-detail", args=[study.pk])
+    return HttpResponseClientRedirect(url) if request.htmx else redirect(url)
+
+
+def _upload_problems(upload) -> list[Problem]:
+    if upload is None:
+        return [Problem("upload", "choose a study file (.json) to upload")]
+    if upload.size > settings.BATON_MAX_UPLOAD_BYTES:
+        limit = settings.BATON_MAX_UPLOAD_BYTES // (1024 * 1024)
+        return [Problem("upload", f"the file is larger than {limit} MiB")]
+    return []
+
+
+@require_GET
+@login_required
+def study_detail(request: HttpRequest, pk: int) -> HttpResponse:
+    study_row = selectors.study_for_user(user=request.user, pk=pk)
+    result = selectors.study_load(study_row)
+    study = result.study
+    outline = [
+        {
+            "task": task,
+            "depth": depth,
+            "is_goal": study.is_goal(task.id),
+            "occurs": occurs_text(study, task),
+            "duration": duration_text(task.duration_s),
+            "window": "—" if task.window_s is None else seconds_text(task.window_s),
+            "severity": severity_text(task.severity),
+        }
+        for task, depth in task_outline(study)
+    ]
+    context = {
+        "study_row": study_row,
+        "study": study,
+        "outline": outline,
+        "problems": result.problems,
+        "leaf_count": len(study.leaves),
+    }
+    return render(request, "studies/detail.html", context)
+
+
+@require_GET
+@login_required
+def study_download(request: HttpRequest, pk: int) -> HttpResponse:
+    study_row = selectors.study_for_user(user=request.user, pk=pk)
+    text = json.dumps(selectors.study_document(study_row), indent=2, ensure_ascii=False) + "\n"
+    response = HttpResponse(text, content_type="application/json; charset=utf-8")
+    filename = f"{slugify(study_row.key) or 'study'}.baton.json"
+    response["Content-Disposition"] = f'attachment; filename="{filename}"'
+    return response
