@@ -14,6 +14,7 @@ from django.http import Http404
 
 from allocation import models as m
 from allocation.core import LoadResult, load_study
+from allocation.core.analysis import PlanAnalysis, analyse_plan, prepare
 from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
 
 User = AbstractBaseUser | AnonymousUser
@@ -109,6 +110,16 @@ def study_document(study: m.Study) -> dict[str, Any]:
 def study_load(study: m.Study) -> LoadResult:
     """The study as a core object, with any problems the core finds in it."""
     return load_study(study_document(study))
+
+
+def plan_analyses(result: LoadResult) -> dict[str, PlanAnalysis]:
+    """Every plan of a loaded study analysed; none when the study has errors."""
+    if not result.ok:
+        return {}
+    graph = prepare(result.study)
+    return {
+        plan.id: analyse_plan(result.study, plan.id, graph=graph) for plan in result.study.plans
+    }
 
 
 def _agent(agent: m.Agent) -> dict[str, Any]:

@@ -16,6 +16,7 @@ from typing import Any
 
 __all__ = [
     "ASSUMPTIONS",
+    "METHOD_NOTES",
     "Assumption",
     "assumption_table",
     "check_assumptions",
@@ -74,21 +75,83 @@ def _seconds_by_level(value: Any) -> str | None:
     return None
 
 
-#: Seconds of supervision per occurrence by sv10 level of the decision or action
-#: stage (DESIGN §3.1). Tool assumption: approving (5), watching a veto window (6),
-#: reading a notification (7), looking things up (8, 9); 1-4 and 10 cost none.
+def _table(
+    keys: tuple[str, ...],
+    *,
+    maximum: float | None = None,
+    adds_up_to: dict[str, float] | None = None,
+):
+    """Check an object mapping some of ``keys`` to numbers.
+
+    With ``adds_up_to`` (the defaults), the override merged into the defaults must add up
+    to 1, so that a study may change one weight only if it changes another to match.
+    """
+
+    def check(value: Any) -> str | None:
+        if not isinstance(value, dict):
+            return f"must be an object with the keys {', '.join(keys)}"
+        for key, number in value.items():
+            if key not in keys:
+                return f"has the key {key!r}; keys are {', '.join(keys)}"
+            if not _is_number(number) or number < 0 or (maximum is not None and number > maximum):
+                top = f" and at most {maximum:g}" if maximum is not None else ""
+                return f"gives {key} {number!r}; it must be a number of at least 0{top}"
+        merged = {**(adds_up_to or {}), **value}
+        if adds_up_to is not None and abs(sum(merged.values()) - 1) > 1e-6:
+            return f"weights must add up to 1 with the defaults kept, not {sum(merged.values()):g}"
+        return None
+
+    return check
+
+
+def _range_check(value: Any) -> str | None:
+    if not isinstance(value, list) or len(value) != 3 or not all(_is_number(v) for v in value):
+        return "must be [min, typical, max] seconds"
+    if not 0 <= value[0] <= value[1] <= value[2]:
+        return "must be in order 0 <= min <= typical <= max"
+    return None
+
+
+def _choice(options: tuple[str, ...]):
+    def check(value: Any) -> str | None:
+        return None if value in options else f"must be one of {', '.join(options)}"
+
+    return check
+
+
+#: Seconds of supervision per occurrence by level (DESIGN §3.1), per scale. Tool
+#: assumption. sv10, by the level of the decision or action stage: approving (5),
+#: watching a veto window (6), reading a notification (7), looking things up (8, 9);
+#: 1-4 and 10 cost none. ek10, by the level's Selecting and Implementing roles: the
+#: person selects and the computer implements (3, 5, 7) costs an approval; blended
+#: selection (6) a veto window; computer selection with shared monitoring (8, 9) a
+#: notification or a look-up; the person implementing (1, 2, 4) or nobody (10) none.
 SUPERVISION_S = {
-    "1": 0, "2": 0, "3": 0, "4": 0, "5": 5, "6": 8, "7": 4, "8": 3, "9": 3, "10": 0,
-}  # fmt: skip
+    "sv10": {"1": 0, "2": 0, "3": 0, "4": 0, "5": 5, "6": 8, "7": 4, "8": 3, "9": 3, "10": 0},
+    "ek10": {"1": 0, "2": 0, "3": 5, "4": 0, "5": 5, "6": 8, "7": 5, "8": 4, "9": 3, "10": 0},
+}
+
+FEEDBACK_KINDS = ("none", "on_request", "display", "alert", "alert_confirm")
+AWARENESS_FACTORS = ("automation", "feedback", "initiation", "mode_change", "rarity")
+AWARENESS_WEIGHTS = {
+    "automation": 0.30,
+    "feedback": 0.25,
+    "initiation": 0.15,
+    "mode_change": 0.20,
+    "rarity": 0.10,
+}
+LIKELIHOOD_FACTORS = ("time", "load", "cue", "automation_initiated", "awareness")
 
 ASSUMPTIONS: tuple[Assumption, ...] = (
     Assumption(
         "supervision_s",
         SUPERVISION_S,
         TOOL,
-        "Baton default; levels after Sheridan & Verplank (1978) via Parasuraman et al. (2000)",
-        "Seconds a person spends per occurrence supervising automation at a given level "
-        "of the decision or action stage (approve, watch a veto window, read a notice).",
+        "Baton default; levels of Sheridan & Verplank (1978) via Parasuraman et al. (2000), "
+        "and of Endsley & Kaber (1999)",
+        "Seconds a person spends per occurrence supervising automation at a level of the "
+        "decision or action stage (approve, watch a veto window, read a notice). A study "
+        "overrides the table of its own scale, level by level.",
         _seconds_by_level,
     ),
     Assumption(
@@ -116,9 +179,101 @@ ASSUMPTIONS: tuple[Assumption, ...] = (
         "Concurrent VACP demand on one channel above which the channel counts as overloaded.",
         _number(0.0, None, strict=True),
     ),
+    Assumption(
+        "cue_weakness",
+        {"none": 1.0, "on_request": 0.75, "display": 0.5, "alert": 0.25, "alert_confirm": 0.0},
+        TOOL,
+        "Baton default; ordering after Sarter & Woods (1995): unannounced changes are missed",
+        "How weak each kind of feedback or cue is at keeping the person aware, from 0 "
+        "(an alert that must be confirmed) to 1 (nothing). Used for awareness and handovers; "
+        "an assignment that involves automation and names no feedback counts as none.",
+        _table(FEEDBACK_KINDS, maximum=1),
+    ),
+    Assumption(
+        "initiation_weight",
+        {"automation": 1.0, "event": 0.5, "schedule": 0.25, "human": 0.0},
+        TOOL,
+        "Baton default; after Sarter & Woods (1995): automation-initiated changes are the "
+        "ones people miss",
+        "How much each initiator of a task's occurrences counts toward the awareness "
+        "factor 'started by the automation'.",
+        _table(("automation", "event", "schedule", "human"), maximum=1),
+    ),
+    Assumption(
+        "awareness_weights",
+        AWARENESS_WEIGHTS,
+        TOOL,
+        "Baton default; factors after Endsley & Kiris (1995), Onnasch et al. (2014), "
+        "Sarter & Woods (1995)",
+        "Weights of the mode-awareness factors (they add up to 1): automation of the "
+        "decision and action stages, weakness of feedback, share started by the automation, "
+        "holder changing between modes, rarity of the person's own practice.",
+        _table(AWARENESS_FACTORS, maximum=1, adds_up_to=AWARENESS_WEIGHTS),
+    ),
+    Assumption(
+        "practice_per_day",
+        1.0,
+        TOOL,
+        "Baton default",
+        "Hands-on occurrences per day at or above which a person counts as in practice; "
+        "rarer practice raises the awareness factor 'rarity' toward 1.",
+        _number(0.0, None, strict=True),
+    ),
+    Assumption(
+        "likelihood_weights",
+        {"time": 0.5, "load": 0.2, "cue": 0.3, "automation_initiated": 0.15, "awareness": 0.3},
+        TOOL,
+        "Baton default; factors of DESIGN §3.6 combined by a weighted noisy-OR",
+        "Weight of each handover factor in the likelihood 1 - prod(1 - weight x factor): "
+        "time budget ratio, receiver's concurrent load, weakness of the cue, "
+        "automation-initiated, receiver's mode-awareness index.",
+        _table(LIKELIHOOD_FACTORS, maximum=1),
+    ),
+    Assumption(
+        "default_response_s",
+        [5, 30, 120],
+        TOOL,
+        "Baton default",
+        "A person's response latency [min, typical, max] in seconds when their agent gives "
+        "none; an automation without one responds at once.",
+        _range_check,
+    ),
+    Assumption(
+        "every_days_when",
+        "awake",
+        TOOL,
+        "Baton default",
+        "When in the day a task or event that occurs every N days happens: while the "
+        "person is awake, or at any time.",
+        _choice(("awake", "any")),
+    ),
 )
 
 _BY_KEY = {assumption.key: assumption for assumption in ASSUMPTIONS}
+
+#: Fixed parts of the method, listed with the assumptions but not editable.
+METHOD_NOTES = (
+    ("jitter", TOOL, "A fixed time with jitter_s happens uniformly within +/- jitter_s."),
+    (
+        "rates",
+        TOOL,
+        "A rate per day is a Poisson process, spread evenly over the awake, the "
+        "asleep or the whole day of the first human with an asleep window.",
+    ),
+    (
+        "chains",
+        TOOL,
+        "A task in a chain occurs when any of its predecessors in that chain "
+        "leads on to it (each link with its probability, taken as independent), and starts "
+        "when all of those that occurred are done.",
+    ),
+    (
+        "doa",
+        TOOL,
+        "Overall degree of automation weighs the stages 1 : 2 : 3 : 4 (after "
+        "Onnasch et al. 2014: later stages and higher levels both raise it).",
+    ),
+)
 
 
 def check_assumptions(values: Mapping[str, Any]) -> list[tuple[str, str]]:
@@ -136,29 +291,36 @@ def check_assumptions(values: Mapping[str, Any]) -> list[tuple[str, str]]:
     return problems
 
 
-def resolve_assumptions(values: Mapping[str, Any] | None) -> dict[str, Any]:
+def _default(assumption: Assumption, scale: str) -> Any:
+    if assumption.key == "supervision_s":
+        return assumption.default.get(scale, assumption.default["sv10"])
+    return assumption.default
+
+
+def resolve_assumptions(values: Mapping[str, Any] | None, scale: str = "sv10") -> dict[str, Any]:
     """Every assumption's value in force: the study's override, else the default.
 
-    Level tables are merged level by level, so a study may override one level only.
+    Tables are merged key by key, so a study may override one level or one weight only.
     """
     values = values or {}
     resolved = {}
     for assumption in ASSUMPTIONS:
-        value = values.get(assumption.key, assumption.default)
-        if isinstance(assumption.default, dict) and isinstance(value, dict):
-            value = {**assumption.default, **value}
+        default = _default(assumption, scale)
+        value = values.get(assumption.key, default)
+        if isinstance(default, dict) and isinstance(value, dict):
+            value = {**default, **value}
         resolved[assumption.key] = value
     return resolved
 
 
-def assumption_table(values: Mapping[str, Any] | None) -> list[dict[str, Any]]:
+def assumption_table(values: Mapping[str, Any] | None, scale: str = "sv10") -> list[dict]:
     """One row per assumption: key, default, the study's value, status, source, text."""
     values = values or {}
-    resolved = resolve_assumptions(values)
+    resolved = resolve_assumptions(values, scale)
     return [
         {
             "key": assumption.key,
-            "default": assumption.default,
+            "default": _default(assumption, scale),
             "value": resolved[assumption.key],
             "overridden": assumption.key in values,
             "status": assumption.status,

@@ -54,6 +54,10 @@ _PLAIN_KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*\Z")
 _CLOCK = re.compile(r"^([0-9]{2}):([0-9]{2})(?::([0-9]{2}))?\Z")
 _MISSING = object()
 
+#: The most often anything may happen: a million times a day (about twelve a second).
+#: Rates, and ``every_days``, beyond it are surely typing mistakes.
+MAX_PER_DAY = 1_000_000
+
 
 def child_path(path: str, key: str | int) -> str:
     """The JSON path of ``key`` inside the value at ``path``."""
@@ -454,13 +458,19 @@ class StudyReader:
             fields["times"] = tuple(c for c in clocks if c is not None)
         fields["jitter_s"] = self.optional(data, "jitter_s", path, self.number)
         fields["per_day"] = self.optional(
-            data, "per_day", path, lambda v, p: self.number(v, p, positive=True)
+            data,
+            "per_day",
+            path,
+            lambda v, p: self.number(v, p, positive=True, maximum=MAX_PER_DAY),
         )
         fields["when"] = self.optional(
             data, "when", path, lambda v, p: self.choice(v, p, EVENT_WHEN)
         )
         fields["every_days"] = self.optional(
-            data, "every_days", path, lambda v, p: self.number(v, p, positive=True)
+            data,
+            "every_days",
+            path,
+            lambda v, p: self.number(v, p, positive=True, minimum=1 / MAX_PER_DAY),
         )
         self._one_way(data, path, ("times", "per_day", "every_days", "event"))
         if "jitter_s" in data and "times" not in data:
@@ -752,7 +762,10 @@ class StudyReader:
             or "human",
             cue=self.optional(data, "cue", path, lambda v, p: self.choice(v, p, CUES)) or "none",
             per_day=self.optional(
-                data, "per_day", path, lambda v, p: self.number(v, p, positive=True)
+                data,
+                "per_day",
+                path,
+                lambda v, p: self.number(v, p, positive=True, maximum=MAX_PER_DAY),
             ),
             notes=self.optional(data, "notes", path, self.text),
         )

@@ -6,7 +6,7 @@ import json
 
 from django.conf import settings
 from django.contrib.auth.decorators import login_required
-from django.http import HttpRequest, HttpResponse
+from django.http import Http404, HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
 from django.utils.text import slugify
@@ -15,6 +15,7 @@ from django_htmx.http import HttpResponseClientRedirect
 
 from allocation import selectors, services
 from allocation.core import Problem, StudyInvalid
+from allocation.core.analysis import analyse_plan
 from allocation.core.describe import (
     duration_text,
     occurs_text,
@@ -81,22 +82,49 @@ def study_detail(request: HttpRequest, pk: int) -> HttpResponse:
         }
         for task, depth in task_outline(study)
     ]
+    analyses = selectors.plan_analyses(result)
+    plans = [
+        {
+            "plan": plan,
+            "allocated": len(plan.assignments),
+            "headline": analyses[plan.id].headline() if plan.id in analyses else None,
+        }
+        for plan in study.plans
+    ]
     context = {
         "study_row": study_row,
         "study": study,
         "outline": outline,
+        "plans": plans,
         "problems": result.problems,
         "leaf_count": len(study.leaves),
     }
     return render(request, "studies/detail.html", context)
 
 
+def _json_attachment(payload: object, filename: str) -> HttpResponse:
+    text = json.dumps(payload, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    response = HttpResponse(text, content_type="application/json; charset=utf-8")
+    response["Content-Disposition"] = f'attachment; filename="{filename}"'
+    return response
+
+
 @require_GET
 @login_required
 def study_download(request: HttpRequest, pk: int) -> HttpResponse:
     study_row = selectors.study_for_user(user=request.user, pk=pk)
-    text = json.dumps(selectors.study_document(study_row), indent=2, ensure_ascii=False) + "\n"
-    response = HttpResponse(text, content_type="application/json; charset=utf-8")
     filename = f"{slugify(study_row.key) or 'study'}.baton.json"
-    response["Content-Disposition"] = f'attachment; filename="{filename}"'
-    return response
+    return _json_attachment(selectors.study_document(study_row), filename)
+
+
+@require_GET
+@login_required
+def plan_analysis_download(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
+    """The analysis file of one plan (DESIGN §6), as ``manage.py analyse --json`` writes it."""
+    study_row = selectors.study_for_user(user=request.user, pk=pk)
+    result = selectors.study_load(study_row)
+    if not result.ok or plan not in result.study.plans_by_id:
+        raise Http404("No such plan, or the study has errors to fix first.")
+    analysis = analyse_plan(result.study, plan)
+    filename = f"{slugify(study_row.key) or 'study'}.{slugify(plan) or 'plan'}.analysis.json"
+    return _json_attachment(analysis.to_json(), filename)

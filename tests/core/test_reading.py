@@ -596,6 +596,31 @@ def test_a_number_that_must_be_positive_cannot_be_zero_or_less(make_study, where
     assert_problem(result, path, "must be more than 0, not ")
 
 
+@pytest.mark.parametrize(
+    ("where", "value", "path", "fragment"),
+    [
+        (("tasks", 1, "occurs"), {"per_day": 2e6}, "$.tasks[1].occurs.per_day", "at most 1e+06"),
+        (
+            ("tasks", 1, "occurs"),
+            {"every_days": 1e-9},
+            "$.tasks[1].occurs.every_days",
+            "at least 1e-06",
+        ),
+        (
+            ("plans", 1, "modes", "transitions", 1, "per_day"),
+            5e6,
+            "$.plans[1].modes.transitions[1].per_day",
+            "at most 1e+06",
+        ),
+    ],
+)
+def test_a_rate_above_a_million_a_day_is_an_error(make_study, where, value, path, fragment):
+    """Nothing in a study happens more than a million times a day; beyond that the figures
+    would overflow, so the reader refuses it as a likely typing mistake."""
+    result = load_changed(make_study, setting(*where, value=value))
+    assert_problem(result, path, fragment)
+
+
 def test_an_inverted_range_is_an_error(make_study):
     result = load_changed(make_study, setting("tasks", 1, "duration_s", value=[30, 5, 2]))
     assert_problem(

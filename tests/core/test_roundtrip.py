@@ -35,6 +35,8 @@ TEXT = st.text(min_size=1, max_size=12).filter(str.strip)
 SMALL = st.integers(0, 10**6) | st.floats(0, 1e6, allow_nan=False)
 POSITIVE = st.integers(1, 10**6) | st.floats(0, 1e6, exclude_min=True, allow_nan=False)
 SHARE = st.floats(0, 1, exclude_min=True)  # a probability in (0, 1]
+# At most a million times a day, so every_days is at least a millionth of a day.
+EVERY_DAYS = st.integers(1, 10**6) | st.floats(1e-6, 1e6, allow_nan=False)
 CLOCK = st.builds(
     lambda h, m, s: f"{h:02d}:{m:02d}" if s is None else f"{h:02d}:{m:02d}:{s:02d}",
     st.integers(0, 23),
@@ -77,7 +79,7 @@ def ways_of_occurring(events: list[str]) -> st.SearchStrategy:
         st.fixed_dictionaries(
             {"per_day": POSITIVE}, optional={"when": st.sampled_from(EVENT_WHEN)}
         ),
-        st.fixed_dictionaries({"every_days": POSITIVE}),
+        st.fixed_dictionaries({"every_days": EVERY_DAYS}),
     ]
     if events:
         ways.append(

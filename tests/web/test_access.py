@@ -9,32 +9,41 @@ from allocation import models as m
 
 from .conftest import make_user
 
-#: Every URL that belongs to one study. Add each new study URL here.
-STUDY_URLS = ["study-detail", "study-download"]
+#: Every URL that belongs to one study, with its arguments after the study's number.
+#: Add each new study URL here.
+STUDY_URLS = {
+    "study-detail": [],
+    "study-download": [],
+    "plan-analysis-download": ["auto"],
+}
+
+
+def study_url(name: str, pk: int) -> str:
+    return reverse(name, args=[pk, *STUDY_URLS[name]])
 
 
 @pytest.mark.parametrize("name", STUDY_URLS)
 def test_non_member_gets_404_everywhere(client, study, name):
     client.force_login(make_user("stranger"))
-    assert client.get(reverse(name, args=[study.pk])).status_code == 404
+    assert client.get(study_url(name, study.pk)).status_code == 404
 
 
 @pytest.mark.parametrize("name", STUDY_URLS)
 def test_missing_study_gets_the_same_404(client, study, name):
     client.force_login(study.memberships.get().user)
-    assert client.get(reverse(name, args=[study.pk + 1000])).status_code == 404
+    assert client.get(study_url(name, study.pk + 1000)).status_code == 404
 
 
 @pytest.mark.parametrize("name", STUDY_URLS)
 @pytest.mark.parametrize("role", m.Role.values)
 def test_every_role_can_read(client, study, member_of, name, role):
     client.force_login(member_of(role))
-    assert client.get(reverse(name, args=[study.pk])).status_code == 200
+    assert client.get(study_url(name, study.pk)).status_code == 200
 
 
 @pytest.mark.parametrize("name", STUDY_URLS)
 def test_anonymous_is_sent_to_sign_in(client, study, name):
-    response = client.get(reverse(name, args=[study.pk]))
+    response = client.get(study_url(name, study.pk))
     assert response.status_code == 302
     assert response["Location"].startswith(reverse("login"))
 

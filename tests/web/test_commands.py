@@ -116,3 +116,52 @@ def test_production_without_secret_key_refuses_to_start(tmp_path):
     result = _manage("check", env=env)
     assert result.returncode != 0
     assert "BATON_SECRET_KEY must be set" in result.stderr
+
+
+def test_analyse_a_study_file_prints_a_report_for_every_plan(heating_document, tmp_path):
+    source = tmp_path / "heating.json"
+    source.write_text(json.dumps(heating_document))
+    output = run("analyse", str(source))
+    assert "plan manual: Resident does it" in output and "plan auto:" in output
+    assert "Cautions: Baton supports human-factors analysis" in output
+
+
+def test_analyse_stored_study_as_json_has_the_design_keys(study):
+    document = json.loads(run("analyse", "home-heating", "--plan", "auto", "--json"))
+    assert {
+        "format",
+        "version",
+        "study",
+        "plan",
+        "people",
+        "tasks",
+        "handovers",
+        "coherence",
+        "findings",
+    } <= set(document)
+    assert set(document["people"]["resident"]) >= {
+        "burden_s_per_day",
+        "interactions_per_day",
+        "interruptions_per_day",
+        "night_interruptions_per_day",
+        "monitoring_s_per_day",
+    }
+
+
+def test_analyse_unknown_plan_names_the_plans(study):
+    with pytest.raises(CommandError, match=r"no plan 'nope' \(plans: manual, auto\)"):
+        run("analyse", "home-heating", "--plan", "nope")
+
+
+def test_analyse_a_file_with_errors_lists_them(heating_document, tmp_path):
+    heating_document["tasks"][1]["severity"] = 9
+    source = tmp_path / "bad.json"
+    source.write_text(json.dumps(heating_document))
+    with pytest.raises(CommandError, match=r"\$\.tasks\[1\]\.severity"):
+        run("analyse", str(source))
+
+
+def test_bench_prints_the_ratios_against_the_targets():
+    output = run("bench", "--large", "2000", "--repeats", "1")
+    assert "analysis / floor at 1,000 tasks" in output
+    assert "2,000 / 1,000 tasks" in output

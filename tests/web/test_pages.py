@@ -122,3 +122,29 @@ def test_htmx_is_served_locally_not_from_a_cdn(client, db):
     page = client.get(reverse("login")).content.decode()
     assert "django_htmx" in page or "htmx" in page
     assert "unpkg" not in page and "cdn" not in page.lower()
+
+
+def test_study_page_shows_each_plans_headline_figures(client, study, owner):
+    client.force_login(owner)
+    page = client.get(reverse("study-detail", args=[study.pk])).content.decode()
+    assert "Person time / day" in page and "analysis file" in page
+    assert reverse("plan-analysis-download", args=[study.pk, "auto"]) in page
+
+
+def test_plan_analysis_download_is_the_analysis_file(client, study, owner):
+    client.force_login(owner)
+    response = client.get(reverse("plan-analysis-download", args=[study.pk, "auto"]))
+    document = json.loads(response.content)
+    assert response["Content-Disposition"].endswith('auto.analysis.json"')
+    assert (document["format"], document["study"], document["plan"]) == (
+        "baton.analysis",
+        "home-heating",
+        "auto",
+    )
+    assert document["cautions"] == CAUTIONS
+
+
+def test_analysis_of_unknown_plan_is_404(client, study, owner):
+    client.force_login(owner)
+    response = client.get(reverse("plan-analysis-download", args=[study.pk, "nope"]))
+    assert response.status_code == 404

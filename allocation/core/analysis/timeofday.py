@@ -92,8 +92,11 @@ class DayShare:
         pieces = []
         for moment in seconds:
             parts = wrap_interval(moment - half, moment + half)
+            # A jitter of half a day or more covers the whole day: its one piece then
+            # carries the time's whole weight.
+            length = sum(b - a for a, b in parts)
             for a, b in parts:
-                pieces.append((a, b, (b - a) / (2 * half) / len(seconds)))
+                pieces.append((a, b, (b - a) / length / len(seconds)))
         return cls(tuple(pieces))
 
     def share_within(self, intervals: Iterable[tuple[float, float]]) -> float:

@@ -1,0 +1,219 @@
+"""Chains and deadlines: when each task of a chain can start and finish (DESIGN §3.9).
+
+For each trigger (an event, or a task's own schedule), each task of its chain gets its
+earliest, typical and latest start and finish, in seconds from the start of the chain:
+
+- a root of an event's chain starts after its holder's response latency (the event
+  hands the work to them); a root of a schedule starts at once;
+- any other task starts when all its predecessors in the chain that can occur are done,
+  each plus its link lag, plus the receiving holder's response latency when the work
+  changes hands;
+- it finishes its duration later (min, typical, max).
+
+Latency is awake or asleep as the time of day makes it: a human's latency is weighted by
+the share of the moments the work reaches them (the chain's starts, shifted by when the
+work typically arrives) that fall in their asleep window (typical), and spans both where
+both can happen (earliest, latest). A task's ``window_s`` is measured from the
+start of its chain; a latest finish beyond it is a ``window_missed`` finding.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any, NamedTuple
+
+from ..graph import Trigger
+from ..model import Lag, Range, Study
+from .occurrences import Occurrences
+from .timeofday import asleep_intervals
+
+__all__ = ["ChainTiming", "Span", "TaskTiming", "chain_timings", "response_latency"]
+
+
+class Span(NamedTuple):
+    """Earliest, typical and latest values, in seconds.
+
+    A named tuple of floats rather than a dataclass: chains make many of them, and the
+    garbage collector skips tuples that hold only numbers.
+    """
+
+    low: float
+    typical: float
+    high: float
+
+    def __add__(self, other: Span) -> Span:  # type: ignore[override]
+        return Span(self.low + other.low, self.typical + other.typical, self.high + other.high)
+
+    @staticmethod
+    def later(spans: list[Span]) -> Span:
+        """Each of earliest, typical, latest: the latest among the spans."""
+        return Span(
+            max(s.low for s in spans), max(s.typical for s in spans), max(s.high for s in spans)
+        )
+
+    @staticmethod
+    def of(value: Range | Lag | None) -> Span:
+        if value is None:
+            return ZERO
+        return Span(float(value.low), float(value.typical), float(value.high))
+
+    def as_list(self) -> list[float]:
+        return [self.low, self.typical, self.high]
+
+
+ZERO = Span(0.0, 0.0, 0.0)
+
+
+@dataclass(frozen=True, slots=True)
+class TaskTiming:
+    """One task in one chain: when it is ready, starts and finishes, and its window."""
+
+    task_id: str
+    probability: float
+    ready: Span
+    latency: Span
+    start: Span
+    finish: Span
+    window_s: float | None
+
+    @property
+    def misses_window(self) -> str | None:
+        """``"always"``, ``"typically"``, ``"possibly"`` or ``None``."""
+        if self.window_s is None:
+            return None
+        if self.finish.low > self.window_s:
+            return "always"
+        if self.finish.typical > self.window_s:
+            return "typically"
+        if self.finish.high > self.window_s:
+            return "possibly"
+        return None
+
+
+@dataclass(frozen=True)
+class ChainTiming:
+    """A trigger's chain with the timing of each of its tasks, in chain order."""
+
+    trigger: Trigger
+    per_day: float
+    tasks: tuple[TaskTiming, ...]
+
+
+def response_latency(
+    study: Study, agent_id: str | None, asleep_share: float, default_human: list[float]
+) -> Span:
+    """An agent's response latency, weighted by how often it is asleep when called on.
+
+    A human without a latency of their own takes the assumption ``default_response_s``;
+    one without an asleep latency responds as when awake. An automation without one
+    responds at once.
+    """
+    agent = study.agents_by_id.get(agent_id) if agent_id else None
+    if agent is None:
+        return ZERO
+    response = agent.response_s or {}
+    if not agent.is_human:
+        return Span.of(response.get("any"))
+    awake_range = response.get("awake") or response.get("any")
+    awake = Span.of(awake_range) if awake_range else Span(*map(float, default_human))
+    asleep = Span.of(response["asleep"]) if "asleep" in response else awake
+    share = min(max(asleep_share, 0.0), 1.0)
+    if share <= 0:
+        return awake
+    if share >= 1:
+        return asleep
+    return Span(
+        min(awake.low, asleep.low),
+        (1 - share) * awake.typical + share * asleep.typical,
+        max(awake.high, asleep.high),
+    )
+
+
+def chain_timings(
+    study: Study,
+    occurrences: Occurrences,
+    predecessors: dict[str, list[tuple[str, Lag | None]]],
+    position: dict[str, int],
+    holder: Callable[[str], str | None],
+    duration: Callable[[str], Range | None],
+    assumptions: dict[str, Any],
+) -> list[ChainTiming]:
+    """The timing of every chain under a plan.
+
+    Parameters
+    ----------
+    study : Study
+    occurrences : Occurrences
+        From :func:`~allocation.core.analysis.occurrences.occurrences` for the plan.
+    predecessors : dict
+        Task id to its ``precedes`` predecessors as ``(task id, lag)``.
+    position : dict
+        Task id to its place in a topological order.
+    holder : callable
+        Task id to its principal holder (agent id) under the plan, or ``None``.
+    duration : callable
+        Task id to its duration under the plan.
+    assumptions : dict
+        The resolved assumptions (``default_response_s``).
+
+    Returns
+    -------
+    list of ChainTiming
+    """
+    default_human = assumptions["default_response_s"]
+    sleep_of = {agent.id: asleep_intervals(agent) for agent in study.humans}
+    chains = []
+    for trigger_id, timing in occurrences.timings.items():
+        members = {
+            task_id: chance
+            for task_id, chance in occurrences.chains[trigger_id].items()
+            if chance > 0
+        }
+        latencies: dict[tuple[str | None, int], Span] = {}
+
+        def latency_of(
+            agent_id: str | None, after: Span, _timing=timing, _cache=latencies
+        ) -> Span:
+            """The agent's latency when the work reaches them ``after`` the chain's start
+            (typically): asleep or awake as that moment of the day makes it."""
+            key = (agent_id, round(after.typical / 60))
+            if key not in _cache:
+                pieces = sleep_of.get(agent_id or "", [])
+                share = _timing.timing.shifted(after.typical).share_within(pieces) if pieces else 0
+                _cache[key] = response_latency(study, agent_id, share, default_human)
+            return _cache[key]
+
+        done: dict[str, TaskTiming] = {}
+        roots = set(timing.trigger.roots)
+        for task_id in sorted(members, key=position.__getitem__):
+            receiver = holder(task_id)
+            if task_id in roots:
+                ready = ZERO
+                latency = latency_of(receiver, ZERO) if timing.from_event else ZERO
+                start = latency
+            else:
+                arrivals = []
+                for source, lag in predecessors.get(task_id, ()):
+                    if source not in done:
+                        continue
+                    arrival = done[source].finish + Span.of(lag)
+                    handed = receiver is not None and holder(source) != receiver
+                    arrivals.append((arrival, latency_of(receiver, arrival) if handed else ZERO))
+                ready = Span.later([arrival for arrival, _wait in arrivals])
+                start = Span.later([arrival + wait for arrival, wait in arrivals])
+                latency = Span(
+                    start.low - ready.low, start.typical - ready.typical, start.high - ready.high
+                )
+            task = study.task(task_id)
+            done[task_id] = TaskTiming(
+                task_id=task_id,
+                probability=members[task_id],
+                ready=ready,
+                latency=latency,
+                start=start,
+                finish=start + Span.of(duration(task_id)),
+                window_s=None if task.window_s is None else float(task.window_s),
+            )
+        chains.append(ChainTiming(timing.trigger, timing.per_day, tuple(done.values())))
+    return chains

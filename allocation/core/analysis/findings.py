@@ -1,0 +1,143 @@
+"""Findings: points in a plan that a review should look at, each with its tasks and
+severity.
+
+This module holds the finding record and the findings of DESIGN §3.5:
+
+- ``accountability``: the accountable human is not the principal holder, so they must
+  monitor work another agent holds (responsibility-authority mismatch; Pritchett, Kim &
+  Feigh 2014); an automation named accountable is a finding too;
+- ``capability``: an agent does a stage of a task whose needed capability it lacks
+  (requirement 1 of Feigh & Pritchett 2014: each agent is allocated only what it can
+  do). Needs are per task, so every agent doing any stage must have them all.
+
+References
+----------
+.. [1] Pritchett, A. R., Kim, S. Y., & Feigh, K. M. (2014). Measuring human-automation
+   function allocation. JCEDM, 8(1), 52-77.
+.. [2] Feigh, K. M., & Pritchett, A. R. (2014). Requirements for effective function
+   allocation: a critical review. JCEDM, 8(1), 23-32.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from ..model import Study
+from ..vocabulary import STAGES
+from .involvement import Involvement
+
+__all__ = ["Finding", "accountability_findings", "capability_findings"]
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One point to review."""
+
+    kind: str
+    severity: int
+    message: str
+    tasks: tuple[str, ...] = ()
+    modes: tuple[str, ...] = ()
+    events: tuple[str, ...] = ()
+    agents: tuple[str, ...] = ()
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "kind": self.kind,
+            "severity": self.severity,
+            "tasks": list(self.tasks),
+            "modes": list(self.modes),
+            "events": list(self.events),
+            "agents": list(self.agents),
+            "message": self.message,
+        }
+
+
+def _severity(study: Study, task_id: str) -> int:
+    return study.task(task_id).severity or 1
+
+
+def _label(study: Study, task_id: str) -> str:
+    return f"{task_id} ({study.task(task_id).title})"
+
+
+def _name(study: Study, agent_id: str) -> str:
+    agent = study.agents_by_id.get(agent_id)
+    return agent.name if agent else agent_id
+
+
+def accountability_findings(
+    study: Study, involved: Involvement, mode: str | None = None
+) -> list[Finding]:
+    """Responsibility-authority mismatches of one task under one assignment."""
+    if not involved.applies or involved.accountable is None:
+        return []
+    accountable = study.agents_by_id.get(involved.accountable)
+    where = f" in mode {mode}" if mode else ""
+    modes = (mode,) if mode else ()
+    task = _label(study, involved.task_id)
+    if accountable is not None and not accountable.is_human:
+        return [
+            Finding(
+                "accountability",
+                _severity(study, involved.task_id),
+                f"{accountable.name} is named accountable for {task}{where}, but accountability "
+                "rests with people; name the person who answers for it.",
+                (involved.task_id,),
+                modes,
+                (),
+                (involved.accountable,),
+            )
+        ]
+    if involved.monitor is None:
+        return []
+    holder = _name(study, involved.principal) if involved.principal else "nobody"
+    return [
+        Finding(
+            "accountability",
+            _severity(study, involved.task_id),
+            f"{_name(study, involved.monitor)} is accountable for {task}{where} but "
+            f"{holder} holds it: they must monitor it ({involved.monitoring_s:g} s per occurrence "
+            "added to their load).",
+            (involved.task_id,),
+            modes,
+            (),
+            (involved.monitor, involved.principal or ""),
+        )
+    ]
+
+
+def capability_findings(
+    study: Study, involved: Involvement, mode: str | None = None
+) -> list[Finding]:
+    """Agents doing a stage of the task without a capability it needs."""
+    task = study.task(involved.task_id)
+    if not involved.applies or not task.needs:
+        return []
+    findings = []
+    doers = []
+    if involved.human is not None and any(involved.degrees[s] < 1 for s in STAGES):
+        doers.append(involved.human)
+    if involved.automation is not None and any(involved.degrees[s] > 0 for s in STAGES):
+        doers.append(involved.automation)
+    where = f" in mode {mode}" if mode else ""
+    for agent_id in doers:
+        agent = study.agents_by_id.get(agent_id)
+        if agent is None:
+            continue
+        missing = sorted(set(task.needs) - agent.capability_set)
+        if missing:
+            findings.append(
+                Finding(
+                    "capability",
+                    task.severity or 1,
+                    f"{agent.name} does part of {_label(study, task.id)}{where} but lacks "
+                    f"{', '.join(missing)}, which the task needs.",
+                    (task.id,),
+                    (mode,) if mode else (),
+                    (),
+                    (agent_id,),
+                )
+            )
+    return findings

@@ -1,0 +1,173 @@
+"""How often each task occurs per day, analytically, and when in the day.
+
+Each event and each task with its own schedule is a *trigger*. A trigger happens
+``per_day`` times a day at times spread by a :class:`DayShare`. Within one happening of
+a trigger, its root tasks occur (an event's task with its ``probability``), and a task
+further down the chain occurs when any of its predecessors in the chain leads on to it,
+each ``precedes`` link with its probability, the links taken as independent:
+
+    P(task) = 1 - prod over predecessors p of (1 - P(p) * probability(p -> task))
+
+which is exact for tree-shaped chains. A task reached from several triggers adds their
+occurrences up. A task that does not apply under the plan does not occur and its chain
+does not continue through it.
+"""
+
+from __future__ import annotations
+
+import heapq
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+from ..graph import Trigger, triggers
+from ..model import Event, Occurs, Study, seconds_of_day
+from .timeofday import DayShare, asleep_intervals, awake_intervals, primary_sleeper
+
+__all__ = ["Occurrences", "TriggerTiming", "occurrences", "trigger_timings"]
+
+
+@dataclass(frozen=True)
+class TriggerTiming:
+    """A trigger with how often and when in the day it happens."""
+
+    trigger: Trigger
+    per_day: float
+    timing: DayShare
+
+    @property
+    def from_event(self) -> bool:
+        return self.trigger.kind == "event"
+
+
+def _rate_and_timing(
+    rule: Event | Occurs, study: Study, every_days_when: str
+) -> tuple[float, DayShare]:
+    person = primary_sleeper(study)
+    if rule.times is not None:
+        seconds = [seconds_of_day(clock) for clock in rule.times]
+        return float(len(seconds)), DayShare.at_times(seconds, rule.jitter_s or 0)
+    if rule.per_day is not None:
+        when = rule.when or "awake"
+        pieces = {"awake": awake_intervals(person), "asleep": asleep_intervals(person), "any": []}[
+            when
+        ]
+        return float(rule.per_day), DayShare.uniform(pieces)
+    if rule.every_days is not None:
+        pieces = awake_intervals(person) if every_days_when == "awake" else []
+        return 1.0 / float(rule.every_days), DayShare.uniform(pieces)
+    return 0.0, DayShare.uniform([])
+
+
+def trigger_timings(study: Study, every_days_when: str = "awake") -> list[TriggerTiming]:
+    """Every trigger of the study with its rate per day and its time-of-day spread."""
+    result = []
+    for trigger in triggers(study):
+        if trigger.kind == "event":
+            rule = study.events_by_id[trigger.id]
+        else:
+            rule = study.task(trigger.roots[0]).occurs
+        per_day, timing = _rate_and_timing(rule, study, every_days_when)
+        result.append(TriggerTiming(trigger, per_day, timing))
+    return result
+
+
+@dataclass
+class Occurrences:
+    """Occurrences per day of every leaf task, by trigger.
+
+    Attributes
+    ----------
+    per_day : dict
+        Task id to occurrences per day, all triggers together.
+    probability : dict
+        Task id to ``{trigger id: probability the task occurs in one happening}``.
+    from_trigger : dict
+        Task id to ``{trigger id: occurrences per day from that trigger}``.
+    timings : dict
+        Trigger id to its :class:`TriggerTiming`.
+    chains : dict
+        Trigger id to ``{task id: probability}`` for the tasks its chain can reach.
+    """
+
+    per_day: dict[str, float] = field(default_factory=dict)
+    probability: dict[str, dict[str, float]] = field(default_factory=dict)
+    from_trigger: dict[str, dict[str, float]] = field(default_factory=dict)
+    timings: dict[str, TriggerTiming] = field(default_factory=dict)
+    chains: dict[str, dict[str, float]] = field(default_factory=dict)
+
+
+def occurrences(
+    study: Study,
+    successors: dict[str, list[tuple[str, float]]],
+    position: dict[str, int],
+    applies: Callable[[str], bool] = lambda _task_id: True,
+    every_days_when: str = "awake",
+) -> Occurrences:
+    """Analytic occurrences per day of every leaf task.
+
+    Parameters
+    ----------
+    study : Study
+    successors : dict
+        Task id to its ``precedes`` successors as ``(task id, link probability)``.
+    position : dict
+        Task id to its place in a topological order of the ``precedes`` links.
+    applies : callable
+        Whether a task is done at all under the plan.
+    every_days_when : str
+        The assumption ``every_days_when``.
+
+    Returns
+    -------
+    Occurrences
+    """
+    result = Occurrences(per_day={task.id: 0.0 for task in study.leaves})
+    for task in study.leaves:
+        result.probability[task.id] = {}
+        result.from_trigger[task.id] = {}
+    for timing in trigger_timings(study, every_days_when):
+        trigger = timing.trigger
+        result.timings[trigger.id] = timing
+        chance = _chain_probabilities(study, trigger, successors, position, applies)
+        result.chains[trigger.id] = chance
+        for task_id, probability in chance.items():
+            result.probability[task_id][trigger.id] = probability
+            result.from_trigger[task_id][trigger.id] = timing.per_day * probability
+            result.per_day[task_id] += timing.per_day * probability
+    return result
+
+
+def _chain_probabilities(
+    study: Study,
+    trigger: Trigger,
+    successors: dict[str, list[tuple[str, float]]],
+    position: dict[str, int],
+    applies: Callable[[str], bool],
+) -> dict[str, float]:
+    """The probability of each task of a chain in one happening of its trigger.
+
+    Tasks are finished in topological order (a heap on the order's position), so each
+    task has heard from all its predecessors before it passes its probability on.
+    """
+    chance: dict[str, float] = {}
+    heap: list[tuple[int, str]] = []
+    for root in trigger.roots:
+        if not applies(root):
+            continue
+        occurs = study.task(root).occurs
+        own = 1.0 if occurs.probability is None else float(occurs.probability)
+        chance[root] = 1 - (1 - chance.get(root, 0.0)) * (1 - own)
+        heapq.heappush(heap, (position[root], root))
+    done: set[str] = set()
+    while heap:
+        _place, task_id = heapq.heappop(heap)
+        if task_id in done:
+            continue
+        done.add(task_id)
+        for target, link_probability in successors.get(task_id, ()):
+            if not applies(target):
+                continue
+            passed = chance[task_id] * link_probability
+            chance[target] = 1 - (1 - chance.get(target, 0.0)) * (1 - passed)
+            heapq.heappush(heap, (position[target], target))
+    return chance

@@ -1,0 +1,593 @@
+"""Analyse one plan of a study: the one entry point of the analyses.
+
+>>> graph = prepare(study)                       # plan-independent, reuse across plans
+>>> result = analyse_plan(study, "hybrid-loop", graph=graph)
+>>> result.to_json()                             # the analysis file of DESIGN §6
+
+The steps, each in its own module: assignments resolve into degrees, holders and person
+time (:mod:`.involvement`); the mode map gives the share of the day in each mode
+(:mod:`.modes`); occurrences per day propagate along chains (:mod:`.occurrences`); chains
+get their timing and deadlines (:mod:`.chains`); daily figures per person follow; then
+mode awareness (:mod:`.awareness`), handovers (:mod:`.handovers`), coherence
+(:mod:`.coherence`) and findings (:mod:`.findings`).
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from dataclasses import dataclass, field
+from typing import Any
+
+from ..assumptions import resolve_assumptions
+from ..describe import seconds_text
+from ..graph import precedence_order
+from ..model import Lag, Plan, Study
+from ..vocabulary import STAGES
+from .awareness import Awareness, awareness
+from .chains import ChainTiming, Span, chain_timings, response_latency
+from .coherence import Coherence, coherence
+from .findings import Finding, accountability_findings, capability_findings
+from .handovers import Handover, HandoverSite, assess_handover, time_budget_ratio
+from .involvement import Involvement, involvement
+from .modes import assignment_in_mode, mode_occupancy
+from .occurrences import Occurrences, occurrences
+from .risk import resolve_policy
+from .timeofday import DAY_S, DayShare, asleep_intervals
+
+__all__ = ["PersonFigures", "PlanAnalysis", "StudyGraph", "TaskFigures", "analyse_plan", "prepare"]
+
+INTERRUPTING = ("automation", "event")
+
+
+@dataclass(frozen=True)
+class StudyGraph:
+    """The plan-independent structure of a study, built once for all its plans."""
+
+    order: tuple[str, ...]
+    position: dict[str, int]
+    successors: dict[str, list[tuple[str, float]]]
+    predecessors: dict[str, list[tuple[str, Lag | None]]]
+
+
+def prepare(study: Study) -> StudyGraph:
+    """Order the tasks and index the ``precedes`` links (the floor of every analysis)."""
+    order = tuple(precedence_order(study))
+    successors: dict[str, list[tuple[str, float]]] = defaultdict(list)
+    predecessors: dict[str, list[tuple[str, Lag | None]]] = defaultdict(list)
+    for link in study.links:
+        if link.kind == "precedes":
+            probability = 1.0 if link.probability is None else float(link.probability)
+            successors[link.source].append((link.target, probability))
+            predecessors[link.target].append((link.source, link.lag_s))
+    return StudyGraph(
+        order, {task: i for i, task in enumerate(order)}, dict(successors), dict(predecessors)
+    )
+
+
+@dataclass
+class PersonFigures:
+    """A human's daily figures under a plan (DESIGN §3.1)."""
+
+    agent_id: str
+    burden_s_per_day: float = 0.0
+    interactions_per_day: float = 0.0
+    interruptions_per_day: float = 0.0
+    night_interruptions_per_day: float = 0.0
+    monitoring_s_per_day: float = 0.0
+    awake_s: float = DAY_S
+
+    @property
+    def load(self) -> float:
+        """The daily burden as a share of the waking day."""
+        return self.burden_s_per_day / self.awake_s if self.awake_s else 0.0
+
+    def to_json(self) -> dict[str, float]:
+        return {
+            "burden_s_per_day": self.burden_s_per_day,
+            "interactions_per_day": self.interactions_per_day,
+            "interruptions_per_day": self.interruptions_per_day,
+            "night_interruptions_per_day": self.night_interruptions_per_day,
+            "monitoring_s_per_day": self.monitoring_s_per_day,
+            "awake_share_used": self.load,
+        }
+
+
+@dataclass
+class TaskFigures:
+    """One leaf task under the plan, in its normal (initial) mode, with its daily figures."""
+
+    involved: Involvement
+    per_day: float
+    initiator: str
+    person_s_per_day: dict[str, float]
+    asleep_share: dict[str, float]
+    awareness: Awareness | None = None
+    ready_s: float = 0.0
+
+    @property
+    def person_s(self) -> float:
+        """Seconds per occurrence all humans together spend on it."""
+        involved = self.involved
+        return involved.human_s + (involved.monitoring_s if involved.monitor else 0.0)
+
+
+@dataclass
+class PlanAnalysis:
+    """Everything Baton computes for one plan."""
+
+    study: Study
+    plan: Plan
+    assumptions: dict[str, Any]
+    policy: dict[str, Any]
+    occurrences: Occurrences
+    tasks: dict[str, TaskFigures]
+    people: dict[str, PersonFigures]
+    chains: list[ChainTiming]
+    handovers: list[Handover]
+    coherence: Coherence
+    findings: list[Finding]
+    mode_share: dict[str, float] = field(default_factory=dict)
+
+    def headline(self) -> dict[str, float]:
+        """The plan's headline figures, for overviews and comparison."""
+        people = self.people.values()
+        risks = [handover.risk for handover in self.handovers]
+        return {
+            "burden_s_per_day": sum(p.burden_s_per_day for p in people),
+            "interruptions_per_day": sum(p.interruptions_per_day for p in people),
+            "night_interruptions_per_day": sum(p.night_interruptions_per_day for p in people),
+            "handovers": len(self.handovers),
+            "handovers_per_day": sum(h.site.per_day for h in self.handovers),
+            "handovers_to_review": sum(h.band != "acceptable" for h in self.handovers),
+            "max_risk": max(risks, default=0),
+            "mean_awareness": _mean(
+                [t.awareness.index for t in self.tasks.values() if t.awareness is not None]
+            ),
+            "cut_ratio": self.coherence.cut_ratio,
+            "modularity": self.coherence.modularity,
+            "findings": len(self.findings),
+        }
+
+    def to_json(self) -> dict[str, Any]:
+        """The analysis file (DESIGN §6), with explanations beside every figure."""
+        from .report import analysis_json
+
+        return analysis_json(self)
+
+
+def _mean(values: list[float]) -> float:
+    return sum(values) / len(values) if values else 0.0
+
+
+def _default_initiator(
+    study: Study, task_id: str, graph: StudyGraph, holders: dict[str, str | None]
+) -> str:
+    """Who starts a task's occurrences when its assignment does not say.
+
+    Its own event starts it (``event``), its own schedule (``schedule``); in a chain, the
+    automation if a predecessor is held by an automation, else the person.
+    """
+    occurs = study.task(task_id).occurs
+    if occurs is not None and occurs.event is not None:
+        return "event"
+    if occurs is not None and occurs.is_schedule:
+        return "schedule"
+    for source, _lag in graph.predecessors.get(task_id, ()):
+        holder = study.agents_by_id.get(holders.get(source) or "")
+        if holder is not None and not holder.is_human:
+            return "automation"
+    return "human"
+
+
+def analyse_plan(study: Study, plan_id: str, *, graph: StudyGraph | None = None) -> PlanAnalysis:
+    """Analyse one plan of a valid study.
+
+    Parameters
+    ----------
+    study : Study
+        A study without errors (see :func:`allocation.core.read_study`).
+    plan_id : str
+        The plan to analyse.
+    graph : StudyGraph, optional
+        From :func:`prepare`, to share between plans.
+
+    Returns
+    -------
+    PlanAnalysis
+    """
+    return _Analysis(study, study.plan(plan_id), graph or prepare(study)).run()
+
+
+class _Analysis:
+    def __init__(self, study: Study, plan: Plan, graph: StudyGraph):
+        self.study = study
+        self.plan = plan
+        self.graph = graph
+        self.assumptions = resolve_assumptions(study.assumptions, study.scale)
+        self.policy = resolve_policy(study.risk_policy)
+        self.mode_share = mode_occupancy(plan.modes) if plan.modes else {}
+        self.initial = plan.modes.initial if plan.modes else None
+
+    def involved(self, task_id: str, mode: str | None) -> Involvement:
+        task = self.study.task(task_id)
+        return involvement(
+            self.study, task, assignment_in_mode(self.plan, mode, task_id), self.assumptions
+        )
+
+    def run(self) -> PlanAnalysis:
+        study, plan, graph = self.study, self.plan, self.graph
+        leaves = [task.id for task in study.leaves]
+        normal = {task_id: self.involved(task_id, self.initial) for task_id in leaves}
+        mixes = self.mode_mixes(leaves, normal)
+        holders = {task_id: normal[task_id].principal for task_id in leaves}
+
+        def applies(task_id: str) -> bool:
+            assignment = plan.assignments.get(task_id)
+            return assignment is None or assignment.is_applicable
+
+        counted = occurrences(
+            study, graph.successors, graph.position, applies, self.assumptions["every_days_when"]
+        )
+
+        def duration(task_id: str):
+            assignment = normal[task_id].assignment
+            if assignment is not None and assignment.duration_s is not None:
+                return assignment.duration_s
+            return study.task(task_id).duration_s
+
+        chains = chain_timings(
+            study,
+            counted,
+            graph.predecessors,
+            graph.position,
+            holders.get,
+            duration,
+            self.assumptions,
+        )
+        tasks = self.task_figures(leaves, normal, holders, counted, chains)
+        people = self.people_figures(tasks, mixes)
+        mode_cues = self.mode_cues(leaves, normal)
+        for task_id, figures in tasks.items():
+            figures.awareness = awareness(
+                study,
+                figures.involved,
+                figures.initiator,
+                figures.per_day,
+                mode_cues.get(task_id),
+                self.assumptions,
+            )
+        link_weights = self.link_weights(counted)
+        handovers = self.handovers(tasks, people, holders, link_weights)
+        findings = self.findings(normal, chains)
+        return PlanAnalysis(
+            study=study,
+            plan=plan,
+            assumptions=self.assumptions,
+            policy=self.policy,
+            occurrences=counted,
+            tasks=tasks,
+            people=people,
+            chains=chains,
+            handovers=handovers,
+            coherence=coherence(holders, link_weights),
+            findings=findings,
+            mode_share=self.mode_share,
+        )
+
+    # -- modes ----------------------------------------------------------------------
+
+    def mode_mixes(
+        self, leaves: list[str], normal: dict[str, Involvement]
+    ) -> dict[str, list[tuple[float, Involvement]]]:
+        """Each task's assignments in force over the day, weighted by mode occupancy."""
+        mixes = {task_id: [(1.0, normal[task_id])] for task_id in leaves}
+        if not self.plan.modes:
+            return mixes
+        for task_id in leaves:
+            parts = []
+            for mode in self.plan.modes.states:
+                share = self.mode_share.get(mode.id, 0.0)
+                if share > 0:
+                    parts.append((share, mode.id))
+            overridden = [
+                (share, m)
+                for share, m in parts
+                if self.plan.modes.by_id[m].overrides
+                and task_id in self.plan.modes.by_id[m].overrides
+            ]
+            if overridden:
+                mixes[task_id] = [(share, self.involved(task_id, m)) for share, m in parts]
+        return mixes
+
+    def mode_holder_changes(self, leaves: list[str]):
+        """Transitions that change a task's holder: (transition, task, from, to)."""
+        modes = self.plan.modes
+        if not modes:
+            return []
+        changes = []
+        for transition in modes.transitions:
+            source, target = modes.by_id.get(transition.source), modes.by_id.get(transition.target)
+            if source is None or target is None or source.id == target.id:
+                continue
+            touched = set(source.overrides or {}) | set(target.overrides or {})
+            for task_id in leaves:
+                if task_id not in touched:
+                    continue
+                before = self.involved(task_id, source.id).principal
+                after = self.involved(task_id, target.id).principal
+                if before != after:
+                    changes.append((transition, task_id, before, after))
+        return changes
+
+    def mode_cues(self, leaves: list[str], normal: dict[str, Involvement]) -> dict[str, str]:
+        """The weakest cue among the transitions that change each task's holder."""
+        weakness = self.assumptions["cue_weakness"]
+        cues: dict[str, str] = {}
+        for transition, task_id, _before, _after in self.mode_holder_changes(leaves):
+            current = cues.get(task_id)
+            if current is None or weakness[transition.cue] > weakness[current]:
+                cues[task_id] = transition.cue
+        return cues
+
+    # -- figures --------------------------------------------------------------------
+
+    def task_figures(self, leaves, normal, holders, counted: Occurrences, chains):
+        study, graph = self.study, self.graph
+        sleep = {agent.id: asleep_intervals(agent) for agent in study.humans}
+        # Per task, from each chain: its weight (occurrences per day), typical start and
+        # ready times, and the chain's time-of-day spread.
+        starts: dict[str, list[tuple[float, float, float, DayShare]]] = defaultdict(list)
+        for chain in chains:
+            spread = counted.timings[chain.trigger.id].timing
+            for timing in chain.tasks:
+                weight = chain.per_day * timing.probability
+                starts[timing.task_id].append(
+                    (weight, timing.start.typical, timing.ready.typical, spread)
+                )
+        tasks = {}
+        for task_id in leaves:
+            involved = normal[task_id]
+            assignment = involved.assignment
+            initiator = (
+                assignment.initiator
+                if assignment and assignment.initiator
+                else _default_initiator(study, task_id, graph, holders)
+            )
+            spread = DayShare.mixture(
+                (weight, day.shifted(start)) for weight, start, _ready, day in starts[task_id]
+            )
+            asleep_share = {
+                human: (spread.share_within(pieces) if spread and pieces else 0.0)
+                for human, pieces in sleep.items()
+            }
+            total = sum(item[0] for item in starts[task_id])
+            ready = (
+                sum(weight * r for weight, _s, r, _d in starts[task_id]) / total if total else 0.0
+            )
+            tasks[task_id] = TaskFigures(
+                involved=involved,
+                per_day=counted.per_day[task_id],
+                initiator=initiator,
+                person_s_per_day={},
+                asleep_share=asleep_share,
+                ready_s=ready,
+            )
+        return tasks
+
+    def people_figures(self, tasks: dict[str, TaskFigures], mixes) -> dict[str, PersonFigures]:
+        people = {}
+        for agent in self.study.humans:
+            asleep = sum(b - a for a, b in asleep_intervals(agent))
+            people[agent.id] = PersonFigures(agent.id, awake_s=DAY_S - asleep)
+        for task_id, figures in tasks.items():
+            interrupting = figures.initiator in INTERRUPTING
+            for share, involved in mixes[task_id]:
+                rate = figures.per_day * share
+                for human in involved.people():
+                    if human not in people:
+                        continue
+                    seconds = involved.time_of(human)
+                    person = people[human]
+                    person.burden_s_per_day += rate * seconds
+                    figures.person_s_per_day[human] = (
+                        figures.person_s_per_day.get(human, 0.0) + rate * seconds
+                    )
+                    person.interactions_per_day += rate
+                    if human == involved.monitor:
+                        person.monitoring_s_per_day += rate * involved.monitoring_s
+                    if interrupting:
+                        person.interruptions_per_day += rate
+                        person.night_interruptions_per_day += rate * figures.asleep_share.get(
+                            human, 0.0
+                        )
+        return people
+
+    def link_weights(self, counted: Occurrences) -> list[tuple[str, str, float]]:
+        """Each link with the occurrences per day it carries."""
+        weights = []
+        for link in self.study.links:
+            source = counted.per_day.get(link.source, 0.0)
+            target = counted.per_day.get(link.target, 0.0)
+            if link.kind == "precedes":
+                probability = 1.0 if link.probability is None else float(link.probability)
+                weight = min(source * probability, target)
+            else:
+                weight = min(source, target)
+            weights.append((link.source, link.target, weight))
+        return weights
+
+    # -- handovers ------------------------------------------------------------------
+
+    def handover_sites(self, tasks, holders, link_weights) -> list[HandoverSite]:
+        sites = []
+        for (source, target, weight), link in zip(link_weights, self.study.links, strict=True):
+            before, after = holders.get(source), holders.get(target)
+            if before is None or after is None or before == after:
+                continue
+            sites.append(
+                HandoverSite(
+                    "link",
+                    source,
+                    target,
+                    before,
+                    after,
+                    weight,
+                    self.strongest_cue(tasks[source].involved, tasks[target].involved),
+                    tasks[target].initiator,
+                    trigger=link.kind,
+                )
+            )
+        for task_id, figures in tasks.items():
+            involved = figures.involved
+            if not involved.applies or involved.category != "shared":
+                continue
+            stage_holders = involved.stage_holders()
+            for index in range(1, len(STAGES)):
+                if stage_holders[index] != stage_holders[index - 1]:
+                    sites.append(
+                        HandoverSite(
+                            "shared",
+                            task_id,
+                            task_id,
+                            stage_holders[index - 1],
+                            stage_holders[index],
+                            figures.per_day,
+                            involved.assignment.feedback,
+                            figures.initiator,
+                            stage=STAGES[index],
+                        )
+                    )
+        for transition, task_id, before, after in self.mode_holder_changes(list(tasks)):
+            if before is None or after is None:
+                continue
+            rate = float(transition.per_day or 0.0) * self.mode_share.get(transition.source, 0)
+            initiator = {"environment": "event"}.get(transition.by, transition.by)
+            sites.append(
+                HandoverSite(
+                    "mode",
+                    task_id,
+                    task_id,
+                    before,
+                    after,
+                    rate,
+                    transition.cue,
+                    initiator,
+                    modes=(transition.source, transition.target),
+                    trigger=transition.trigger,
+                )
+            )
+        return sites
+
+    def strongest_cue(self, *involved: Involvement) -> str | None:
+        """The best cue either side of a link gives: the sender's alarm or the receiver's
+        display both tell the person the work is now theirs."""
+        weakness = self.assumptions["cue_weakness"]
+        cues = [
+            item.assignment.feedback
+            for item in involved
+            if item.assignment is not None and item.assignment.feedback
+        ]
+        return min(cues, key=lambda cue: weakness[cue], default=None)
+
+    def handovers(self, tasks, people, holders, link_weights) -> list[Handover]:
+        study = self.study
+        assessed = []
+        for site in self.handover_sites(tasks, holders, link_weights):
+            receiver = study.agents_by_id.get(site.to_agent or "")
+            is_human = receiver is not None and receiver.is_human
+            target = tasks[site.to_task]
+            mode = site.modes[1] if site.modes else self.initial
+            involved = self.involved(site.to_task, mode) if site.modes else target.involved
+            if is_human:
+                work = involved.time_of(site.to_agent) or involved.duration_s
+            else:
+                work = involved.duration_s
+            latency = response_latency(
+                study,
+                site.to_agent,
+                target.asleep_share.get(site.to_agent, 0.0),
+                self.assumptions["default_response_s"],
+            ).typical
+            window = study.task(site.to_task).window_s
+            ready = 0.0 if site.source == "mode" else target.ready_s
+            ratio = time_budget_ratio(
+                latency, work, None if window is None else float(window), ready
+            )
+            load = people[site.to_agent].load if site.to_agent in people else 0.0
+            assessed.append(
+                assess_handover(
+                    site,
+                    receiver_is_human=is_human,
+                    time_ratio=ratio,
+                    receiver_load=load,
+                    awareness=target.awareness.index if target.awareness else 0.0,
+                    severity=study.task(site.to_task).severity or 1,
+                    assumptions=self.assumptions,
+                    policy=self.policy,
+                )
+            )
+        assessed.sort(key=lambda h: (-h.risk, -h.likelihood, -h.site.per_day))
+        return assessed
+
+    # -- findings -------------------------------------------------------------------
+
+    def findings(self, normal: dict[str, Involvement], chains: list[ChainTiming]):
+        study = self.study
+        found: list[Finding] = []
+        for involved in normal.values():
+            found += accountability_findings(study, involved)
+            found += capability_findings(study, involved)
+        if self.plan.modes:
+            for mode in self.plan.modes.states:
+                if mode.id == self.initial:
+                    continue
+                for task_id in mode.overrides or {}:
+                    if task_id not in normal:
+                        continue
+                    involved = self.involved(task_id, mode.id)
+                    found += accountability_findings(study, involved, mode.id)
+                    found += capability_findings(study, involved, mode.id)
+        found += _window_findings(study, chains)
+        found.sort(key=lambda f: (-f.severity, f.kind, f.tasks))
+        return found
+
+
+_MISS_ORDER = {"always": 3, "typically": 2, "possibly": 1}
+_MISS_WORDS = {
+    "always": "always misses it",
+    "typically": "typically misses it",
+    "possibly": "can miss it",
+}
+
+
+def _window_findings(study: Study, chains: list[ChainTiming]) -> list[Finding]:
+    """The worst window miss of each task over its chains."""
+    worst: dict[str, tuple[int, str, ChainTiming, Any]] = {}
+    for chain in chains:
+        for timing in chain.tasks:
+            miss = timing.misses_window
+            if miss is None:
+                continue
+            rank = _MISS_ORDER[miss]
+            if timing.task_id not in worst or rank > worst[timing.task_id][0]:
+                worst[timing.task_id] = (rank, miss, chain, timing)
+    findings = []
+    for task_id, (_rank, miss, chain, timing) in worst.items():
+        task = study.task(task_id)
+        finish: Span = timing.finish
+        events = (chain.trigger.id,) if chain.trigger.kind == "event" else ()
+        findings.append(
+            Finding(
+                "window_missed",
+                task.severity or 1,
+                f"{task_id} ({task.title}) must be done within {seconds_text(timing.window_s)} "
+                f"of the start of its chain ({chain.trigger.name}); it {_MISS_WORDS[miss]}: it "
+                f"finishes after {seconds_text(finish.low)} at the earliest, "
+                f"{seconds_text(finish.typical)} typically, {seconds_text(finish.high)} at the "
+                "latest.",
+                (task_id,),
+                (),
+                events,
+            )
+        )
+    return findings
