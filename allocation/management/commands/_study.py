@@ -2,10 +2,15 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
+from django.conf import settings
+from django.contrib.auth import get_user_model
+from django.contrib.auth.models import AbstractBaseUser
 from django.core.management.base import CommandError
 
 from allocation import models as m
-from allocation import selectors
+from allocation import selectors, services
 from allocation.core import Problem
 
 
@@ -25,3 +30,14 @@ def study_from_reference(reference: str) -> m.Study:
 
 def problem_lines(problems: list[Problem]) -> str:
     return "\n".join(f"  {problem.level}: {problem}" for problem in problems)
+
+
+def owner_from_option(username: str | None) -> AbstractBaseUser:
+    """The user a command's ``--owner`` names, or the local sign-in when it names none."""
+    if not username:
+        user, _password = services.local_user_ensure(data_dir=Path(settings.DATA_DIR))
+        return user
+    user = get_user_model().objects.filter(username=username).first()
+    if user is None:
+        raise CommandError(f"no user named {username!r}")
+    return user

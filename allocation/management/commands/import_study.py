@@ -4,14 +4,12 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from django.conf import settings
-from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand, CommandError
 
 from allocation import services
 from allocation.core import StudyInvalid, load_study_text
 
-from ._study import problem_lines
+from ._study import owner_from_option, problem_lines
 
 
 class Command(BaseCommand):
@@ -32,12 +30,7 @@ class Command(BaseCommand):
                 f"{file} was not imported; {len(result.errors)} error(s):\n"
                 + problem_lines(result.problems)
             )
-        if owner:
-            user = get_user_model().objects.filter(username=owner).first()
-            if user is None:
-                raise CommandError(f"no user named {owner!r}")
-        else:
-            user, _password = services.local_user_ensure(data_dir=Path(settings.DATA_DIR))
+        user = owner_from_option(owner)
         try:
             study = services.study_create(study=result.study, owner=user)
         except StudyInvalid as error:  # pragma: no cover - checked above

@@ -2,13 +2,11 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
-from django.conf import settings
-from django.contrib.auth import get_user_model
-from django.core.management.base import BaseCommand, CommandError
+from django.core.management.base import BaseCommand
 
 from allocation import services
+
+from ._study import owner_from_option
 
 
 class Command(BaseCommand):
@@ -18,12 +16,7 @@ class Command(BaseCommand):
         parser.add_argument("--owner", help="user name of the owner (default: the local sign-in)")
 
     def handle(self, *args, owner: str | None, **options) -> None:
-        if owner:
-            user = get_user_model().objects.filter(username=owner).first()
-            if user is None:
-                raise CommandError(f"no user named {owner!r}")
-        else:
-            user, _password = services.local_user_ensure(data_dir=Path(settings.DATA_DIR))
+        user = owner_from_option(owner)
         for key, imported in services.examples_load(owner=user):
             state = "imported" if imported else "already there"
             self.stdout.write(f"{key}: {state}")
