@@ -10,6 +10,7 @@ from typing import Any
 
 from django.contrib.auth.models import AbstractBaseUser, AnonymousUser
 from django.db.models import F, Prefetch, QuerySet
+from django.core.exceptions import PermissionDenied
 from django.http import Http404
 
 from allocation import models as m
@@ -43,14 +44,16 @@ def studies_for_user(*, user: User) -> QuerySet[m.Study]:
 
 
 def study_for_user(*, user: User, pk: int, role: str = m.Role.VIEWER) -> m.Study:
-    """The study ``pk`` if ``user`` holds at least ``role`` in it; 404 otherwise.
+    """The study ``pk`` if ``user`` holds at least ``role`` in it.
 
     A non-member gets the same 404 as for a study that does not exist, so the answer
-    tells nothing about other people's studies.
+    tells nothing about other people's studies; a member with too low a role gets 403.
     """
     study = studies_for_user(user=user).filter(pk=pk).first()
-    if study is None or m.Role.rank(study.role) < m.Role.rank(role):
+    if study is None:
         raise Http404("No such study.")
+    if m.Role.rank(study.role) < m.Role.rank(role):
+        raise PermissionDenied(f"This needs the {role} role in the study; you are {study.role}.")
     return study
 
 

@@ -15,6 +15,7 @@ import os
 from pathlib import Path
 
 import dj_database_url
+import plotly
 from django.core.exceptions import ImproperlyConfigured
 
 BASE_DIR = Path(__file__).resolve().parent.parent
@@ -119,7 +120,11 @@ USE_TZ = True
 
 STATIC_URL = "static/"
 STATIC_ROOT = BASE_DIR / "staticfiles"
-STATICFILES_DIRS = [BASE_DIR / "static"]
+# plotly.js comes from the installed plotly package, never from a CDN.
+STATICFILES_DIRS = [
+    BASE_DIR / "static",
+    ("plotly", Path(plotly.__file__).resolve().parent / "package_data"),
+]
 STORAGES = {
     "default": {"BACKEND": "django.core.files.storage.FileSystemStorage"},
     "staticfiles": {

@@ -24,6 +24,7 @@ from allocation.core.describe import (
     task_outline,
 )
 from allocation.core.reading import parse_json_text
+from allocation.views.common import study_page
 
 
 @require_GET
@@ -67,9 +68,8 @@ def _upload_problems(upload) -> list[Problem]:
 @require_GET
 @login_required
 def study_detail(request: HttpRequest, pk: int) -> HttpResponse:
-    study_row = selectors.study_for_user(user=request.user, pk=pk)
-    result = selectors.study_load(study_row)
-    study = result.study
+    page = study_page(request, pk)
+    study = page.study
     outline = [
         {
             "task": task,
@@ -82,7 +82,7 @@ def study_detail(request: HttpRequest, pk: int) -> HttpResponse:
         }
         for task, depth in task_outline(study)
     ]
-    analyses = selectors.plan_analyses(result)
+    analyses = page.analyses()
     plans = [
         {
             "plan": plan,
@@ -91,14 +91,9 @@ def study_detail(request: HttpRequest, pk: int) -> HttpResponse:
         }
         for plan in study.plans
     ]
-    context = {
-        "study_row": study_row,
-        "study": study,
-        "outline": outline,
-        "plans": plans,
-        "problems": result.problems,
-        "leaf_count": len(study.leaves),
-    }
+    context = page.context(
+        "study-detail", outline=outline, plans=plans, leaf_count=len(study.leaves)
+    )
     return render(request, "studies/detail.html", context)
 
 
