@@ -16,7 +16,9 @@ from django.db import transaction
 
 from allocation import models as m
 from allocation.core import StudyInvalid, load_study, study_to_json
-from allocation.core.model import Assignment, Study
+from allocation.core.model import Study
+
+from . import rows
 
 
 def study_import(*, data: Any, owner: AbstractBaseUser) -> m.Study:
@@ -36,139 +38,71 @@ def study_import(*, data: Any, owner: AbstractBaseUser) -> m.Study:
 @transaction.atomic
 def study_create(*, study: Study, owner: AbstractBaseUser) -> m.Study:
     """Write a checked core study as rows, with ``owner`` as its owner."""
-    row = m.Study(
-        key=study.id,
-        title=study.title,
-        description=study.description or "",
-        scale=study.scale,
-        bin_s=study.bin_s,
-        assumptions=study.assumptions,
-        risk_policy=study.risk_policy,
-    )
+    document = study_to_json(study)
+    row = m.Study(**rows.header_values(document["study"]))
     row.full_clean()
     row.save()
     m.Membership.objects.create(study=row, user=owner, role=m.Role.OWNER)
     agents = _bulk(
         m.Agent,
         [
-            m.Agent(
-                study=row,
-                key=agent.id,
-                name=agent.name,
-                kind=agent.kind,
-                capabilities=None if agent.capabilities is None else list(agent.capabilities),
-                asleep_from=agent.asleep[0] if agent.asleep else "",
-                asleep_to=agent.asleep[1] if agent.asleep else "",
-                response_s=None
-                if agent.response_s is None
-                else {key: value.to_json() for key, value in agent.response_s.items()},
-                notes=agent.notes or "",
-                position=index,
-            )
-            for index, agent in enumerate(study.agents)
+            m.Agent(study=row, position=index, **rows.agent_values(item))
+            for index, item in enumerate(document["agents"])
         ],
     )
     _bulk(
         m.Event,
         [
-            m.Event(
-                study=row,
-                key=event.id,
-                name=event.name,
-                times=None if event.times is None else list(event.times),
-                jitter_s=event.jitter_s,
-                per_day=event.per_day,
-                when=event.when or "",
-                every_days=event.every_days,
-                notes=event.notes or "",
-                position=index,
-            )
-            for index, event in enumerate(study.events)
+            m.Event(study=row, position=index, **rows.event_values(item))
+            for index, item in enumerate(document["events"])
         ],
     )
-    document = study_to_json(study)
     tasks = _bulk(
         m.Task,
         [
-            m.Task(
-                study=row,
-                key=task.id,
-                title=task.title,
-                occurs=item.get("occurs"),
-                duration_s=item.get("duration_s"),
-                window_s=task.window_s,
-                severity=task.severity,
-                demands=task.demands,
-                split=task.split,
-                needs=None if task.needs is None else list(task.needs),
-                notes=task.notes or "",
-                position=index,
-            )
-            for index, (task, item) in enumerate(zip(study.tasks, document["tasks"], strict=True))
+            m.Task(study=row, position=index, **rows.task_values(item))
+            for index, item in enumerate(document["tasks"])
         ],
     )
-    children = [tasks[task.id] for task in study.tasks if task.parent is not None]
+    children = [tasks[item["id"]] for item in document["tasks"] if "parent" in item]
+    parents = {item["id"]: item["parent"] for item in document["tasks"] if "parent" in item}
     for child in children:
-        child.parent = tasks[study.task(child.key).parent]
+        child.parent = tasks[parents[child.key]]
     m.Task.objects.bulk_update(children, ["parent"])
     _bulk(
         m.Link,
         [
-            m.Link(
-                study=row,
-                source=tasks[link.source],
-                target=tasks[link.target],
-                kind=link.kind,
-                lag_s=None if link.lag_s is None else link.lag_s.to_json(),
-                probability=link.probability,
-                notes=link.notes or "",
-                position=index,
-            )
-            for index, link in enumerate(study.links)
+            m.Link(study=row, position=index, **rows.link_values(item, tasks))
+            for index, item in enumerate(document["links"])
         ],
     )
-    for index, plan in enumerate(study.plans):
-        _plan_create(study_row=row, plan=plan, position=index, agents=agents, tasks=tasks)
+    for index, item in enumerate(document["plans"]):
+        plan_create(study_row=row, item=item, position=index, agents=agents, tasks=tasks)
     return row
 
 
-def _bulk(model: type, rows: list) -> dict[str, Any]:
+def _bulk(model: type, items: list) -> dict[str, Any]:
     """Validate and insert rows; return them by their ``key`` when they have one."""
-    for item in rows:
+    for item in items:
         item.full_clean(
             exclude=["study", "plan", "state", "parent", "source", "target"],
             validate_unique=False,
             validate_constraints=False,
         )
-    created = model.objects.bulk_create(rows)
+    created = model.objects.bulk_create(items)
     return {item.key: item for item in created if hasattr(item, "key")}
 
 
-def _assignment_fields(assignment: Assignment, agents: dict[str, m.Agent]) -> dict[str, Any]:
-    levels = assignment.levels
-    return {
-        "human": agents.get(assignment.human) if assignment.human else None,
-        "automation": agents.get(assignment.automation) if assignment.automation else None,
-        "levels": dict(levels) if isinstance(levels, dict) else levels,
-        "duration_s": None if assignment.duration_s is None else assignment.duration_s.to_json(),
-        "accountable": agents.get(assignment.accountable) if assignment.accountable else None,
-        "feedback": assignment.feedback or "",
-        "initiator": assignment.initiator or "",
-        "status": assignment.status or "",
-        "rationale": assignment.rationale or "",
-        "applies": assignment.is_applicable,
-    }
-
-
-def _plan_create(*, study_row: m.Study, plan, position: int, agents: dict, tasks: dict) -> None:
-    plan_row = m.Plan(
-        study=study_row,
-        key=plan.id,
-        name=plan.name,
-        description=plan.description or "",
-        initial_mode=plan.modes.initial if plan.modes else "",
-        position=position,
-    )
+def plan_create(
+    *,
+    study_row: m.Study,
+    item: dict[str, Any],
+    position: int,
+    agents: dict[str, m.Agent],
+    tasks: dict[str, m.Task],
+) -> m.Plan:
+    """Write one plan (study-file item) with its assignments and mode map as rows."""
+    plan_row = m.Plan(study=study_row, position=position, **rows.plan_values(item))
     plan_row.full_clean(exclude=["study"], validate_constraints=False)
     plan_row.save()
     m.Assignment.objects.bulk_create(
@@ -177,52 +111,38 @@ def _plan_create(*, study_row: m.Study, plan, position: int, agents: dict, tasks
                 plan=plan_row,
                 task=tasks[task_id],
                 position=index,
-                **_assignment_fields(assignment, agents),
+                **rows.assignment_values(assignment, agents),
             )
-            for index, (task_id, assignment) in enumerate(plan.assignments.items())
+            for index, (task_id, assignment) in enumerate(item["assignments"].items())
         ]
     )
-    if plan.modes is None:
-        return
+    modes = item.get("modes")
+    if not modes:
+        return plan_row
     states = {}
-    for index, mode in enumerate(plan.modes.states):
-        state = m.ModeState.objects.create(
-            plan=plan_row,
-            key=mode.id,
-            name=mode.name,
-            indication=mode.indication or "",
-            lists_overrides=mode.overrides is not None,
-            notes=mode.notes or "",
-            position=index,
-        )
-        states[mode.id] = state
+    for index, mode in enumerate(modes["states"]):
+        state = m.ModeState.objects.create(plan=plan_row, position=index, **rows.mode_values(mode))
+        states[state.key] = state
         m.ModeOverride.objects.bulk_create(
             [
                 m.ModeOverride(
                     state=state,
                     task=tasks[task_id],
                     position=order,
-                    **_assignment_fields(assignment, agents),
+                    **rows.assignment_values(assignment, agents),
                 )
-                for order, (task_id, assignment) in enumerate((mode.overrides or {}).items())
+                for order, (task_id, assignment) in enumerate(mode.get("overrides", {}).items())
             ]
         )
     m.ModeTransition.objects.bulk_create(
         [
             m.ModeTransition(
-                plan=plan_row,
-                source=states[item.source],
-                target=states[item.target],
-                trigger=item.trigger,
-                by=item.by,
-                cue=item.cue,
-                per_day=item.per_day,
-                notes=item.notes or "",
-                position=index,
+                plan=plan_row, position=index, **rows.transition_values(transition, states)
             )
-            for index, item in enumerate(plan.modes.transitions)
+            for index, transition in enumerate(modes["transitions"])
         ]
     )
+    return plan_row
 
 
 def examples_load(*, owner: AbstractBaseUser) -> list[tuple[str, bool]]:

@@ -63,7 +63,7 @@ def test_failure_while_writing_rolls_everything_back(study, owner, heating_docum
     def broken(**kwargs):
         raise RuntimeError("disk went away")
 
-    monkeypatch.setattr(services.studies, "_plan_create", broken)
+    monkeypatch.setattr(services.studies, "plan_create", broken)
     with pytest.raises(RuntimeError):
         services.study_import(data=heating_document, owner=owner)
     assert row_counts() == before

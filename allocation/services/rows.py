@@ -1,0 +1,125 @@
+"""Study-file items (JSON form) to row field values: the inverse of the selectors.
+
+Each function takes one item as the study file writes it and returns the keyword
+arguments of its row, so that import and every edit write rows the same way.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from allocation import models as m
+
+
+def header_values(item: dict[str, Any]) -> dict[str, Any]:
+    return {
+        "key": item["id"],
+        "title": item["title"],
+        "description": item.get("description", ""),
+        "scale": item["scale"],
+        "bin_s": item.get("bin_s"),
+        "assumptions": item.get("assumptions"),
+        "risk_policy": item.get("risk_policy"),
+    }
+
+
+def agent_values(item: dict[str, Any]) -> dict[str, Any]:
+    asleep = item.get("asleep") or ["", ""]
+    return {
+        "key": item["id"],
+        "name": item["name"],
+        "kind": item["kind"],
+        "capabilities": item.get("capabilities"),
+        "asleep_from": asleep[0],
+        "asleep_to": asleep[1],
+        "response_s": item.get("response_s"),
+        "notes": item.get("notes", ""),
+    }
+
+
+def event_values(item: dict[str, Any]) -> dict[str, Any]:
+    return {
+        "key": item["id"],
+        "name": item["name"],
+        "times": item.get("times"),
+        "jitter_s": item.get("jitter_s"),
+        "per_day": item.get("per_day"),
+        "when": item.get("when", ""),
+        "every_days": item.get("every_days"),
+        "notes": item.get("notes", ""),
+    }
+
+
+def task_values(item: dict[str, Any]) -> dict[str, Any]:
+    """A task's own values; its ``parent`` is set separately (it needs the parent row)."""
+    return {
+        "key": item["id"],
+        "title": item["title"],
+        "occurs": item.get("occurs"),
+        "duration_s": item.get("duration_s"),
+        "window_s": item.get("window_s"),
+        "severity": item.get("severity"),
+        "demands": item.get("demands"),
+        "split": item.get("split"),
+        "needs": item.get("needs"),
+        "notes": item.get("notes", ""),
+    }
+
+
+def link_values(item: dict[str, Any], tasks: dict[str, m.Task]) -> dict[str, Any]:
+    return {
+        "source": tasks[item["from"]],
+        "target": tasks[item["to"]],
+        "kind": item["kind"],
+        "lag_s": item.get("lag_s"),
+        "probability": item.get("probability"),
+        "notes": item.get("notes", ""),
+    }
+
+
+def assignment_values(item: dict[str, Any], agents: dict[str, m.Agent]) -> dict[str, Any]:
+    """Values of a plan assignment or a mode override (the fields they share)."""
+    return {
+        "human": agents[item["human"]] if "human" in item else None,
+        "automation": agents[item["automation"]] if "automation" in item else None,
+        "levels": item.get("levels"),
+        "duration_s": item.get("duration_s"),
+        "accountable": agents[item["accountable"]] if "accountable" in item else None,
+        "feedback": item.get("feedback", ""),
+        "initiator": item.get("initiator", ""),
+        "status": item.get("status", ""),
+        "rationale": item.get("rationale", ""),
+        "applies": item.get("applies", True),
+    }
+
+
+def plan_values(item: dict[str, Any]) -> dict[str, Any]:
+    modes = item.get("modes")
+    return {
+        "key": item["id"],
+        "name": item["name"],
+        "description": item.get("description", ""),
+        "initial_mode": modes["initial"] if modes else "",
+    }
+
+
+def mode_values(item: dict[str, Any]) -> dict[str, Any]:
+    return {
+        "key": item["id"],
+        "name": item["name"],
+        "indication": item.get("indication", ""),
+        "lists_overrides": "overrides" in item,
+        "notes": item.get("notes", ""),
+    }
+
+
+def transition_values(item: dict[str, Any], states: dict[str, m.ModeState]) -> dict[str, Any]:
+    return {
+        "source": states[item["from"]],
+        "target": states[item["to"]],
+        "trigger": item["trigger"],
+        "by": item["by"],
+        "cue": item["cue"],
+        "per_day": item.get("per_day"),
+        "notes": item.get("notes", ""),
+    }
