@@ -6,16 +6,19 @@ database, the file format and the analyses share one reading and one set of chec
 
 from __future__ import annotations
 
+import threading
+from collections import OrderedDict
+from dataclasses import dataclass, field
 from typing import Any
 
 from django.contrib.auth.models import AbstractBaseUser, AnonymousUser
-from django.db.models import F, Prefetch, QuerySet
 from django.core.exceptions import PermissionDenied
+from django.db.models import F, Prefetch, QuerySet
 from django.http import Http404
 
 from allocation import models as m
 from allocation.core import LoadResult, load_study
-from allocation.core.analysis import PlanAnalysis, analyse_plan, prepare
+from allocation.core.analysis import PlanAnalysis, StudyGraph, analyse_plan, prepare
 from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
 
 User = AbstractBaseUser | AnonymousUser
@@ -84,7 +87,7 @@ def study_rows(study: m.Study) -> m.Study:
     )
 
 
-def study_document(study: m.Study) -> dict[str, Any]:
+def _document_from_rows(study: m.Study) -> dict[str, Any]:
     """The study as a JSON-ready dict in the study file format (version 1)."""
     study = study_rows(study)
     header = _compact(
@@ -110,19 +113,75 @@ def study_document(study: m.Study) -> dict[str, Any]:
     }
 
 
+@dataclass
+class _Loaded:
+    """One study at one version: its document, what the core made of it, its analyses."""
+
+    version: Any
+    document: dict[str, Any]
+    result: LoadResult
+    graph: StudyGraph | None = None
+    analyses: dict[str, PlanAnalysis] = field(default_factory=dict)
+
+
+#: Recently read studies, by primary key, newest last. Every write through the services
+#: moves the study's ``updated_at``, which is the version an entry is valid for, so an
+#: entry is never served after its study changed. Per process; a handful of studies.
+_LOADED: OrderedDict[int, _Loaded] = OrderedDict()
+_LOADED_SIZE = 8
+_LOADED_LOCK = threading.Lock()
+
+
+def _loaded(study: m.Study) -> _Loaded:
+    # The version comes from the database, not from the row object passed in, which
+    # may have been read before the latest edit.
+    version = m.Study.objects.filter(pk=study.pk).values_list("updated_at", flat=True).first()
+    with _LOADED_LOCK:
+        entry = _LOADED.get(study.pk)
+        if entry is not None and entry.version == version:
+            _LOADED.move_to_end(study.pk)
+            return entry
+    document = _document_from_rows(study)
+    entry = _Loaded(version, document, load_study(document))
+    with _LOADED_LOCK:
+        _LOADED[study.pk] = entry
+        _LOADED.move_to_end(study.pk)
+        while len(_LOADED) > _LOADED_SIZE:
+            _LOADED.popitem(last=False)
+    return entry
+
+
+def study_document(study: m.Study) -> dict[str, Any]:
+    """The study as a JSON-ready dict in the study file format (version 1).
+
+    Shared with other readers of the same version: do not change it; copy it first.
+    """
+    return _loaded(study).document
+
+
 def study_load(study: m.Study) -> LoadResult:
     """The study as a core object, with any problems the core finds in it."""
-    return load_study(study_document(study))
+    return _loaded(study).result
 
 
-def plan_analyses(result: LoadResult) -> dict[str, PlanAnalysis]:
-    """Every plan of a loaded study analysed; none when the study has errors."""
+def plan_analysis(study: m.Study, plan_id: str) -> PlanAnalysis | None:
+    """One plan analysed (kept with the study's version); ``None`` while it has errors."""
+    entry = _loaded(study)
+    if not entry.result.ok or plan_id not in entry.result.study.plans_by_id:
+        return None
+    if plan_id not in entry.analyses:
+        if entry.graph is None:
+            entry.graph = prepare(entry.result.study)
+        entry.analyses[plan_id] = analyse_plan(entry.result.study, plan_id, graph=entry.graph)
+    return entry.analyses[plan_id]
+
+
+def study_analyses(study: m.Study) -> dict[str, PlanAnalysis]:
+    """Every plan of the study analysed; none while it has errors."""
+    result = study_load(study)
     if not result.ok:
         return {}
-    graph = prepare(result.study)
-    return {
-        plan.id: analyse_plan(result.study, plan.id, graph=graph) for plan in result.study.plans
-    }
+    return {plan.id: plan_analysis(study, plan.id) for plan in result.study.plans}
 
 
 def _agent(agent: m.Agent) -> dict[str, Any]:

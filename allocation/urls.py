@@ -1,7 +1,7 @@
 from django.contrib import admin
 from django.urls import include, path
 
-from allocation.views import studies
+from allocation.views import assumptions, compare, dashboards, graph, inventory, plans, studies
 
 urlpatterns = [
     path("", studies.study_list, name="study-list"),
@@ -13,6 +13,60 @@ urlpatterns = [
         studies.plan_analysis_download,
         name="plan-analysis-download",
     ),
+    path("studies/new", inventory.study_new, name="study-new"),
+    path("studies/<int:pk>/inventory", inventory.study_inventory, name="study-inventory"),
+    path(
+        "studies/<int:pk>/inventory/<str:kind>/<str:key>",
+        inventory.item_edit,
+        name="inventory-item",
+    ),
+    path(
+        "studies/<int:pk>/inventory/<str:kind>/<str:key>/delete",
+        inventory.item_delete,
+        name="inventory-delete",
+    ),
+    path("studies/<int:pk>/plans/new", plans.plan_new, name="plan-new"),
+    path("studies/<int:pk>/plans/<str:plan>/edit", plans.plan_editor, name="plan-editor"),
+    path("studies/<int:pk>/plans/<str:plan>/bulk", plans.plan_bulk, name="plan-bulk"),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/tasks/<str:task>",
+        plans.plan_row_save,
+        name="plan-row-save",
+    ),
+    path("studies/<int:pk>/compare", compare.study_compare, name="study-compare"),
+    path(
+        "studies/<int:pk>/compare/weights",
+        compare.study_compare_weights,
+        name="study-compare-weights",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/dashboard",
+        dashboards.plan_dashboard,
+        name="plan-dashboard",
+    ),
+    path("studies/<int:pk>/assumptions", assumptions.study_assumptions, name="study-assumptions"),
+    path(
+        "studies/<int:pk>/assumptions/set",
+        assumptions.assumption_set,
+        name="study-assumption-set",
+    ),
+    path(
+        "studies/<int:pk>/assumptions/reset",
+        assumptions.assumption_reset,
+        name="study-assumption-reset",
+    ),
+    path(
+        "studies/<int:pk>/assumptions/policy",
+        assumptions.risk_policy_set,
+        name="study-risk-policy-set",
+    ),
+    path(
+        "studies/<int:pk>/assumptions/policy/reset",
+        assumptions.risk_policy_reset,
+        name="study-risk-policy-reset",
+    ),
+    path("studies/<int:pk>/graph", graph.study_graph, name="study-graph"),
+    path("studies/<int:pk>/graph/tasks/<str:task>", graph.graph_task, name="graph-task"),
     path("accounts/", include("django.contrib.auth.urls")),
     path("admin/", admin.site.urls),
 ]

@@ -141,6 +141,41 @@ AWARENESS_WEIGHTS = {
     "rarity": 0.10,
 }
 LIKELIHOOD_FACTORS = ("time", "load", "cue", "automation_initiated", "awareness")
+#: The headline figures the study objective weighs (DESIGN §3.11), lower better for each.
+OBJECTIVE_FIGURES = (
+    "burden_s_per_day",
+    "interruptions_per_day",
+    "night_interruptions_per_day",
+    "handovers_to_review",
+    "max_risk",
+    "mean_awareness",
+    "cut_ratio",
+    "findings",
+)
+OBJECTIVE_WEIGHTS = {
+    "burden_s_per_day": 1.0,
+    "interruptions_per_day": 1.0,
+    "night_interruptions_per_day": 1.0,
+    "handovers_to_review": 1.0,
+    "max_risk": 2.0,
+    "mean_awareness": 1.0,
+    "cut_ratio": 0.5,
+    "findings": 1.0,
+}
+
+
+def _weights(keys: tuple[str, ...], defaults: dict[str, float], maximum: float):
+    """Check a table of relative weights: each in [0, maximum], not all of them 0."""
+    table = _table(keys, maximum=maximum)
+
+    def check(value: Any) -> str | None:
+        message = table(value)
+        if message is None and not any({**defaults, **value}.values()):
+            return "must keep at least one weight above 0"
+        return message
+
+    return check
+
 
 ASSUMPTIONS: tuple[Assumption, ...] = (
     Assumption(
@@ -246,6 +281,19 @@ ASSUMPTIONS: tuple[Assumption, ...] = (
         "When in the day a task or event that occurs every N days happens: while the "
         "person is awake, or at any time.",
         _choice(("awake", "any")),
+    ),
+    Assumption(
+        "objective_weights",
+        OBJECTIVE_WEIGHTS,
+        TOOL,
+        "Baton default; a weighted sum of min-max normalised figures (simple additive weighting)",
+        "Weights (0 to 100, relative) of the headline figures in the study objective that "
+        "ranks plans: each figure is scaled across the plans compared to 0 (best) .. 1 "
+        "(worst), a figure equal in all of them counting 0; the score is the weighted sum, "
+        "lower ranks first. Defaults: person burden, interruptions, night interruptions, "
+        "handovers needing review, mean mode-awareness index and findings 1 each; highest "
+        "handover risk 2 (harm weighs double); cut ratio 0.5 (an indirect, structural sign).",
+        _weights(OBJECTIVE_FIGURES, OBJECTIVE_WEIGHTS, maximum=100),
     ),
 )
 

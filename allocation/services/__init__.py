@@ -4,6 +4,10 @@ One module per area; everything is re-exported here, so callers write
 ``services.study_import(...)``.
 """
 
+from .assumptions import *  # noqa: F403 - listed in assumptions.__all__
+from .assumptions import __all__ as _assumptions
+from .editing import *  # noqa: F403 - every edit, listed in editing.__all__
+from .editing import __all__ as _editing
 from .studies import (
     LOCAL_USERNAME,
     examples_load,
@@ -13,6 +17,8 @@ from .studies import (
 )
 
 __all__ = [
+    *_assumptions,
+    *_editing,
     "LOCAL_USERNAME",
     "examples_load",
     "local_user_ensure",

@@ -43,7 +43,11 @@ class StudyPage:
 
     def analyses(self) -> dict[str, PlanAnalysis]:
         """Every plan analysed (none while the study has errors)."""
-        return selectors.plan_analyses(self.result)
+        return selectors.study_analyses(self.row)
+
+    def analysis(self, plan_id: str) -> PlanAnalysis | None:
+        """One plan analysed (``None`` while the study has errors)."""
+        return selectors.plan_analysis(self.row, plan_id)
 
     def plan_or_404(self, plan_id: str):
         from django.http import Http404

@@ -15,7 +15,6 @@ from django_htmx.http import HttpResponseClientRedirect
 
 from allocation import selectors, services
 from allocation.core import Problem, StudyInvalid
-from allocation.core.analysis import analyse_plan
 from allocation.core.describe import (
     duration_text,
     occurs_text,
@@ -117,9 +116,8 @@ def study_download(request: HttpRequest, pk: int) -> HttpResponse:
 def plan_analysis_download(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     """The analysis file of one plan (DESIGN §6), as ``manage.py analyse --json`` writes it."""
     study_row = selectors.study_for_user(user=request.user, pk=pk)
-    result = selectors.study_load(study_row)
-    if not result.ok or plan not in result.study.plans_by_id:
+    analysis = selectors.plan_analysis(study_row, plan)
+    if analysis is None:
         raise Http404("No such plan, or the study has errors to fix first.")
-    analysis = analyse_plan(result.study, plan)
     filename = f"{slugify(study_row.key) or 'study'}.{slugify(plan) or 'plan'}.analysis.json"
     return _json_attachment(analysis.to_json(), filename)

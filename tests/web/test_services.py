@@ -83,9 +83,21 @@ def test_examples_load_skips_what_the_owner_has(owner):
 
 
 def test_study_document_query_count_is_fixed(study, django_assert_num_queries):
-    """Reading a study's rows costs the same few queries whatever its size."""
-    with django_assert_num_queries(10):
+    """Reading a study's rows costs the same few queries whatever its size; reading it
+    again at the same version costs one (the version check)."""
+    selectors._LOADED.clear()
+    with django_assert_num_queries(11):
         selectors.study_document(study)
+    with django_assert_num_queries(1):
+        selectors.study_document(study)
+
+
+def test_a_write_moves_the_version_so_nothing_stale_is_served(study):
+    first = selectors.study_load(study)
+    services.assignment_set(study=study, plan_key="manual", task_key="T1", item=None)
+    again = selectors.study_load(study)
+    assert again is not first
+    assert "T1" not in selectors.study_document(study)["plans"][0]["assignments"]
 
 
 def test_local_user_keeps_its_password(tmp_path, db):

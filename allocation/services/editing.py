@@ -1,0 +1,596 @@
+"""Edits to a stored study, one item at a time, checked as an import would be.
+
+Every edit is made twice: first to the study's document (its study-file form), which the
+core checks exactly as it checks an import; an edit that would add an error is refused
+with those errors (their JSON paths name the field), and nothing is written. Then the
+same change is written to the rows, inside one transaction with the study row locked,
+so that two edits of one study never interleave.
+"""
+
+from __future__ import annotations
+
+import copy
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+
+from django.contrib.auth.models import AbstractBaseUser
+from django.db import transaction
+from django.db.models import Max
+
+from allocation import models as m
+from allocation import selectors
+from allocation.core import Problem, StudyInvalid, load_study
+from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
+
+from . import rows
+from .studies import plan_create, study_create
+
+__all__ = [
+    "Consequence",
+    "agent_delete",
+    "agent_delete_consequences",
+    "agent_save",
+    "assignment_set",
+    "assignments_bulk_set",
+    "event_delete",
+    "event_delete_consequences",
+    "event_save",
+    "link_delete",
+    "link_save",
+    "plan_copy",
+    "plan_delete",
+    "plan_save",
+    "study_header_save",
+    "study_new",
+    "task_delete",
+    "task_delete_consequences",
+    "task_save",
+]
+
+Document = dict[str, Any]
+
+
+def _checked(study: m.Study, mutate: Callable[[Document], None]) -> Document:
+    """The study's document with ``mutate`` applied, if that adds no error.
+
+    Raises
+    ------
+    StudyInvalid
+        Listing the errors the change would add; nothing is written.
+    """
+    before = selectors.study_document(study)
+    after = copy.deepcopy(before)
+    mutate(after)
+    existing = {(p.path, p.message) for p in selectors.study_load(study).errors}
+    added = [p for p in load_study(after).errors if (p.path, p.message) not in existing]
+    if added:
+        raise StudyInvalid(added)
+    return after
+
+
+def _locked(study: m.Study) -> m.Study:
+    """The study row, locked for the rest of the transaction (on databases that lock)."""
+    return m.Study.objects.select_for_update().get(pk=study.pk)
+
+
+def _touch(study: m.Study) -> None:
+    study.save(update_fields=["updated_at"])
+
+
+def _next_position(queryset) -> int:
+    top = queryset.aggregate(top=Max("position"))["top"]
+    return 0 if top is None else top + 1
+
+
+def _index(items: list[dict[str, Any]], key: str, name: str = "id") -> int:
+    for index, item in enumerate(items):
+        if item.get(name) == key:
+            return index
+    raise StudyInvalid([Problem("$", f"no {name} {key!r} in the study")])
+
+
+def _agents(study: m.Study) -> dict[str, m.Agent]:
+    return {agent.key: agent for agent in study.agents.all()}
+
+
+def _tasks(study: m.Study) -> dict[str, m.Task]:
+    return {task.key: task for task in study.tasks.all()}
+
+
+def _assignment_maps(document: Document):
+    """Every assignment map of the document: each plan's, and each mode's overrides."""
+    for plan in document["plans"]:
+        yield plan["assignments"]
+        for mode in (plan.get("modes") or {}).get("states", []):
+            if "overrides" in mode:
+                yield mode["overrides"]
+
+
+@dataclass(frozen=True)
+class Consequence:
+    """Something else a deletion takes with it, in words, for the confirmation."""
+
+    kind: str
+    text: str
+
+
+# -- studies ------------------------------------------------------------------------
+
+
+def study_new(*, owner: AbstractBaseUser, key: str, title: str, scale: str) -> m.Study:
+    """Start an empty study, owned by ``owner``; its id, title and scale are checked as
+    an import would check them."""
+    document = {
+        "format": FORMAT_NAME,
+        "version": FORMAT_VERSION,
+        "study": {"id": key, "title": title, "scale": scale},
+        "agents": [],
+        "events": [],
+        "tasks": [],
+        "links": [],
+        "plans": [],
+    }
+    result = load_study(document)
+    if not result.ok:
+        raise StudyInvalid(result.errors)
+    return study_create(study=result.study, owner=owner)
+
+
+@transaction.atomic
+def study_header_save(*, study: m.Study, item: dict[str, Any]) -> m.Study:
+    """Change the study's id, title, description, scale or bin width."""
+    study = _locked(study)
+
+    def mutate(document: Document) -> None:
+        header = document["study"]
+        for key in ("id", "title", "description", "scale", "bin_s"):
+            if key in item:
+                header[key] = item[key]
+            elif key in ("description", "bin_s"):
+                header.pop(key, None)
+
+    document = _checked(study, mutate)
+    for name, value in rows.header_values(document["study"]).items():
+        setattr(study, name, value)
+    study.save()
+    return study
+
+
+# -- agents -------------------------------------------------------------------------
+
+
+@transaction.atomic
+def agent_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Agent:
+    """Add an agent (``key`` None) or change one; a new id is followed everywhere."""
+    study = _locked(study)
+
+    def mutate(document: Document) -> None:
+        if key is None:
+            document["agents"].append(item)
+            return
+        document["agents"][_index(document["agents"], key)] = item
+        if item["id"] != key:
+            for assignments in _assignment_maps(document):
+                for assignment in assignments.values():
+                    for role in ("human", "automation", "accountable"):
+                        if assignment.get(role) == key:
+                            assignment[role] = item["id"]
+
+    _checked(study, mutate)
+    values = rows.agent_values(item)
+    if key is None:
+        agent = m.Agent(study=study, position=_next_position(study.agents), **values)
+    else:
+        agent = study.agents.get(key=key)
+        for name, value in values.items():
+            setattr(agent, name, value)
+    agent.save()
+    _touch(study)
+    return agent
+
+
+def agent_delete_consequences(*, study: m.Study, key: str) -> list[Consequence]:
+    """What deleting an agent takes with it."""
+    agent = study.agents.get(key=key)
+    result = []
+    for model, where in ((m.Assignment, "plan__study"), (m.ModeOverride, "state__plan__study")):
+        scope = {where: study}
+        for field in ("human", "automation", "accountable"):
+            for row in model.objects.filter(**scope, **{field: agent}).select_related("task"):
+                owner = row.plan.key if model is m.Assignment else f"mode {row.state.key}"
+                what = {
+                    "accountable": "is no longer named accountable for",
+                    "human": "no longer does",
+                    "automation": "no longer does",
+                }[field]
+                result.append(
+                    Consequence("assignment", f"{agent.name} {what} {row.task.key} in {owner}")
+                )
+    return result
+
+
+@transaction.atomic
+def agent_delete(*, study: m.Study, key: str) -> None:
+    """Delete an agent; assignments naming only this agent are removed (the task becomes
+    unallocated there), others lose this agent (and their levels)."""
+    study = _locked(study)
+
+    def mutate(document: Document) -> None:
+        document["agents"].pop(_index(document["agents"], key))
+        for assignments in _assignment_maps(document):
+            for task_id in list(assignments):
+                assignment = assignments[task_id]
+                if assignment.get("accountable") == key:
+                    del assignment["accountable"]
+                for role in ("human", "automation"):
+                    if assignment.get(role) == key:
+                        del assignment[role]
+                        assignment.pop("levels", None)
+                if (
+                    "human" not in assignment
+                    and "automation" not in assignment
+                    and (assignment.get("applies", True))
+                ):
+                    del assignments[task_id]
+
+    _checked(study, mutate)
+    agent = study.agents.get(key=key)
+    for model, where in ((m.Assignment, "plan__study"), (m.ModeOverride, "state__plan__study")):
+        scope = model.objects.filter(**{where: study})
+        scope.filter(accountable=agent).update(accountable=None)
+        scope.filter(human=agent, automation__isnull=True).delete()
+        scope.filter(automation=agent, human__isnull=True).delete()
+        scope.filter(human=agent).update(human=None, levels=None)
+        scope.filter(automation=agent).update(automation=None, levels=None)
+    agent.delete()
+    _touch(study)
+
+
+# -- events -------------------------------------------------------------------------
+
+
+@transaction.atomic
+def event_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Event:
+    """Add an event (``key`` None) or change one; a new id is followed by its tasks."""
+    study = _locked(study)
+
+    def mutate(document: Document) -> None:
+        if key is None:
+            document["events"].append(item)
+            return
+        document["events"][_index(document["events"], key)] = item
+        for task in document["tasks"]:
+            if (task.get("occurs") or {}).get("event") == key:
+                task["occurs"]["event"] = item["id"]
+
+    _checked(study, mutate)
+    values = rows.event_values(item)
+    if key is None:
+        event = m.Event(study=study, position=_next_position(study.events), **values)
+    else:
+        event = study.events.get(key=key)
+        for name, value in values.items():
+            setattr(event, name, value)
+        if item["id"] != key:
+            for task in study.tasks.filter(occurs__event=key):
+                task.occurs = {**task.occurs, "event": item["id"]}
+                task.save(update_fields=["occurs"])
+    event.save()
+    _touch(study)
+    return event
+
+
+def event_delete_consequences(*, study: m.Study, key: str) -> list[Consequence]:
+    return [
+        Consequence(
+            "task",
+            f"{task.key} ({task.title}) no longer occurs on this event; it "
+            "occurs only in a chain until you give it another way",
+        )
+        for task in study.tasks.filter(occurs__event=key)
+    ]
+
+
+@transaction.atomic
+def event_delete(*, study: m.Study, key: str) -> None:
+    """Delete an event; the tasks it started lose their ``occurs``."""
+    study = _locked(study)
+
+    def mutate(document: Document) -> None:
+        document["events"].pop(_index(document["events"], key))
+        for task in document["tasks"]:
+            if (task.get("occurs") or {}).get("event") == key:
+                del task["occurs"]
+
+    _checked(study, mutate)
+    study.tasks.filter(occurs__event=key).update(occurs=None)
+    study.events.filter(key=key).delete()
+    _touch(study)
+
+
+# -- tasks --------------------------------------------------------------------------
+
+
+def _subtree(document: Document, key: str) -> list[str]:
+    children: dict[str, list[str]] = {}
+    for task in document["tasks"]:
+        children.setdefault(task.get("parent"), []).append(task["id"])
+    found, stack = [], [key]
+    while stack:
+        current = stack.pop()
+        found.append(current)
+        stack.extend(children.get(current, []))
+    return found
+
+
+@transaction.atomic
+def task_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Task:
+    """Add a task (``key`` None) or change one, moving it when its parent changes; a new
+    id is followed by its children, links and assignments."""
+    study = _locked(study)
+
+    def mutate(document: Document) -> None:
+        if key is None:
+            document["tasks"].append(item)
+            return
+        document["tasks"][_index(document["tasks"], key)] = item
+        new = item["id"]
+        if new == key:
+            return
+        for task in document["tasks"]:
+            if task.get("parent") == key:
+                task["parent"] = new
+        for link in document["links"]:
+            for end in ("from", "to"):
+                if link[end] == key:
+                    link[end] = new
+        for assignments in _assignment_maps(document):
+            if key in assignments:
+                # Keep the order of the map: rebuild it with the new key in place.
+                rebuilt = {(new if k == key else k): v for k, v in assignments.items()}
+                assignments.clear()
+                assignments.update(rebuilt)
+
+    _checked(study, mutate)
+    values = rows.task_values(item)
+    if key is None:
+        task = m.Task(study=study, position=_next_position(study.tasks), **values)
+    else:
+        task = study.tasks.get(key=key)
+        for name, value in values.items():
+            setattr(task, name, value)
+    task.parent = study.tasks.get(key=item["parent"]) if "parent" in item else None
+    task.save()
+    _touch(study)
+    return task
+
+
+def task_delete_consequences(*, study: m.Study, key: str) -> list[Consequence]:
+    """What deleting a task takes with it: sub-tasks, links, assignments."""
+    document = selectors.study_document(study)
+    doomed = set(_subtree(document, key))
+    result = [
+        Consequence("task", f"sub-task {task_id}")
+        for task_id in [t["id"] for t in document["tasks"] if t["id"] in doomed and t["id"] != key]
+    ]
+    result += [
+        Consequence("link", f"link {link['from']} {link['kind']} {link['to']}")
+        for link in document["links"]
+        if link["from"] in doomed or link["to"] in doomed
+    ]
+    for plan in document["plans"]:
+        touched = sorted(doomed & set(plan["assignments"]))
+        if touched:
+            result.append(
+                Consequence(
+                    "assignment", f"the allocation of {', '.join(touched)} in plan {plan['id']}"
+                )
+            )
+    return result
+
+
+@transaction.atomic
+def task_delete(*, study: m.Study, key: str) -> None:
+    """Delete a task with its sub-tasks, their links, assignments and mode overrides."""
+    study = _locked(study)
+    doomed: set[str] = set()
+
+    def mutate(document: Document) -> None:
+        doomed.update(_subtree(document, key))
+        document["tasks"] = [t for t in document["tasks"] if t["id"] not in doomed]
+        document["links"] = [
+            link
+            for link in document["links"]
+            if link["from"] not in doomed and link["to"] not in doomed
+        ]
+        for assignments in _assignment_maps(document):
+            for task_id in doomed & set(assignments):
+                del assignments[task_id]
+
+    _checked(study, mutate)
+    # Children first, so that no parent disappears before the rows that point at it.
+    study.tasks.filter(key__in=doomed).delete()
+    _touch(study)
+
+
+# -- links --------------------------------------------------------------------------
+
+
+def _link_rows(study: m.Study) -> list[m.Link]:
+    return list(study.links.select_related("source", "target"))
+
+
+@transaction.atomic
+def link_save(*, study: m.Study, pk: int | None, item: dict[str, Any]) -> m.Link:
+    """Add a link (``pk`` None) or change one."""
+    study = _locked(study)
+    links = _link_rows(study)
+    index = next((i for i, link in enumerate(links) if link.pk == pk), None)
+    if pk is not None and index is None:
+        raise StudyInvalid([Problem("$.links", "the link is no longer in the study")])
+
+    def mutate(document: Document) -> None:
+        if index is None:
+            document["links"].append(item)
+        else:
+            document["links"][index] = item
+
+    _checked(study, mutate)
+    values = rows.link_values(item, _tasks(study))
+    if index is None:
+        link = m.Link(study=study, position=_next_position(study.links), **values)
+    else:
+        link = links[index]
+        for name, value in values.items():
+            setattr(link, name, value)
+    link.save()
+    _touch(study)
+    return link
+
+
+@transaction.atomic
+def link_delete(*, study: m.Study, pk: int) -> None:
+    study = _locked(study)
+    deleted, _ = study.links.filter(pk=pk).delete()
+    if not deleted:
+        raise StudyInvalid([Problem("$.links", "the link is no longer in the study")])
+    _touch(study)
+
+
+# -- plans and assignments ----------------------------------------------------------
+
+
+@transaction.atomic
+def plan_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Plan:
+    """Add an empty plan (``key`` None) or change a plan's id, name or description."""
+    study = _locked(study)
+
+    def mutate(document: Document) -> None:
+        if key is None:
+            document["plans"].append({**item, "assignments": {}})
+            return
+        plan = document["plans"][_index(document["plans"], key)]
+        for field in ("id", "name", "description"):
+            if field in item:
+                plan[field] = item[field]
+            else:
+                plan.pop(field, None)
+
+    _checked(study, mutate)
+    if key is None:
+        plan = m.Plan(
+            study=study,
+            position=_next_position(study.plans),
+            key=item["id"],
+            name=item["name"],
+            description=item.get("description", ""),
+        )
+    else:
+        plan = study.plans.get(key=key)
+        plan.key, plan.name = item["id"], item["name"]
+        plan.description = item.get("description", "")
+    plan.save()
+    _touch(study)
+    return plan
+
+
+@transaction.atomic
+def plan_copy(*, study: m.Study, key: str, new_key: str, new_name: str) -> m.Plan:
+    """Copy a plan, with its assignments and mode map, as the start of a new one."""
+    study = _locked(study)
+    copied: dict[str, Any] = {}
+
+    def mutate(document: Document) -> None:
+        source = document["plans"][_index(document["plans"], key)]
+        copied.update(copy.deepcopy(source), id=new_key, name=new_name)
+        document["plans"].append(copied)
+
+    _checked(study, mutate)
+    plan = plan_create(
+        study_row=study,
+        item=copied,
+        position=_next_position(study.plans),
+        agents=_agents(study),
+        tasks=_tasks(study),
+    )
+    _touch(study)
+    return plan
+
+
+@transaction.atomic
+def plan_delete(*, study: m.Study, key: str) -> None:
+    study = _locked(study)
+    study.plans.filter(key=key).delete()
+    _touch(study)
+
+
+@transaction.atomic
+def assignment_set(
+    *, study: m.Study, plan_key: str, task_key: str, item: dict[str, Any] | None
+) -> m.Assignment | None:
+    """Set (or with ``item`` None, remove) a plan's assignment of one leaf task."""
+    study = _locked(study)
+
+    def mutate(document: Document) -> None:
+        plan = document["plans"][_index(document["plans"], plan_key)]
+        if item is None:
+            plan["assignments"].pop(task_key, None)
+        else:
+            plan["assignments"][task_key] = item
+
+    _checked(study, mutate)
+    plan = study.plans.get(key=plan_key)
+    task = study.tasks.get(key=task_key)
+    existing = plan.assignments.filter(task=task).first()
+    if item is None:
+        if existing is not None:
+            existing.delete()
+        _touch(study)
+        return None
+    values = rows.assignment_values(item, _agents(study))
+    if existing is None:
+        existing = m.Assignment(plan=plan, task=task, position=_next_position(plan.assignments))
+    for name, value in values.items():
+        setattr(existing, name, value)
+    existing.save()
+    _touch(study)
+    return existing
+
+
+@transaction.atomic
+def assignments_bulk_set(
+    *, study: m.Study, plan_key: str, task_keys: list[str], changes: dict[str, Any]
+) -> list[str]:
+    """Apply the same change (a level, a status …) to several assignments of a plan.
+
+    Levels go only to shared assignments (others take none); tasks not yet allocated are
+    left as they are. Returns the tasks changed.
+    """
+    study = _locked(study)
+    changed: list[str] = []
+
+    def mutate(document: Document) -> None:
+        plan = document["plans"][_index(document["plans"], plan_key)]
+        for task_id in task_keys:
+            assignment = plan["assignments"].get(task_id)
+            if assignment is None:
+                continue
+            shared = "human" in assignment and "automation" in assignment
+            update = {k: v for k, v in changes.items() if k != "levels" or shared}
+            if update:
+                assignment.update(update)
+                changed.append(task_id)
+
+    document = _checked(study, mutate)
+    plan_item = document["plans"][_index(document["plans"], plan_key)]
+    agents = _agents(study)
+    plan = study.plans.get(key=plan_key)
+    for row in plan.assignments.filter(task__key__in=changed).select_related("task"):
+        for name, value in rows.assignment_values(
+            plan_item["assignments"][row.task.key], agents
+        ).items():
+            setattr(row, name, value)
+        row.save()
+    _touch(study)
+    return changed

@@ -1,0 +1,421 @@
+"""The assumptions page: every default the analyses use, the fixed parts of the method and
+the risk policy; editors change the study's own values inline and see the figures move."""
+
+from __future__ import annotations
+
+import json
+import math
+import re
+from typing import Any
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_required
+from django.http import HttpRequest, HttpResponse, HttpResponseBadRequest
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.views.decorators.http import require_GET, require_POST
+from django_htmx.http import trigger_client_event
+
+from allocation import charts, services
+from allocation import models as m
+from allocation.core import Problem, StudyInvalid
+from allocation.core.analysis.risk import resolve_policy
+from allocation.core.assumptions import METHOD_NOTES, assumption_table
+from allocation.core.reading import child_path
+from allocation.services.assumptions import (
+    ASSUMPTION_KEYS,
+    ASSUMPTIONS_PATH,
+    POLICY_PATH,
+    assumption_value_parse,
+)
+from allocation.views.common import StudyPage, study_page
+
+POLICY = "risk_policy"
+#: The headline figures the box shows after an edit: key, words, decimals.
+HEADLINE_FIGURES = (
+    ("burden_s_per_day", "person time, s a day", 1),
+    ("interruptions_per_day", "interruptions a day", 2),
+    ("night_interruptions_per_day", "at night", 2),
+    ("handovers_to_review", "handovers to review", 0),
+    ("max_risk", "highest risk", 0),
+    ("mean_awareness", "mean awareness index", 3),
+    ("findings", "findings", 0),
+)
+STATUS_WORDS = {
+    "published": "published",
+    "memory": "published, from memory",
+    "practice": "common practice",
+    "tool assumption": "tool assumption",
+}
+
+
+def value_items(value: Any) -> list[tuple[str, str]] | None:
+    """A table's entries for reading, ``[("5", "5"), …]``; ``None`` for other values."""
+    if not isinstance(value, dict):
+        return None
+    return [(str(key), value_text(entry)) for key, entry in value.items()]
+
+
+def value_text(value: Any) -> str:
+    """A value as it is typed on the form: JSON with its keys quoted, words bare."""
+    if isinstance(value, str):
+        return value
+    return json.dumps(value, ensure_ascii=False, separators=(", ", ": "))
+
+
+# -- reading ------------------------------------------------------------------------------
+
+
+@require_GET
+@login_required
+def study_assumptions(request: HttpRequest, pk: int) -> HttpResponse:
+    """The page; ``?edit=KEY`` opens a row's form (htmx swaps just that row), ``?row=KEY``
+    gives the row back as it is shown (Cancel)."""
+    page = study_page(request, pk)
+    edit = request.GET.get("edit", "") if page.can_edit else ""
+    if request.htmx and not request.htmx.boosted:
+        # A viewer asking for a form gets the row as shown: no edit controls for them.
+        key = request.GET.get("edit") or request.GET.get("row", "")
+        if key == POLICY:
+            return render(
+                request, "htmx/assumption_policy.html", _policy(page, editing=bool(edit))
+            )
+        if key in ASSUMPTION_KEYS:
+            context = {"row": _row(page, key, editing=bool(edit)), **_base(page)}
+            return render(request, "htmx/assumption_row.html", context)
+    return _page(request, page, edit=edit)
+
+
+def _base(page: StudyPage) -> dict[str, Any]:
+    return {"study_row": page.row, "can_edit": page.can_edit}
+
+
+def _page(
+    request: HttpRequest,
+    page: StudyPage,
+    *,
+    edit: str = "",
+    text: str | None = None,
+    problems: list[Problem] | None = None,
+    policy_form: dict[str, str] | None = None,
+    status: int = 200,
+) -> HttpResponse:
+    rows = [
+        _row(page, key, editing=key == edit, text=text, problems=problems)
+        for key in ASSUMPTION_KEYS
+    ]
+    context = page.context(
+        "study-assumptions",
+        rows=rows,
+        method_notes=[
+            {"key": key, "status": STATUS_WORDS.get(mark, mark), "text": words}
+            for key, mark, words in METHOD_NOTES
+        ],
+        headlines=_headlines(page),
+        **_policy(page, editing=edit == POLICY, form=policy_form, problems=problems),
+    )
+    return render(request, "assumptions/page.html", context, status=status)
+
+
+def _row(
+    page: StudyPage,
+    key: str,
+    *,
+    editing: bool = False,
+    text: str | None = None,
+    problems: list[Problem] | None = None,
+) -> dict[str, Any]:
+    """One assumption as the table shows it, or as its form when ``editing``."""
+    table = {item["key"]: item for item in assumption_table(page.row.assumptions, page.row.scale)}
+    item = table[key]
+    override = (page.row.assumptions or {}).get(key)
+    is_table = isinstance(item["default"], dict)
+    if text is None:
+        text = value_text(override if item["overridden"] else item["default"])
+    return {
+        **item,
+        "status_words": STATUS_WORDS.get(item["status"], item["status"]),
+        "default_text": value_text(item["default"]),
+        "default_items": value_items(item["default"]),
+        "override_text": value_text(override) if item["overridden"] else "",
+        "override_items": value_items(override) if item["overridden"] else None,
+        "merged": is_table and item["overridden"] and item["value"] != override,
+        "value_text": value_text(item["value"]),
+        "editing": editing and page.can_edit,
+        "text": text,
+        "is_table": is_table,
+        "multiline": is_table or isinstance(item["default"], list),
+        "problems": problems if editing else [],
+        "path": child_path(ASSUMPTIONS_PATH, key),
+    }
+
+
+def _policy(
+    page: StudyPage,
+    *,
+    editing: bool = False,
+    form: dict[str, str] | None = None,
+    problems: list[Problem] | None = None,
+) -> dict[str, Any]:
+    """The risk policy in force, with its form's values and problems by field."""
+    stored = page.row.risk_policy or {}
+    policy = resolve_policy(stored)
+    if form is None:
+        bands = stored.get("likelihood_bands", policy["likelihood_bands"])
+        form = {
+            "likelihood_bands": ", ".join(
+                f"{cut:g}" if _is_number(cut) else str(cut) for cut in bands
+            )
+            if isinstance(bands, list)
+            else value_text(bands),
+            "review": str(stored.get("review", policy["review"])),
+            "unacceptable": str(stored.get("unacceptable", policy["unacceptable"])),
+            "note": str(stored.get("note", "")),
+        }
+    by_field: dict[str, list[Problem]] = {name: [] for name in (*form, "other")}
+    for problem in (problems or []) if editing else []:
+        field = next(
+            (
+                name
+                for name in form
+                if problem.path == child_path(POLICY_PATH, name)
+                or problem.path.startswith(child_path(POLICY_PATH, name) + "[")
+            ),
+            "other",
+        )
+        by_field[field].append(problem)
+    try:
+        figure = charts.risk_matrix_chart(policy, compact=True)
+    except (TypeError, ValueError, KeyError, IndexError):
+        figure = None  # a stored policy the checks reject: its problems show above
+    return {
+        "study_row": page.row,
+        "can_edit": page.can_edit,
+        "policy": policy,
+        "policy_stored": bool(stored),
+        "policy_note": stored.get("note") if stored else None,
+        "policy_editing": editing and page.can_edit,
+        "policy_form": form,
+        "policy_problems": by_field,
+        "policy_figure": figure,
+    }
+
+
+def _is_number(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _headlines(page: StudyPage, before: dict[str, dict] | None = None) -> dict[str, Any]:
+    """Each plan's headline figures now, beside those before an edit when given."""
+    analyses = page.analyses()
+    plans = []
+    for plan in page.study.plans if page.study else ():
+        if plan.id not in analyses:
+            continue
+        now = analyses[plan.id].headline()
+        earlier = (before or {}).get(plan.id)
+        plans.append(
+            {
+                "plan": plan,
+                "url": _dashboard_url(page, plan.id),
+                "figures": [
+                    _figure(words, now[key], None if earlier is None else earlier[key], places)
+                    for key, words, places in HEADLINE_FIGURES
+                ],
+            }
+        )
+    moved = any(figure["changed"] for item in plans for figure in item["figures"])
+    return {"plans": plans, "ok": page.result.ok, "after_edit": before is not None, "moved": moved}
+
+
+def _figure(words: str, now: float, before: float | None, places: int) -> dict[str, Any]:
+    """A headline figure as text, marked when it moved at the precision shown."""
+    now_text = f"{now:.{places}f}"
+    before_text = None if before is None else f"{before:.{places}f}"
+    return {
+        "words": words,
+        "now": now_text,
+        "before": before_text,
+        "changed": before_text is not None and before_text != now_text,
+    }
+
+
+def _dashboard_url(page: StudyPage, plan_id: str) -> str:
+    return reverse("plan-dashboard", args=[page.row.pk, plan_id])
+
+
+def _headline_values(page: StudyPage) -> dict[str, dict]:
+    return {plan_id: analysis.headline() for plan_id, analysis in page.analyses().items()}
+
+
+# -- writing ------------------------------------------------------------------------------
+
+
+def _saved(
+    request: HttpRequest, pk: int, *, before: dict[str, dict], part: str, message: str
+) -> HttpResponse:
+    """After a change: the row (or policy) as shown, the headline box out of band, and the
+    ``assumptions-changed`` event; without htmx, back to the page with a message."""
+    anchor = "risk-policy" if part == POLICY else f"assumption-{part}"
+    if not request.htmx:
+        messages.success(request, message)
+        return redirect(reverse("study-assumptions", args=[pk]) + f"#{anchor}")
+    page = study_page(request, pk, role=m.Role.EDITOR)
+    context = {
+        **_base(page),
+        "headlines": _headlines(page, before),
+        "saved_message": message,
+    }
+    if part == POLICY:
+        context.update(_policy(page))
+        template = "htmx/assumption_policy_saved.html"
+    else:
+        context["row"] = _row(page, part)
+        template = "htmx/assumption_row_saved.html"
+    response = render(request, template, context)
+    return trigger_client_event(response, "assumptions-changed", {"key": part})
+
+
+def _refused(
+    request: HttpRequest,
+    page: StudyPage,
+    *,
+    part: str,
+    problems: list[Problem],
+    text: str | None = None,
+    policy_form: dict[str, str] | None = None,
+) -> HttpResponse:
+    """The form again with the problems beside it; nothing was stored."""
+    if request.htmx:
+        if part == POLICY:
+            context = _policy(page, editing=True, form=policy_form, problems=problems)
+            return render(request, "htmx/assumption_policy.html", context)
+        context = {
+            "row": _row(page, part, editing=True, text=text, problems=problems),
+            **_base(page),
+        }
+        return render(request, "htmx/assumption_row.html", context)
+    return _page(
+        request,
+        page,
+        edit=part,
+        text=text,
+        problems=problems,
+        policy_form=policy_form,
+        status=400,
+    )
+
+
+@require_POST
+@login_required
+def assumption_set(request: HttpRequest, pk: int) -> HttpResponse:
+    """Set one assumption from the form's ``key`` and ``value`` (JSON-ish text)."""
+    page = study_page(request, pk, role=m.Role.EDITOR)
+    key = request.POST.get("key", "")
+    if key not in ASSUMPTION_KEYS:
+        return HttpResponseBadRequest("No such assumption.")
+    text = request.POST.get("value", "")
+    value, problems = assumption_value_parse(text, child_path(ASSUMPTIONS_PATH, key))
+    before = _headline_values(page)
+    if not problems:
+        try:
+            services.study_assumption_set(study=page.row, key=key, value=value, user=request.user)
+        except StudyInvalid as error:
+            problems = error.errors
+    if problems:
+        return _refused(request, page, part=key, problems=problems, text=text)
+    return _saved(request, pk, before=before, part=key, message=f"Saved the study's {key}.")
+
+
+@require_POST
+@login_required
+def assumption_reset(request: HttpRequest, pk: int) -> HttpResponse:
+    """Drop the study's value of the form's ``key``: the default applies again."""
+    page = study_page(request, pk, role=m.Role.EDITOR)
+    key = request.POST.get("key", "")
+    if key not in ASSUMPTION_KEYS:
+        return HttpResponseBadRequest("No such assumption.")
+    before = _headline_values(page)
+    try:
+        services.study_assumption_reset(study=page.row, key=key, user=request.user)
+    except StudyInvalid as error:
+        return _refused(request, page, part=key, problems=error.errors)
+    return _saved(request, pk, before=before, part=key, message=f"{key} is back to its default.")
+
+
+_SEPARATORS = re.compile(r"[\s,;]+")
+
+
+def _number_or_text(text: str) -> Any:
+    """A number where the text is one, else the text (the study reader then says why)."""
+    try:
+        return int(text)
+    except ValueError:
+        pass
+    try:
+        number = float(text)
+    except ValueError:
+        return text
+    return number if math.isfinite(number) else text
+
+
+def _policy_from_form(data) -> tuple[dict[str, str], dict[str, Any], list[Problem]]:
+    """The form's text, the policy it gives, and any problem reading the text."""
+    form = {
+        name: data.get(name, "").strip()
+        for name in ("likelihood_bands", "review", "unacceptable", "note")
+    }
+    policy: dict[str, Any] = {}
+    problems: list[Problem] = []
+    bands = form["likelihood_bands"]
+    if bands.startswith("["):
+        path = child_path(POLICY_PATH, "likelihood_bands")
+        value, problems = assumption_value_parse(bands, path)
+        if not problems:
+            policy["likelihood_bands"] = value
+    elif bands:
+        policy["likelihood_bands"] = [
+            _number_or_text(part) for part in _SEPARATORS.split(bands) if part
+        ]
+    for name in ("review", "unacceptable"):
+        if form[name]:
+            policy[name] = _number_or_text(form[name])
+    if form["note"]:
+        policy["note"] = form["note"]
+    return form, policy, problems
+
+
+@require_POST
+@login_required
+def risk_policy_set(request: HttpRequest, pk: int) -> HttpResponse:
+    """Set the study's risk policy: likelihood band cut points, review and unacceptable
+    thresholds, and a note."""
+    page = study_page(request, pk, role=m.Role.EDITOR)
+    form, policy, problems = _policy_from_form(request.POST)
+    before = _headline_values(page)
+    if not problems:
+        try:
+            services.study_risk_policy_set(study=page.row, policy=policy, user=request.user)
+        except StudyInvalid as error:
+            problems = error.errors
+    if problems:
+        return _refused(request, page, part=POLICY, problems=problems, policy_form=form)
+    return _saved(
+        request, pk, before=before, part=POLICY, message="Saved the study's risk policy."
+    )
+
+
+@require_POST
+@login_required
+def risk_policy_reset(request: HttpRequest, pk: int) -> HttpResponse:
+    """Drop the study's risk policy: Baton's example policy applies again."""
+    page = study_page(request, pk, role=m.Role.EDITOR)
+    before = _headline_values(page)
+    services.study_risk_policy_reset(study=page.row, user=request.user)
+    return _saved(
+        request,
+        pk,
+        before=before,
+        part=POLICY,
+        message="The study has no risk policy of its own now: the example policy applies.",
+    )

@@ -1,0 +1,467 @@
+"""Compare plans (DESIGN §3.11): figures side by side, burden moved, handovers and
+findings that appear or go, and the study objective with its weights and sensitivity.
+
+The plans come from the query string (``?baseline=a&plan=a&plan=b``), so a comparison
+is a link to share; the baseline is the ``baseline`` plan, else the first one named.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+from urllib.parse import urlencode
+
+from django.contrib.auth.decorators import login_required
+from django.http import HttpRequest, HttpResponse, QueryDict
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.views.decorators.http import require_GET, require_POST
+
+from allocation import models as m
+from allocation import services
+from allocation.core import StudyInvalid
+from allocation.core.analysis.compare import (
+    FIGURES,
+    OBJECTIVE_FIGURES,
+    Comparison,
+    PlanDelta,
+    Ranking,
+    compare_plans,
+    weight_problems,
+)
+from allocation.core.assumptions import OBJECTIVE_WEIGHTS
+from allocation.core.describe import seconds_text
+from allocation.views.common import StudyPage, study_page
+
+#: Tasks shown per plan in the burden-moved table and chart.
+TOP_TASKS = 30
+
+#: Decimal places per headline figure on this screen.
+DIGITS = {
+    "burden_s_per_day": 1,
+    "interruptions_per_day": 2,
+    "night_interruptions_per_day": 2,
+    "handovers": 0,
+    "handovers_per_day": 2,
+    "handovers_to_review": 0,
+    "max_risk": 0,
+    "mean_awareness": 3,
+    "cut_ratio": 3,
+    "modularity": 3,
+    "findings": 0,
+}
+
+#: What each weight stands for, beside its field in the weight form.
+WEIGHT_LABELS = {
+    key: f"{FIGURES[key][0]}{' ' + FIGURES[key][1] if FIGURES[key][1] else ''}"
+    for key in OBJECTIVE_FIGURES
+}
+
+#: Colours of the study's own look (static/baton/baton.css).
+SAVED, ADDED = "#2f7d6d", "#c2571a"
+FIGURE_COLOURS = (
+    "#1d2a3a",
+    "#c2571a",
+    "#5b4b9a",
+    "#2f7d6d",
+    "#a4282b",
+    "#b08a1e",
+    "#7a8aa0",
+    "#8a6a00",
+)
+
+
+@dataclass
+class WeightForm:
+    """The weight form's values as typed, and a message per field that is wrong."""
+
+    values: dict[str, str]
+    errors: dict[str, str] = field(default_factory=dict)
+    saved: bool = False
+
+    @property
+    def fields(self) -> list[dict[str, str]]:
+        return [
+            {
+                "key": key,
+                "name": f"weight_{key}",
+                "label": WEIGHT_LABELS[key],
+                "value": self.values.get(key, ""),
+                "error": self.errors.get(key, ""),
+                "default": f"{OBJECTIVE_WEIGHTS[key]:g}",
+            }
+            for key in OBJECTIVE_FIGURES
+        ]
+
+
+def _selection(page: StudyPage, query: QueryDict) -> tuple[list[str], list[str]]:
+    """The plans to compare, the baseline first, and messages about the request."""
+    known = page.study.plans_by_id if page.study else {}
+    asked = [plan for plan in query.getlist("plan") if plan]
+    baseline = query.get("baseline", "")
+    notes = [
+        f"There is no plan “{plan}” in this study; it was left out."
+        for plan in dict.fromkeys([*asked, baseline])
+        if plan and plan not in known
+    ]
+    chosen = list(dict.fromkeys(plan for plan in asked if plan in known))
+    if not asked:
+        chosen = list(known)
+    if baseline in known:
+        chosen = [baseline, *(plan for plan in chosen if plan != baseline)]
+    return chosen, notes
+
+
+def _query(plans: list[str], focus: str = "") -> str:
+    """The query string naming a comparison: baseline, plans and the plan in focus."""
+    if not plans:
+        return ""
+    pairs = [("baseline", plans[0]), *(("plan", plan) for plan in plans)]
+    if focus:
+        pairs.append(("focus", focus))
+    return urlencode(pairs)
+
+
+def _number(value: float, digits: int) -> str:
+    return f"{value:,.{digits}f}".replace("-", "−")
+
+
+def _signed(value: float, digits: int) -> str:
+    """A difference with its sign; one too small for ``digits`` keeps two significant
+    digits, so that a real change never reads as none."""
+    if value == 0:
+        return "±0"
+    text = _number(abs(value), digits)
+    if text.strip("0.,") == "":
+        text = f"{abs(value):.2g}"
+    return f"{'+' if value > 0 else '−'}{text}"
+
+
+def _rate(value: float) -> str:
+    """Occurrences per day: two decimals, or two significant digits when rarer."""
+    if value == 0 or value >= 0.01:
+        return f"{value:,.2f}"
+    return f"{value:.2g}"
+
+
+def _difference(difference: float | None, verdict: str, digits: int) -> str | None:
+    """The difference to the baseline as shown; none for the baseline itself."""
+    if difference is None:
+        return None
+    return "±0" if verdict == "same" else _signed(difference, digits)
+
+
+def _figure_rows(rows, names: dict[str, str] | None = None) -> list[dict[str, Any]]:
+    table = []
+    for row in rows:
+        digits = DIGITS[row.key]
+        cells = [
+            {
+                "value": _number(value, digits),
+                "difference": _difference(difference, verdict, digits),
+                "verdict": verdict,
+            }
+            for value, difference, verdict in zip(
+                row.values, row.differences, row.verdicts, strict=True
+            )
+        ]
+        table.append(
+            {
+                "label": row.label,
+                "unit": row.unit,
+                "agent": row.agent,
+                "agent_name": (names or {}).get(row.agent or "", row.agent),
+                "direction": "lower is better" if row.lower_is_better else "higher is better",
+                "cells": cells,
+            }
+        )
+    return table
+
+
+def _task_label(shift) -> str:
+    title = shift.title if len(shift.title) <= 48 else shift.title[:47] + "…"
+    return f"{shift.task_id} {title}"
+
+
+def burden_figure(delta: PlanDelta) -> dict[str, Any]:
+    """Person seconds per day saved (−) or added (+) per task, largest first: plotly data."""
+    shifts = [shift for shift in delta.shifts[:TOP_TASKS] if shift.change != 0]
+    changes = [shift.change for shift in shifts]
+    return {
+        "data": [
+            {
+                "type": "bar",
+                "orientation": "h",
+                "y": [_task_label(shift) for shift in shifts],
+                "x": changes,
+                "customdata": [shift.task_id for shift in shifts],
+                "marker": {"color": [ADDED if change > 0 else SAVED for change in changes]},
+                "hovertemplate": "%{y}<br>%{x:+.1f} person s/day<extra></extra>",
+            }
+        ],
+        "layout": {
+            "height": 120 + 22 * len(shifts),
+            "margin": {"l": 300, "r": 20, "t": 10, "b": 50},
+            "xaxis": {
+                "title": {
+                    "text": f"person s/day, {delta.plan} against {delta.baseline} "
+                    "(− saved, + added)"
+                },
+                "zeroline": True,
+                "zerolinecolor": "#1d2a3a",
+            },
+            "yaxis": {"autorange": "reversed", "automargin": True},
+            "plot_bgcolor": "#ffffff",
+            "paper_bgcolor": "#ffffff",
+            "font": {"family": "Source Sans 3, Segoe UI, system-ui, sans-serif"},
+        },
+    }
+
+
+def contribution_figure(ranking: Ranking) -> dict[str, Any]:
+    """Each plan's score as stacked weighted contributions, best plan on top."""
+    plans = list(ranking.order)
+    return {
+        "data": [
+            {
+                "type": "bar",
+                "orientation": "h",
+                "name": WEIGHT_LABELS[figure],
+                "y": plans,
+                "x": [ranking.contributions[plan][figure] for plan in plans],
+                "marker": {"color": FIGURE_COLOURS[index % len(FIGURE_COLOURS)]},
+                "hovertemplate": f"%{{y}}: {WEIGHT_LABELS[figure]} %{{x:.3f}}<extra></extra>",
+            }
+            for index, figure in enumerate(OBJECTIVE_FIGURES)
+        ],
+        "layout": {
+            "barmode": "stack",
+            "height": max(230, 90 + 42 * len(plans)),
+            "margin": {"l": 20, "r": 20, "t": 10, "b": 50},
+            "xaxis": {"title": {"text": "score: weighted contributions (lower is better)"}},
+            "yaxis": {"autorange": "reversed", "type": "category", "automargin": True},
+            "legend": {"orientation": "v", "x": 1.02, "y": 1, "traceorder": "normal"},
+            "plot_bgcolor": "#ffffff",
+            "paper_bgcolor": "#ffffff",
+            "font": {"family": "Source Sans 3, Segoe UI, system-ui, sans-serif"},
+        },
+    }
+
+
+def _handover_rows(handovers) -> list[dict[str, Any]]:
+    return [
+        {"handover": handover, "per_day": _rate(handover.site.per_day)} for handover in handovers
+    ]
+
+
+def _delta_context(delta: PlanDelta, comparison: Comparison) -> dict[str, Any]:
+    shown = delta.shifts[:TOP_TASKS]
+    return {
+        "delta": delta,
+        "name": comparison.names[delta.plan],
+        "chart_id": "compare-burden-chart",
+        "handovers_added": _handover_rows(delta.handovers_added),
+        "handovers_removed": _handover_rows(delta.handovers_removed),
+        "figure": burden_figure(delta),
+        "shifts": [
+            {
+                "shift": shift,
+                "before": _number(shift.total_before, 1),
+                "after": _number(shift.total_after, 1),
+                "change": _signed(shift.change, 1),
+                "direction": "worse" if shift.change > 0 else "better" if shift.change else "same",
+            }
+            for shift in shown
+        ],
+        "unchanged": sum(1 for shift in delta.shifts if shift.change == 0),
+        "hidden": max(0, len([s for s in delta.shifts if s.change != 0]) - len(shown)),
+        "saved": seconds_text(delta.seconds_saved),
+        "saved_tasks": sum(1 for shift in delta.shifts if shift.change < 0),
+        "added": seconds_text(delta.seconds_added),
+        "added_tasks": sum(1 for shift in delta.shifts if shift.change > 0),
+        "net": _signed(delta.burden_change, 1),
+        "net_text": ("+" if delta.burden_change > 0 else "−" if delta.burden_change else "±")
+        + seconds_text(abs(delta.burden_change)),
+    }
+
+
+def _objective_context(comparison: Comparison) -> dict[str, Any]:
+    ranking = comparison.ranking
+    rows = [
+        {
+            "plan": plan,
+            "name": comparison.names[plan],
+            "rank": ranking.rank(plan),
+            "score": f"{ranking.scores[plan]:.3f}",
+            "contributions": [
+                f"{ranking.contributions[plan][figure]:.3f}" for figure in OBJECTIVE_FIGURES
+            ],
+        }
+        for plan in ranking.order
+    ]
+    sensitivity = [
+        {
+            "label": WEIGHT_LABELS[row.figure],
+            "weight": f"{row.weight:g}",
+            "sides": [
+                {
+                    "weight": f"{side.weight:g}",
+                    "order": side.order,
+                    "swaps": side.swaps,
+                }
+                for side in (row.lower, row.upper)
+            ],
+        }
+        for row in comparison.sensitivity
+    ]
+    return {
+        "ranking_rows": rows,
+        "figure_labels": [WEIGHT_LABELS[figure] for figure in OBJECTIVE_FIGURES],
+        "sensitivity": sensitivity,
+        "sensitive": any(row.changed for row in comparison.sensitivity),
+        "contribution_figure": contribution_figure(ranking),
+    }
+
+
+def _compare_context(
+    page: StudyPage, query: QueryDict, form: WeightForm | None = None
+) -> dict[str, Any]:
+    chosen, notes = _selection(page, query)
+    focus = query.get("focus", "")
+    focus = focus if focus in chosen[1:] else (chosen[1] if len(chosen) > 1 else "")
+    compare_url = reverse("study-compare", args=[page.row.pk])
+    context: dict[str, Any] = {
+        "chosen": chosen,
+        "notes": notes,
+        "query": _query(chosen, focus),
+        "focus": focus,
+        "focus_links": [
+            {
+                "plan": plan,
+                "url": f"{compare_url}?{_query(chosen, plan)}",
+                "active": plan == focus,
+            }
+            for plan in chosen[1:]
+        ],
+        "comparison": None,
+        "form": form,
+        "ok": page.result.ok,
+        "weights_url": reverse("study-compare-weights", args=[page.row.pk]),
+        "compare_url": compare_url,
+    }
+    if page.study is None or not page.result.ok:
+        return context
+    if len(page.study.plans) < 2:
+        context["notes"].append(
+            "This study has one plan; add another in the plan editor to compare them."
+        )
+        return context
+    if len(chosen) < 2:
+        context["notes"].append("Pick at least two plans to compare.")
+        return context
+    analyses = page.analyses()
+    comparison = compare_plans([analyses[plan] for plan in chosen])
+    if form is None:
+        form = WeightForm({key: f"{value:g}" for key, value in comparison.ranking.weights.items()})
+    context.update(
+        comparison=comparison,
+        baseline=comparison.baseline,
+        plan_headers=[{"id": plan, "name": comparison.names[plan]} for plan in chosen],
+        headline_rows=_figure_rows(comparison.figures),
+        person_rows=_figure_rows(
+            comparison.people, {agent.id: agent.name for agent in page.study.humans}
+        ),
+        top_tasks=TOP_TASKS,
+        item=_delta_context(comparison.delta(focus), comparison),
+        form=form,
+        **_objective_context(comparison),
+    )
+    return context
+
+
+@require_GET
+@login_required
+def study_compare(request: HttpRequest, pk: int) -> HttpResponse:
+    """The comparison page; to htmx (the plan picker) only the comparison below it."""
+    page = study_page(request, pk)
+    context = page.context("study-compare", **_compare_context(page, request.GET))
+    # A boosted request or a history restore wants the whole page, like a plain visit.
+    if request.htmx and not (request.htmx.boosted or request.htmx.history_restore_request):
+        return render(request, "htmx/compare_results.html", context)
+    return render(request, "compare/compare.html", context)
+
+
+def _parse_weights(data: QueryDict) -> WeightForm:
+    """Read the typed weights; each must be a number (the core checks the rest)."""
+    form = WeightForm({key: data.get(f"weight_{key}", "").strip() for key in OBJECTIVE_FIGURES})
+    for key, text in form.values.items():
+        if not text:
+            form.errors[key] = "enter a weight (0 leaves the figure out)"
+            continue
+        try:
+            float(text)
+        except ValueError:
+            form.errors[key] = f"“{text}” is not a number; write it like 1 or 0.5"
+    return form
+
+
+def _weights_of(form: WeightForm) -> dict[str, float | int]:
+    weights = {}
+    for key, text in form.values.items():
+        number = float(text)
+        weights[key] = int(number) if math.isfinite(number) and number.is_integer() else number
+    return weights
+
+
+def _store(form: WeightForm, service, **kwargs: Any) -> None:
+    """Write through the assumptions service; its refusal becomes the form's message."""
+    try:
+        service(key="objective_weights", **kwargs)
+    except StudyInvalid as error:
+        form.errors["objective_weights"] = "; ".join(
+            f"{problem.path} {problem.message}" for problem in error.errors
+        )
+
+
+@require_POST
+@login_required
+def study_compare_weights(request: HttpRequest, pk: int) -> HttpResponse:
+    """Save the objective weights (editors and owners); the objective panel re-renders.
+
+    Bad weights come back with a message beside their field and nothing stored; without
+    htmx a good save redirects to the comparison it came from.
+    """
+    page = study_page(request, pk, m.Role.EDITOR)
+    chosen, _notes = _selection(page, request.POST)
+    query = _query(chosen, request.POST.get("focus", ""))
+    if not page.result.ok:
+        form = WeightForm({}, {"objective_weights": "the study has errors to fix first"})
+    elif "reset" in request.POST:
+        form = WeightForm({})
+        _store(form, services.study_assumption_reset, study=page.row, user=request.user)
+    else:
+        form = _parse_weights(request.POST)
+        if not form.errors:
+            form.errors.update(weight_problems(_weights_of(form)))
+        if not form.errors:
+            _store(
+                form,
+                services.study_assumption_set,
+                study=page.row,
+                value=_weights_of(form),
+                user=request.user,
+            )
+    if form.errors:
+        context = page.context("study-compare", **_compare_context(page, QueryDict(query), form))
+        if request.htmx:
+            return render(request, "htmx/compare_objective.html", context)
+        return render(request, "compare/compare.html", context, status=400)
+    if not request.htmx:
+        url = reverse("study-compare", args=[pk])
+        return redirect(f"{url}?{query}#compare-objective" if query else url)
+    page = study_page(request, pk, m.Role.EDITOR)
+    context = page.context("study-compare", **_compare_context(page, QueryDict(query)))
+    if context["comparison"] is not None:
+        context["form"].saved = True
+    return render(request, "htmx/compare_objective.html", context)

@@ -1,0 +1,228 @@
+"""A plan's dashboards: daily figures, time by goal, handovers, awareness, coherence,
+findings and the share of the day in each mode."""
+
+from __future__ import annotations
+
+from collections import Counter
+from typing import Any
+
+from django.contrib.auth.decorators import login_required
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import render
+from django.urls import NoReverseMatch, reverse
+from django.views.decorators.http import require_GET
+
+from allocation import charts
+from allocation.core.analysis import PlanAnalysis
+from allocation.core.analysis.report import METHODS
+from allocation.core.assumptions import AWARENESS_FACTORS
+from allocation.core.describe import seconds_text, severity_text
+from allocation.views.common import StudyPage, study_page
+
+#: Handovers shown before "show all".
+HANDOVERS_SHOWN = 50
+#: Tasks in the mode-awareness chart.
+AWARENESS_SHOWN = 30
+
+SOURCE_WORDS = {
+    "link": "link between tasks",
+    "shared": "within a shared task",
+    "mode": "mode change",
+}
+LIKELIHOOD_WORDS = {
+    "time": "time",
+    "load": "load",
+    "cue": "cue",
+    "automation_initiated": "initiation",
+    "awareness": "awareness",
+}
+
+
+@require_GET
+@login_required
+def plan_dashboard(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
+    """The dashboards of one plan; the plan picker and "show all" swap parts of it."""
+    page = study_page(request, pk)
+    chosen = page.plan_or_404(plan)
+    show_all = request.GET.get("handovers") == "all"
+    context = page.context(
+        "plan-dashboard",
+        plan=chosen,
+        plan_links=[
+            {
+                "plan": item,
+                "url": reverse("plan-dashboard", args=[page.row.pk, item.id]),
+                "active": item.id == chosen.id,
+            }
+            for item in page.study.plans
+        ],
+        show_all=show_all,
+        methods={name.lower().replace(" ", "_"): text for name, text in METHODS},
+    )
+    analysis = page.analysis(chosen.id) if page.result.ok else None
+    if analysis is not None:
+        context.update(_dashboard(page, analysis, show_all))
+    if request.htmx and not request.htmx.boosted:
+        if request.htmx.target == "dashboard-handovers" and "handovers" in context:
+            return render(request, "htmx/dashboard_handovers.html", context)
+        return render(request, "htmx/dashboard_region.html", context)
+    return render(request, "dashboards/plan.html", context)
+
+
+def _task_links(page: StudyPage, task_ids, plan_id: str) -> list[dict[str, str]]:
+    """Each task with where to see it: a leaf's row in the plan editor, a goal (or any
+    task when the editor is not routed) in the study page's task list."""
+    study_url = reverse("study-detail", args=[page.row.pk]) + "#tasks"
+    try:
+        editor_url = reverse("plan-editor", args=[page.row.pk, plan_id])
+    except NoReverseMatch:
+        editor_url = None
+    known = page.study.tasks_by_id
+    links = []
+    for task_id in task_ids:
+        leaf = task_id in known and not page.study.is_goal(task_id)
+        url = f"{editor_url}#row-{task_id}" if editor_url and leaf else study_url
+        title = known[task_id].title if task_id in known else ""
+        links.append({"id": task_id, "title": title, "url": url})
+    return links
+
+
+def _agent_name(page: StudyPage, agent_id: str | None) -> str:
+    if agent_id is None:
+        return "nobody"
+    agent = page.study.agents_by_id.get(agent_id)
+    return agent.name if agent else agent_id
+
+
+def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[str, Any]:
+    study = analysis.study
+    plan_id = analysis.plan.id
+    people = []
+    for agent_id, person in analysis.people.items():
+        top = sorted(
+            (
+                (figures.person_s_per_day.get(agent_id, 0.0), task_id)
+                for task_id, figures in analysis.tasks.items()
+                if figures.person_s_per_day.get(agent_id, 0.0) > 0
+            ),
+            reverse=True,
+        )[:3]
+        people.append(
+            {
+                "name": study.agent(agent_id).name,
+                "burden": seconds_text(person.burden_s_per_day),
+                "monitoring": seconds_text(person.monitoring_s_per_day),
+                "interactions": person.interactions_per_day,
+                "interruptions": person.interruptions_per_day,
+                "night": person.night_interruptions_per_day,
+                "awake_share": f"{person.load * 100:.2g}%",
+                "top_tasks": [
+                    {**link, "time": seconds_text(seconds)}
+                    for link, (seconds, _task) in zip(
+                        _task_links(page, [task for _s, task in top], plan_id), top, strict=True
+                    )
+                ],
+            }
+        )
+    goals = [
+        {
+            **row,
+            "link": _task_links(page, [row["task"]], plan_id)[0] if row["task"] else None,
+            "times": [
+                seconds_text(row["seconds"].get(agent_id, 0.0)) for agent_id in analysis.people
+            ],
+            "total": seconds_text(sum(row["seconds"].values())),
+        }
+        for row in charts.goal_person_time(analysis)
+    ]
+    handovers = [_handover_row(page, handover, plan_id) for handover in analysis.handovers]
+    awareness = [
+        {
+            **row,
+            "link": _task_links(page, [row["task"]], plan_id)[0],
+            "parts": [
+                {
+                    "words": charts.AWARENESS_WORDS[factor],
+                    "factor": row["factors"][factor],
+                    "contribution": row["contributions"][factor],
+                }
+                for factor in AWARENESS_FACTORS
+            ],
+        }
+        for row in charts.awareness_rows(analysis, AWARENESS_SHOWN)
+    ]
+    findings = [
+        {
+            "finding": finding,
+            "kind": finding.kind.replace("_", " "),
+            "severity": severity_text(finding.severity),
+            "tasks": _task_links(page, finding.tasks, plan_id),
+        }
+        for finding in analysis.findings
+    ]
+    modes = []
+    if analysis.plan.modes:
+        modes = [
+            {
+                "mode": mode,
+                "share": f"{analysis.mode_share.get(mode.id, 0.0):.1%}",
+                "time": seconds_text(analysis.mode_share.get(mode.id, 0.0) * 86400),
+                "initial": mode.id == analysis.plan.modes.initial,
+            }
+            for mode in analysis.plan.modes.states
+        ]
+    kinds = Counter(finding.kind.replace("_", " ") for finding in analysis.findings)
+    counts = charts.risk_matrix_counts(analysis)
+    return {
+        "analysis": analysis,
+        "headline": analysis.headline(),
+        "people": people,
+        "people_names": [study.agent(agent_id).name for agent_id in analysis.people],
+        "goals": goals,
+        "handovers": handovers if show_all else handovers[:HANDOVERS_SHOWN],
+        "handover_count": len(handovers),
+        "handovers_shown": HANDOVERS_SHOWN,
+        "awareness": awareness,
+        "awareness_count": len(charts.awareness_rows(analysis, None)),
+        "awareness_shown": AWARENESS_SHOWN,
+        "findings": findings,
+        "finding_kinds": sorted(kinds.items(), key=lambda kv: (-kv[1], kv[0])),
+        "modes": modes,
+        "policy": analysis.policy,
+        "band_labels": charts.likelihood_band_labels(analysis.policy),
+        "coherence": analysis.coherence,
+        "figures": {
+            "daily": charts.daily_figures_chart(analysis),
+            "goals": charts.goal_time_chart(analysis),
+            "risk": charts.risk_matrix_chart(analysis.policy, counts),
+            "awareness": charts.awareness_chart(analysis, AWARENESS_SHOWN),
+            "modes": charts.mode_share_chart(analysis) if modes else None,
+        },
+        "band_colours": charts.BAND_COLOURS,
+    }
+
+
+def _handover_row(page: StudyPage, handover, plan_id: str) -> dict[str, Any]:
+    site = handover.site
+    source = SOURCE_WORDS.get(site.source, site.source)
+    if site.source == "shared" and site.stage:
+        source += f" (to {site.stage})"
+    if site.source == "mode" and site.modes:
+        source += f" ({' → '.join(site.modes)})"
+    return {
+        "handover": handover,
+        "source": source,
+        "trigger": site.trigger,
+        "from_task": _task_links(page, [site.from_task], plan_id)[0],
+        "to_task": _task_links(page, [site.to_task], plan_id)[0],
+        "same_task": site.from_task == site.to_task,
+        "from_agent": _agent_name(page, site.from_agent),
+        "to_agent": _agent_name(page, site.to_agent),
+        "contributions": [
+            {"words": LIKELIHOOD_WORDS.get(name, name), "value": value}
+            for name, value in sorted(handover.contributions.items(), key=lambda kv: -kv[1])
+            if value >= 0.005  # what rounds to 0.00 tells the reader nothing
+        ],
+        "per_day": f"{site.per_day:.3g}",
+        "severity": severity_text(handover.severity),
+    }

@@ -1,0 +1,236 @@
+"""The plan editor: one row per leaf task, saved row by row with the figures beside it."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from django.contrib import messages
+from django.contrib.auth.decorators import login_required
+from django.http import HttpRequest, HttpResponse
+from django.shortcuts import redirect, render
+from django.urls import reverse
+from django.views.decorators.http import require_GET, require_POST
+from django_htmx.http import HttpResponseClientRedirect, HttpResponseClientRefresh
+
+from allocation import models as m
+from allocation import services
+from allocation.core import Problem, Study, StudyInvalid
+from allocation.core.analysis import PlanAnalysis
+from allocation.core.describe import task_outline
+from allocation.core.scales import level_text
+from allocation.core.vocabulary import ASSIGNMENT_STATUSES, CUES, INITIATORS, STAGES
+from allocation.core.writing import assignment_to_json
+from allocation.forms import WHO_CHOICES, AssignmentForm, BulkForm, PlanForm, level_choices
+from allocation.views.common import StudyPage, study_page
+
+
+def _choices(study: Study) -> dict[str, Any]:
+    """The option lists every row's selects share (rendered once per page)."""
+    return {
+        "who": WHO_CHOICES,
+        "humans": [(a.id, a.name) for a in study.agents if a.is_human],
+        "machines": [(a.id, a.name) for a in study.agents if not a.is_human],
+        "agents": [(a.id, a.name) for a in study.agents],
+        "levels": level_choices(study.scale),
+        "feedback": CUES,
+        "initiators": INITIATORS,
+        "statuses": ASSIGNMENT_STATUSES,
+        "stages": STAGES,
+        "per_stage_allowed": study.scale == "sv10",
+    }
+
+
+def _row(
+    study: Study,
+    plan_id: str,
+    task_id: str,
+    depth: int,
+    analysis: PlanAnalysis | None,
+    problems: list[Problem] = (),
+    initial: dict[str, Any] | None = None,
+) -> dict[str, Any]:
+    """Everything one editor row shows: the assignment's values, its figures, errors."""
+    plan = study.plans_by_id[plan_id]
+    assignment = plan.assignments.get(task_id)
+    item = None if assignment is None else assignment_to_json(assignment)
+    values = initial if initial is not None else AssignmentForm.initial_for(item)
+    row: dict[str, Any] = {
+        "task": study.task(task_id),
+        "depth": depth,
+        "values": values,
+        "problems": list(problems),
+        "figures": None,
+    }
+    level = values.get("level")
+    if level:
+        row["level_words"] = level_text(study.scale, int(level))
+    if analysis is not None:
+        figures = analysis.tasks[task_id]
+        involved = figures.involved
+        row["figures"] = {
+            "category": involved.category if involved.applies else "not applicable",
+            "holder": involved.principal,
+            "person_s": figures.person_s,
+            "per_day": figures.per_day,
+            "person_s_per_day": sum(figures.person_s_per_day.values()),
+            "awareness": None if figures.awareness is None else figures.awareness.index,
+            "handovers": sum(
+                1 for h in analysis.handovers if task_id in (h.site.from_task, h.site.to_task)
+            ),
+        }
+    return row
+
+
+def _headline(study: Study, analysis: PlanAnalysis | None) -> dict[str, Any] | None:
+    if analysis is None:
+        return None
+    return {
+        "figures": analysis.headline(),
+        "people": [
+            (study.agents_by_id[agent_id].name, person)
+            for agent_id, person in analysis.people.items()
+        ],
+    }
+
+
+def _analysis(page: StudyPage, plan_id: str) -> PlanAnalysis | None:
+    return page.analysis(plan_id)
+
+
+@require_GET
+@login_required
+def plan_editor(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
+    page = study_page(request, pk)
+    page.plan_or_404(plan)
+    study = page.study
+    analysis = _analysis(page, plan)
+    goal_ids = {task.id for task in study.goals}
+    rows = []
+    for task, depth in task_outline(study):
+        if task.id in goal_ids:
+            rows.append({"goal": task, "depth": depth})
+        else:
+            rows.append(_row(study, plan, task.id, depth, analysis))
+    context = page.context(
+        "plan-editor",
+        plan=study.plans_by_id[plan],
+        rows=rows,
+        choices=_choices(study),
+        headline=_headline(study, analysis),
+        plan_form=PlanForm(),
+    )
+    return render(request, "plans/editor.html", context)
+
+
+@require_POST
+@login_required
+def plan_row_save(request: HttpRequest, pk: int, plan: str, task: str) -> HttpResponse:
+    """Save one row; answer with the row and, out of band, the plan's headline figures."""
+    page = study_page(request, pk, role=m.Role.EDITOR)
+    page.plan_or_404(plan)
+    study = page.study
+    if task not in {leaf.id for leaf in study.leaves}:
+        return HttpResponse("No such leaf task.", status=404)
+    existing = study.plans_by_id[plan].assignments.get(task)
+    form = AssignmentForm(
+        request.POST,
+        study=study,
+        existing=None if existing is None else assignment_to_json(existing),
+    )
+    problems: list[Problem] = []
+    if form.is_valid():
+        try:
+            services.assignment_set(study=page.row, plan_key=plan, task_key=task, item=form.item())
+        except StudyInvalid as error:
+            problems = error.errors
+    else:
+        problems = [Problem(f"{field}", " ".join(errors)) for field, errors in form.errors.items()]
+    if not request.htmx:
+        if problems:
+            messages.error(
+                request,
+                f"{task} was not saved: " + "; ".join(str(problem) for problem in problems),
+            )
+        return redirect(reverse("plan-editor", args=[pk, plan]) + f"#row-{task}")
+    page = study_page(request, pk)
+    analysis = _analysis(page, plan)
+    depth = {t.id: d for t, d in task_outline(page.study)}[task]
+    # The row shows what was chosen, even the choices the saved assignment does not use
+    # yet (a device picked before "shared"), so that nothing picked is lost.
+    initial = dict(request.POST.items())
+    initial["per_stage"] = "per_stage" in request.POST
+    context = page.context(
+        "plan-editor",
+        plan=page.study.plans_by_id[plan],
+        row=_row(page.study, plan, task, depth, analysis, problems, initial),
+        choices=_choices(page.study),
+        headline=_headline(page.study, analysis),
+        oob=True,
+    )
+    return render(request, "htmx/plan_row_saved.html", context)
+
+
+@require_POST
+@login_required
+def plan_bulk(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
+    """Apply a level or a status to the selected rows."""
+    page = study_page(request, pk, role=m.Role.EDITOR)
+    page.plan_or_404(plan)
+    form = BulkForm(request.POST, study=page.study)
+    if form.is_valid():
+        try:
+            changed = services.assignments_bulk_set(
+                study=page.row,
+                plan_key=plan,
+                task_keys=form.cleaned_data["tasks"],
+                changes=form.changes(),
+            )
+            messages.success(
+                request,
+                f"Changed {len(changed)} task(s): {', '.join(changed)}."
+                if changed
+                else "No selected task could take that change (levels go to shared tasks only).",
+            )
+        except StudyInvalid as error:
+            messages.error(
+                request,
+                "Nothing was changed: " + "; ".join(str(problem) for problem in error.errors),
+            )
+    else:
+        messages.error(request, "Nothing was changed: select tasks, and a level or a status.")
+    if request.htmx:
+        return HttpResponseClientRefresh()
+    return redirect("plan-editor", pk, plan)
+
+
+@require_POST
+@login_required
+def plan_new(request: HttpRequest, pk: int) -> HttpResponse:
+    """Start a plan: empty, or (with ``copy_of``) a copy of another plan."""
+    page = study_page(request, pk, role=m.Role.EDITOR)
+    form = PlanForm(request.POST)
+    source = request.POST.get("copy_of", "")
+    if form.is_valid():
+        item = form.item()
+        try:
+            if source:
+                page.plan_or_404(source)
+                services.plan_copy(
+                    study=page.row, key=source, new_key=item["id"], new_name=item["name"]
+                )
+            else:
+                services.plan_save(study=page.row, key=None, item=item)
+        except StudyInvalid as error:
+            messages.error(
+                request,
+                "The plan was not created: " + "; ".join(str(problem) for problem in error.errors),
+            )
+        else:
+            url = reverse("plan-editor", args=[pk, item["id"]])
+            return HttpResponseClientRedirect(url) if request.htmx else redirect(url)
+    else:
+        messages.error(request, "The plan was not created: give it an id and a name.")
+    back = (
+        reverse("plan-editor", args=[pk, source]) if source else reverse("study-detail", args=[pk])
+    )
+    return HttpResponseClientRedirect(back) if request.htmx else redirect(back)

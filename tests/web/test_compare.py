@@ -1,0 +1,320 @@
+"""The compare screen (DESIGN §3.11, §4): full page, htmx fragments, and the weight form.
+
+Expected values are worked by hand from DESIGN §3.1 on the design's home-heating study
+(see tests/core/analysis/test_compare.py for the arithmetic): manual 15 person s/day,
+auto 52/3 = 17.33 (+2.33); task T2 +22/3 = +7.3, T1 −5.0. The objective with the
+default weights (tool assumption ``objective_weights``): auto is the worse plan in burden
+(weight 1), highest handover risk (weight 2) and mean awareness (weight 1) and equal in
+the rest, so manual scores 0 and auto 1 + 2 + 1 = 4.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import re
+
+import pytest
+from django.urls import reverse
+
+from allocation import models as m
+from allocation import services
+from allocation.core.assumptions import OBJECTIVE_FIGURES, OBJECTIVE_WEIGHTS
+from allocation.core.cautions import CAUTIONS
+from allocation.examples import example_paths
+
+HX = {"HX-Request": "true"}
+
+
+def compare_url(study: m.Study, query: str = "") -> str:
+    url = reverse("study-compare", args=[study.pk])
+    return f"{url}?{query}" if query else url
+
+
+def weights_url(study: m.Study) -> str:
+    return reverse("study-compare-weights", args=[study.pk])
+
+
+def weight_form(**overrides: object) -> dict[str, object]:
+    """The weight form as the page sends it: every default, some changed."""
+    values = {**OBJECTIVE_WEIGHTS, **overrides}
+    return {f"weight_{key}": str(values[key]) for key in OBJECTIVE_FIGURES}
+
+
+def ranking_rows(html: str) -> list[tuple[str, str]]:
+    """(plan, score) in ranking order, read from the objective panel."""
+    panel = html[html.index('id="compare-objective"') :]
+    table = panel[: panel.index("</table>")]
+    return re.findall(r"<td><code>([^<]+)</code>.*?<strong>([0-9.]+)</strong>", table, re.S)
+
+
+# -- the page ---------------------------------------------------------------------------
+
+
+def test_full_page_compares_all_plans_by_default(client, study, owner):
+    client.force_login(owner)
+    response = client.get(compare_url(study))
+    assert response.status_code == 200
+    page = response.content.decode()
+    assert page.startswith("<!doctype html>")
+    # Picker: every plan ticked, the first the baseline.
+    assert 'name="plan" value="manual" checked' in page
+    assert 'name="plan" value="auto" checked' in page
+    assert '<option value="manual" selected>' in page
+    # Headline: 15.0 against 17.3, worse by 2.3 (lower is better).
+    assert '<td class="num">15.0</td>' in page
+    assert re.search(r"17\.3 <span class=\"cmp cmp-worse\"[^>]*>\+2\.3", page)
+    assert "higher is better" in page and "lower is better" in page
+    # Burden moved, largest first: T2 +7.3 before T1 −5.0.
+    burden = page[page.index('id="compare-burden"') : page.index('id="compare-handovers"')]
+    assert burden.index("<code>T2</code>") < burden.index("<code>T1</code>")
+    assert "+7.3" in burden and "−5.0" in burden
+    assert 'data-figure="compare-burden-chart"' in burden
+    assert '<script id="compare-burden-chart" type="application/json">' in burden
+    # The two mode handovers of auto appear; the findings swap one for another.
+    assert "2 appear, 0 go, 0 in both." in page
+    assert "1 appear, 1 go, 0 in both." in page
+    assert "accountability" in page and "capability" in page
+    # Objective: manual 0, auto 4.
+    assert ranking_rows(page) == [("manual", "0.000"), ("auto", "4.000")]
+    assert '<script id="compare-contributions" type="application/json">' in page
+    # The owner may change the weights; the method and cautions are shown.
+    assert "Save weights and rank again" in page
+    assert "tool assumption" in page and "min–max normalised" in page
+    assert CAUTIONS[:60] in page
+
+
+def test_baseline_comes_first_and_differences_turn(client, study, owner):
+    client.force_login(owner)
+    page = client.get(compare_url(study, "baseline=auto&plan=manual&plan=auto")).content.decode()
+    headline = page[page.index('id="compare-headline"') : page.index('id="compare-against"')]
+    assert headline.index("<code>auto</code>") < headline.index("<code>manual</code>")
+    assert re.search(r"15\.0 <span class=\"cmp cmp-better\"[^>]*>−2\.3", headline)
+    # The ranking does not depend on which plan is the baseline.
+    assert ranking_rows(page) == [("manual", "0.000"), ("auto", "4.000")]
+
+
+def test_plan_picker_by_htmx_gets_the_comparison_only(client, study, owner):
+    client.force_login(owner)
+    response = client.get(compare_url(study, "plan=auto&plan=manual"), headers=HX)
+    fragment = response.content.decode().strip()
+    assert response.status_code == 200
+    assert fragment.startswith('<div id="comparison">')
+    assert "<html" not in fragment and 'id="compare-picker"' not in fragment
+    assert 'id="compare-objective"' in fragment
+
+
+def test_unknown_plans_are_named_and_escaped(client, study, owner):
+    client.force_login(owner)
+    page = client.get(compare_url(study, "plan=<b>x</b>&plan=manual")).content.decode()
+    assert "There is no plan “&lt;b&gt;x&lt;/b&gt;” in this study" in page
+    assert "<b>x</b>" not in page
+    assert "Pick at least two plans to compare." in page
+    assert 'id="compare-objective"' not in page
+
+
+def test_study_with_one_plan_says_so(client, study, owner):
+    study.plans.filter(key="auto").delete()
+    client.force_login(owner)
+    page = client.get(compare_url(study)).content.decode()
+    assert "This study has one plan" in page
+    assert 'id="compare-headline"' not in page
+
+
+def test_study_with_errors_shows_its_problems_not_a_comparison(client, study, owner):
+    m.Study.objects.filter(pk=study.pk).update(assumptions={"objective_weights": {"findings": -1}})
+    client.force_login(owner)
+    response = client.get(compare_url(study))
+    page = response.content.decode()
+    assert response.status_code == 200
+    assert "$.study.assumptions.objective_weights" in page
+    assert "The study has errors" in page
+    assert 'id="compare-headline"' not in page and 'id="compare-objective"' not in page
+
+
+def three_plan_study(owner, heating_document) -> m.Study:
+    document = copy.deepcopy(heating_document)
+    extra = copy.deepcopy(document["plans"][1])
+    extra.update(id="auto-alert", name="Thermostat, with an alert")
+    extra["assignments"]["T2"]["feedback"] = "alert"
+    document["plans"].append(extra)
+    return services.study_import(data=document, owner=owner)
+
+
+def test_focus_picks_the_plan_shown_against_the_baseline(client, owner, heating_document):
+    study = three_plan_study(owner, heating_document)
+    client.force_login(owner)
+    page = client.get(compare_url(study)).content.decode()
+    against = page[page.index('id="compare-against"') : page.index('id="compare-burden"')]
+    assert 'class="active" aria-current="true"><code>auto</code>' in against
+    focus = "baseline=manual&plan=manual&plan=auto&plan=auto-alert&focus=auto-alert"
+    assert f'href="{compare_url(study, focus).replace("&", "&amp;")}"' in against
+    page = client.get(compare_url(study, focus)).content.decode()
+    against = page[page.index('id="compare-against"') : page.index('id="compare-burden"')]
+    assert 'class="active" aria-current="true"><code>auto-alert</code>' in against
+    assert "Thermostat, with an alert" in against
+    # All three plans are still ranked.
+    assert {plan for plan, _score in ranking_rows(page)} == {"manual", "auto", "auto-alert"}
+
+
+# -- the weights ------------------------------------------------------------------------
+
+
+@pytest.fixture
+def example_heating(owner) -> m.Study:
+    """The example home-heating study: auto has fewer interruptions than manual."""
+    path = next(p for p in example_paths() if p.name == "home-heating.json")
+    return services.study_import(data=json.loads(path.read_text()), owner=owner)
+
+
+def test_weight_post_by_htmx_stores_and_ranks_again(client, example_heating, owner):
+    """Only interruptions weighed (manual 2.01 a day, auto 1.02): min-max gives auto 0 and
+    manual 1, so auto now ranks first; with the defaults manual ranks first."""
+    client.force_login(owner)
+    page = client.get(compare_url(example_heating)).content.decode()
+    assert [plan for plan, _ in ranking_rows(page)] == ["manual", "auto"]
+    weights = dict.fromkeys(OBJECTIVE_FIGURES, 0) | {"interruptions_per_day": 1}
+    data = {**weight_form(**weights), "baseline": "manual", "plan": ["manual", "auto"]}
+    response = client.post(weights_url(example_heating), data, headers=HX)
+    fragment = response.content.decode().strip()
+    assert response.status_code == 200
+    assert fragment.startswith('<section class="panel" id="compare-objective">')
+    assert ranking_rows(fragment) == [("auto", "0.000"), ("manual", "1.000")]
+    assert "Weights saved" in fragment
+    example_heating.refresh_from_db()
+    assert example_heating.assumptions["objective_weights"] == weights
+    # The full page now ranks with the stored weights too.
+    page = client.get(compare_url(example_heating)).content.decode()
+    assert [plan for plan, _ in ranking_rows(page)] == ["auto", "manual"]
+
+
+def test_weight_post_without_htmx_redirects_back(client, study, owner):
+    client.force_login(owner)
+    data = {**weight_form(findings=3), "baseline": "auto", "plan": ["manual", "auto"]}
+    response = client.post(weights_url(study), data)
+    assert response.status_code == 302
+    expected = compare_url(study, "baseline=auto&plan=auto&plan=manual")
+    assert response["Location"] == expected + "#compare-objective"
+    study.refresh_from_db()
+    assert study.assumptions["objective_weights"]["findings"] == 3
+    # The plan in focus comes back too.
+    response = client.post(weights_url(study), {**data, "focus": "manual"})
+    assert response["Location"] == expected + "&focus=manual#compare-objective"
+
+
+def test_reset_goes_back_to_the_defaults(client, study, owner):
+    m.Study.objects.filter(pk=study.pk).update(
+        assumptions={"objective_weights": {"findings": 3}, "monitoring_s": 12}
+    )
+    client.force_login(owner)
+    response = client.post(weights_url(study), {"reset": "1"}, headers=HX)
+    assert response.status_code == 200
+    study.refresh_from_db()
+    assert study.assumptions == {"monitoring_s": 12}
+
+
+@pytest.mark.parametrize(
+    "field, typed, message",
+    [
+        ("burden_s_per_day", "abc", "“abc” is not a number"),
+        ("max_risk", "", "enter a weight"),
+        ("cut_ratio", "-1", "at least 0"),
+        ("findings", "1000", "at most 100"),
+        ("findings", "nan", "must be a number"),
+    ],
+)
+def test_bad_weight_is_named_beside_its_field_and_nothing_stored(
+    client, study, owner, field, typed, message
+):
+    client.force_login(owner)
+    data = {**weight_form(), f"weight_{field}": typed, "plan": ["manual", "auto"]}
+    response = client.post(weights_url(study), data, headers=HX)
+    fragment = response.content.decode()
+    assert response.status_code == 200
+    match = re.search(
+        rf'name="weight_{field}" value="([^"]*)"\s*aria-invalid="true" '
+        rf'aria-describedby="err_weight_{field}">.*?<span class="error" '
+        rf'id="err_weight_{field}">([^<]*)</span>',
+        fragment,
+        re.S,
+    )
+    assert match, fragment
+    assert match.group(1) == typed.replace("<", "&lt;")
+    assert message in match.group(2)
+    study.refresh_from_db()
+    assert study.assumptions == {}
+
+
+def test_every_weight_zero_is_refused(client, study, owner):
+    client.force_login(owner)
+    data = {**weight_form(**dict.fromkeys(OBJECTIVE_FIGURES, 0)), "plan": ["manual", "auto"]}
+    response = client.post(weights_url(study), data)
+    assert response.status_code == 400
+    assert "must keep at least one weight above 0" in response.content.decode()
+    study.refresh_from_db()
+    assert study.assumptions == {}
+
+
+def test_typed_text_is_escaped(client, study, owner):
+    client.force_login(owner)
+    data = {**weight_form(), "weight_findings": "<script>x</script>", "plan": ["manual", "auto"]}
+    page = client.post(weights_url(study), data).content.decode()
+    assert "<script>x</script>" not in page
+    assert "&lt;script&gt;x&lt;/script&gt;" in page
+
+
+@pytest.mark.parametrize("role", ["viewer", "reviewer"])
+def test_viewers_and_reviewers_see_the_ranking_but_may_not_change_it(
+    client, study, member_of, role
+):
+    client.force_login(member_of(role))
+    page = client.get(compare_url(study)).content.decode()
+    assert ranking_rows(page) == [("manual", "0.000"), ("auto", "4.000")]
+    assert "Save weights and rank again" not in page
+    assert "Weights in force" in page
+    data = {**weight_form(findings=5), "plan": ["manual", "auto"]}
+    assert client.post(weights_url(study), data).status_code == 403
+    assert client.post(weights_url(study), data, headers=HX).status_code == 403
+    study.refresh_from_db()
+    assert study.assumptions == {}
+
+
+def test_editor_may_change_the_weights(client, study, member_of):
+    client.force_login(member_of("editor"))
+    data = {**weight_form(findings=2.5), "plan": ["manual", "auto"]}
+    assert client.post(weights_url(study), data, headers=HX).status_code == 200
+    study.refresh_from_db()
+    assert study.assumptions["objective_weights"]["findings"] == 2.5
+
+
+def test_sensitivity_table_names_the_swap(client, example_heating, owner):
+    """Example home heating, weights: interruptions 1 and burden 0.8 (all else 0).
+    Min-max over the two plans: auto is worse in burden (73.7 against 51.6 s/day), manual
+    in interruptions (2.01 against 1.02). manual = 1, auto = 0.8: auto first. Burden +50 %
+    makes auto 1.2 > 1: manual first, the two swap; −50 % leaves auto first."""
+    m.Study.objects.filter(pk=example_heating.pk).update(
+        assumptions={
+            "objective_weights": {
+                **dict.fromkeys(OBJECTIVE_FIGURES, 0),
+                "interruptions_per_day": 1,
+                "burden_s_per_day": 0.8,
+            }
+        }
+    )
+    client.force_login(owner)
+    page = client.get(compare_url(example_heating)).content.decode()
+    assert ranking_rows(page) == [("auto", "0.800"), ("manual", "1.000")]
+    table = page[page.index("Sensitivity to the weights") :]
+    burden = table[table.index("Person burden s/day</th>") :]
+    burden = burden[: burden.index("</tr>")]
+    lower, upper = burden.split("weight 1.2:")
+    assert "weight 0.4:" in lower and "unchanged" in lower
+    assert "swaps <code>auto</code> ↔ <code>manual</code>" in upper
+
+
+def test_history_restore_gets_the_whole_page(client, study, owner):
+    """htmx asks for the whole page when it restores history it has no copy of."""
+    client.force_login(owner)
+    headers = {**HX, "HX-History-Restore-Request": "true"}
+    page = client.get(compare_url(study), headers=headers).content.decode()
+    assert page.startswith("<!doctype html>") and 'id="compare-picker"' in page

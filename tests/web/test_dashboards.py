@@ -1,0 +1,180 @@
+"""A plan's dashboards: full page, htmx fragments, show-all, a study with errors.
+
+Figures checked are worked by hand in ``tests/web/test_charts.py`` (home-heating study,
+DESIGN §5): in plan "auto" the resident spends 52/3 s a day (shown as 17.3 s).
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from pathlib import Path
+
+import pytest
+from django.conf import settings
+from django.urls import reverse
+
+from allocation import models as m
+from allocation import services
+from allocation.examples import example_documents
+
+PANELS = ("daily", "goals", "handovers", "awareness", "coherence", "findings", "modes")
+FIGURES = ("figure-daily", "figure-goals", "figure-risk", "figure-awareness", "figure-modes")
+
+
+def dashboard(study: m.Study, plan: str = "auto") -> str:
+    return reverse("plan-dashboard", args=[study.pk, plan])
+
+
+def chart_data(page: str, figure_id: str) -> dict:
+    match = re.search(rf'<script id="{figure_id}" type="application/json">(.*?)</script>', page)
+    assert match, figure_id
+    return json.loads(match.group(1))
+
+
+def test_full_page_has_every_panel_chart_and_method_note(client, study, owner):
+    client.force_login(owner)
+    response = client.get(dashboard(study))
+    page = response.content.decode()
+    assert response.status_code == 200 and "<html" in page
+    for panel in PANELS:
+        assert f'id="{panel}"' in page, panel
+    for figure_id in FIGURES:
+        assert f'data-figure="{figure_id}"' in page, figure_id
+    # Sources named in the method notes, and the example policy said to be one.
+    for source in ("Parasuraman", "Pritchett, Kim &amp; Feigh (2014)", "Newman 2006"):
+        assert source in page, source
+    assert "Endsley &amp; Kiris (1995)" in page and "Eriksson &amp; Stanton (2017)" in page
+    assert "example risk policy, not a recommendation" in page
+    # The resident's 52/3 s a day in plan "auto", by hand (test_charts module docstring).
+    assert "17.3 s" in page
+    daily = chart_data(page, "figure-daily")
+    assert daily["data"][0]["y"][0] * 60 == pytest.approx(52 / 3)
+
+
+def test_plan_picker_links_work_with_and_without_htmx(client, study, owner):
+    client.force_login(owner)
+    page = client.get(dashboard(study)).content.decode()
+    for plan in ("manual", "auto"):
+        url = dashboard(study, plan)
+        assert f'href="{url}" hx-get="{url}" hx-target="#dashboard"' in page
+
+
+def test_dashboard_fragment_for_htmx(client, study, owner):
+    client.force_login(owner)
+    response = client.get(dashboard(study, "manual"), headers={"HX-Request": "true"})
+    fragment = response.content.decode()
+    assert fragment.startswith('<div id="dashboard"')
+    assert "<html" not in fragment and 'class="tabs"' not in fragment
+    assert "Resident does it" in fragment and 'data-figure="figure-daily"' in fragment
+    # The manual plan has no mode map, so no mode panel.
+    assert 'id="modes"' not in fragment
+
+
+def test_boosted_request_is_a_full_page(client, study, owner):
+    client.force_login(owner)
+    headers = {"HX-Request": "true", "HX-Boosted": "true"}
+    assert "<html" in client.get(dashboard(study), headers=headers).content.decode()
+
+
+def test_unknown_plan_is_404(client, study, owner):
+    client.force_login(owner)
+    assert client.get(dashboard(study, "nope")).status_code == 404
+
+
+def test_risk_matrix_on_the_page_counts_the_handovers(client, study, owner):
+    """Plan "auto": two handovers of T2 (severity 2), in likelihood bands 3 and 2."""
+    client.force_login(owner)
+    page = client.get(dashboard(study)).content.decode()
+    text = chart_data(page, "figure-risk")["data"][0]["text"]
+    assert (text[1][1], text[1][2]) == ("1", "1")
+    assert sum(cell != "·" for row in text for cell in row) == 2
+
+
+@pytest.fixture
+def insulin(owner):
+    document = next(d for d in example_documents() if d["study"]["id"] == "closed-loop-insulin")
+    return services.study_import(data=document, owner=owner)
+
+
+def handover_rows(html: str) -> int:
+    table = html.split('id="dashboard-handovers"', 1)[1].split("</table>", 1)[0]
+    return table.count("<tr>") - 1  # less the header row
+
+
+def test_handovers_show_the_top_fifty_then_all(client, insulin, owner):
+    client.force_login(owner)
+    url = dashboard(insulin, "hybrid-loop")
+    page = client.get(url).content.decode()
+    total = int(re.search(r"Show all (\d+)", page).group(1))
+    assert total > 50 and handover_rows(page) == 50
+    assert f'href="{url}?handovers=all#handovers"' in page
+    everything = client.get(url + "?handovers=all").content.decode()
+    assert handover_rows(everything) == total and "<html" in everything
+    # With htmx, only the table is sent back.
+    fragment = client.get(
+        url + "?handovers=all",
+        headers={"HX-Request": "true", "HX-Target": "dashboard-handovers"},
+    ).content.decode()
+    assert fragment.startswith('<div id="dashboard-handovers"')
+    assert handover_rows(fragment) == total and 'id="awareness"' not in fragment
+
+
+def test_study_with_errors_shows_its_problems_and_no_charts(client, study, owner):
+    m.Task.objects.filter(study=study, key="T2").update(duration_s=[30, 5, 2])
+    client.force_login(owner)
+    response = client.get(dashboard(study))
+    page = response.content.decode()
+    assert response.status_code == 200
+    assert "$.tasks[2].duration_s" in page and "cannot be analysed yet" in page
+    assert "data-figure" not in page and 'id="handovers"' not in page
+
+
+def test_study_own_policy_is_named_not_called_an_example(client, study, owner):
+    study.risk_policy = {"likelihood_bands": [0.1, 0.2, 0.3, 0.4], "review": 4, "unacceptable": 8}
+    study.save()
+    client.force_login(owner)
+    page = client.get(dashboard(study)).content.decode()
+    assert "study's own risk policy" in page and "example risk policy" not in page
+    assert "review (risk 4 or more)" in page
+
+
+def test_user_text_is_escaped_in_tables_and_chart_data(client, owner, heating_document):
+    heating_document["agents"][0]["name"] = "<script>alert(1)</script>"
+    heating_document["plans"][1]["name"] = "<b>bold</b> plan"
+    study = services.study_import(data=heating_document, owner=owner)
+    client.force_login(owner)
+    page = client.get(dashboard(study)).content.decode()
+    assert "<script>alert(1)</script>" not in page and "<b>bold</b>" not in page
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in page
+    assert "\\u003Cscript\\u003Ealert(1)" in page  # json_script's escaping inside chart data
+
+
+def test_templates_use_json_script_and_never_safe():
+    """Every chart's data is written with json_script (STYLE.md); no template of these
+    screens marks anything safe."""
+    root = Path(settings.BASE_DIR) / "templates"
+    names = [
+        *root.glob("dashboards/*.html"),
+        *root.glob("htmx/dashboard_*.html"),
+        *root.glob("assumptions/*.html"),
+        *root.glob("htmx/assumption_*.html"),
+    ]
+    assert len(names) >= 8
+    for path in names:
+        text = path.read_text()
+        assert "|safe" not in text and "autoescape off" not in text, path.name
+        for figure_id in re.findall(r'data-figure="([^"]+)"', text):
+            assert f'json_script:"{figure_id}"' in text, (path.name, figure_id)
+
+
+def test_tasks_link_to_their_plan_editor_row_and_goals_to_the_study_page(client, study, owner):
+    """Plan "auto" has one finding (the resident is accountable for T2, which the
+    thermostat holds): T2 links to its row in the plan editor; goal G1 to the task list."""
+    client.force_login(owner)
+    page = client.get(dashboard(study)).content.decode()
+    findings = page.split('id="findings"', 1)[1].split("</section>", 1)[0]
+    assert "accountability" in findings
+    assert f'href="{reverse("plan-editor", args=[study.pk, "auto"])}#row-T2"' in findings
+    goals = page.split('id="goals"', 1)[1].split("</section>", 1)[0]
+    assert f'href="{reverse("study-detail", args=[study.pk])}#tasks"><code>G1</code>' in goals

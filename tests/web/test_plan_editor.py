@@ -1,0 +1,116 @@
+"""The plan editor: full page, row saves as htmx fragments with the figures out of band."""
+
+from __future__ import annotations
+
+from django.urls import reverse
+
+from allocation import models as m
+from allocation import selectors
+from allocation.core.analysis import analyse_plan
+
+
+def editor(pk: int, plan: str = "manual") -> str:
+    return reverse("plan-editor", args=[pk, plan])
+
+
+def row_url(pk: int, plan: str, task: str) -> str:
+    return reverse("plan-row-save", args=[pk, plan, task])
+
+
+def test_editor_lists_every_leaf_under_its_goal(client, study, owner):
+    client.force_login(owner)
+    page = client.get(editor(study.pk)).content.decode()
+    assert page.index("Keep the home comfortable") < page.index('id="row-T1"')
+    assert 'id="row-T2"' in page and 'id="plan-headline"' in page
+    assert "Parasuraman, Sheridan &amp; Wickens 2000" in page
+
+
+def test_row_save_answers_the_row_and_the_headline_out_of_band(client, study, owner):
+    client.force_login(owner)
+    response = client.post(
+        row_url(study.pk, "manual", "T2"),
+        {"who": "shared", "human": "resident", "automation": "thermostat", "level": "7"},
+        headers={"HX-Request": "true"},
+    )
+    fragment = response.content.decode()
+    assert fragment.lstrip().startswith('<tr id="row-T2"')
+    assert '<aside id="plan-headline"' in fragment and 'hx-swap-oob="true"' in fragment
+    assert "<html" not in fragment
+    # The figures shown are the analysis of what was stored (hand check: shared at level 7).
+    stored = selectors.study_document(study)["plans"][0]["assignments"]["T2"]
+    assert stored == {"human": "resident", "automation": "thermostat", "levels": 7}
+    result = analyse_plan(selectors.study_load(study).study, "manual")
+    assert f"{result.headline()['burden_s_per_day']:.0f} s/day" in fragment
+
+
+def test_row_with_a_missing_device_keeps_the_choices_and_saves_nothing(client, study, owner):
+    client.force_login(owner)
+    before = selectors.study_document(study)
+    response = client.post(
+        row_url(study.pk, "manual", "T2"),
+        {"who": "shared", "human": "resident", "level": "7"},
+        headers={"HX-Request": "true"},
+    )
+    fragment = response.content.decode()
+    assert "Choose the device that does it." in fragment
+    assert '<option value="shared" selected>' in fragment
+    assert selectors.study_document(study) == before
+
+
+def test_core_messages_show_in_the_row(client, study, owner):
+    client.force_login(owner)
+    response = client.post(
+        row_url(study.pk, "manual", "T2"),
+        {"who": "shared", "human": "resident", "automation": "thermostat"},
+        headers={"HX-Request": "true"},
+    )
+    assert "so it needs levels" in response.content.decode()
+
+
+def test_row_save_without_htmx_redirects_back_to_the_row(client, study, owner):
+    client.force_login(owner)
+    response = client.post(
+        row_url(study.pk, "manual", "T1"),
+        {"who": "not_applicable", "rationale": "not in this plan"},
+    )
+    assert response.status_code == 302 and response["Location"].endswith("#row-T1")
+    stored = selectors.study_document(study)["plans"][0]["assignments"]["T1"]
+    assert stored == {"applies": False, "rationale": "not in this plan"}
+
+
+def test_viewers_see_no_controls_and_cannot_save(client, study, member_of):
+    client.force_login(member_of("viewer"))
+    page = client.get(editor(study.pk)).content.decode()
+    assert "hx-post" not in page and "Apply to the selected rows" not in page
+    response = client.post(row_url(study.pk, "manual", "T1"), {"who": "unallocated"})
+    assert response.status_code == 403
+
+
+def test_bulk_applies_a_status(client, study, owner):
+    client.force_login(owner)
+    client.post(
+        reverse("plan-bulk", args=[study.pk, "manual"]),
+        {"tasks": ["T1", "T2"], "status": "agreed"},
+    )
+    assignments = selectors.study_document(study)["plans"][0]["assignments"]
+    assert assignments["T1"]["status"] == assignments["T2"]["status"] == "agreed"
+
+
+def test_copy_a_plan_opens_the_copy(client, study, owner):
+    client.force_login(owner)
+    response = client.post(
+        reverse("plan-new", args=[study.pk]),
+        {"copy_of": "auto", "id": "auto-2", "name": "Second try"},
+    )
+    assert response["Location"] == editor(study.pk, "auto-2")
+    assert m.Plan.objects.filter(study=study, key="auto-2").exists()
+
+
+def test_start_an_empty_plan(client, study, owner):
+    client.force_login(owner)
+    client.post(reverse("plan-new", args=[study.pk]), {"id": "blank", "name": "Blank"})
+    assert selectors.study_document(study)["plans"][2] == {
+        "id": "blank",
+        "name": "Blank",
+        "assignments": {},
+    }
