@@ -151,6 +151,16 @@ def _loaded(study: m.Study) -> _Loaded:
     return entry
 
 
+def study_remember(study: m.Study, document: dict[str, Any], result: LoadResult) -> None:
+    """Keep a document the services have just checked and written as the study's
+    current version (``study.updated_at``), so that reading it back costs no rebuild."""
+    with _LOADED_LOCK:
+        _LOADED[study.pk] = _Loaded(study.updated_at, document, result)
+        _LOADED.move_to_end(study.pk)
+        while len(_LOADED) > _LOADED_SIZE:
+            _LOADED.popitem(last=False)
+
+
 def study_document(study: m.Study) -> dict[str, Any]:
     """The study as a JSON-ready dict in the study file format (version 1).
 

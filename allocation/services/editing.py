@@ -54,6 +54,9 @@ Document = dict[str, Any]
 def _checked(study: m.Study, mutate: Callable[[Document], None]) -> Document:
     """The study's document with ``mutate`` applied, if that adds no error.
 
+    The checked document and what the core made of it are kept on ``study`` so that
+    :func:`_touch` can hand them to the selectors' cache for the new version.
+
     Raises
     ------
     StudyInvalid
@@ -63,9 +66,11 @@ def _checked(study: m.Study, mutate: Callable[[Document], None]) -> Document:
     after = copy.deepcopy(before)
     mutate(after)
     existing = {(p.path, p.message) for p in selectors.study_load(study).errors}
-    added = [p for p in load_study(after).errors if (p.path, p.message) not in existing]
+    result = load_study(after)
+    added = [p for p in result.errors if (p.path, p.message) not in existing]
     if added:
         raise StudyInvalid(added)
+    study._checked_after = (after, result)
     return after
 
 
@@ -75,7 +80,12 @@ def _locked(study: m.Study) -> m.Study:
 
 
 def _touch(study: m.Study) -> None:
+    """Move the study to a new version; the document checked for it serves that version
+    (so the next read need not rebuild it from the rows)."""
     study.save(update_fields=["updated_at"])
+    checked = getattr(study, "_checked_after", None)
+    if checked is not None:
+        selectors.study_remember(study, *checked)
 
 
 def _next_position(queryset) -> int:
@@ -154,6 +164,7 @@ def study_header_save(*, study: m.Study, item: dict[str, Any]) -> m.Study:
     for name, value in rows.header_values(document["study"]).items():
         setattr(study, name, value)
     study.save()
+    selectors.study_remember(study, *study._checked_after)
     return study
 
 

@@ -100,13 +100,17 @@ def _analysis(page: StudyPage, plan_id: str) -> PlanAnalysis | None:
 @require_GET
 @login_required
 def plan_editor(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
+    """The plan's rows; a large study opens on one goal at a time (``?goal=``)."""
     page = study_page(request, pk)
     page.plan_or_404(plan)
     study = page.study
     analysis = _analysis(page, plan)
+    goal = _goal_shown(study, request.GET.get("goal", ""))
     goal_ids = {task.id for task in study.goals}
     rows = []
     for task, depth in task_outline(study):
+        if goal and not _under(study, task.id, goal):
+            continue
         if task.id in goal_ids:
             rows.append({"goal": task, "depth": depth})
         else:
@@ -118,8 +122,38 @@ def plan_editor(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         choices=_choices(study),
         headline=_headline(study, analysis),
         plan_form=PlanForm(),
+        goal=goal,
+        top_goals=[task for task in study.goals if task.parent is None],
+        large=len(study.leaves) > LARGE_STUDY,
+        leaf_count=len(study.leaves),
     )
     return render(request, "plans/editor.html", context)
+
+
+#: Above this many leaf tasks the editor shows one top-level goal at a time.
+LARGE_STUDY = 200
+
+
+def _goal_shown(study: Study, asked: str) -> str:
+    """The goal whose rows to show: the one asked for, else (in a large study) the first
+    top-level goal; ``""`` for every row."""
+    if asked == "all":
+        return ""
+    if asked in study.tasks_by_id and study.is_goal(asked):
+        return asked
+    if len(study.leaves) > LARGE_STUDY:
+        return next((task.id for task in study.goals if task.parent is None), "")
+    return ""
+
+
+def _under(study: Study, task_id: str, goal: str) -> bool:
+    """Whether a task is the goal itself or lies anywhere under it."""
+    current: str | None = task_id
+    while current is not None:
+        if current == goal:
+            return True
+        current = study.tasks_by_id[current].parent
+    return False
 
 
 @require_POST

@@ -163,7 +163,9 @@ def test_analyse_a_file_with_errors_lists_them(heating_document, tmp_path):
         run("analyse", str(source))
 
 
-def test_bench_prints_the_ratios_against_the_targets():
+def test_bench_prints_the_ratios_against_the_targets(db):
     output = run("bench", "--large", "2000", "--repeats", "1")
     assert "analysis / floor at 1,000 tasks" in output
     assert "2,000 / 1,000 tasks" in output
+    assert "save one row (check, write, re-analyse, answer)" in output
+    assert output.count("x trivial (target <= 10") == 3

@@ -165,3 +165,62 @@ def test_plan_copy_is_an_independent_copy(study):
 def test_plan_copy_to_an_existing_id_is_refused(study):
     with pytest.raises(StudyInvalid, match="repeats the id 'manual'"):
         services.plan_copy(study=study, key="auto", new_key="manual", new_name="x")
+
+
+def test_the_remembered_document_is_what_the_rows_say(study):
+    """After every kind of edit, the document the cache serves equals the one rebuilt from
+    the rows: the rows were written exactly as checked."""
+
+    def same() -> None:
+        assert selectors._document_from_rows(study) == selectors.study_document(study)
+
+    services.agent_save(
+        study=study, key=None, item={"id": "helper", "name": "Helper", "kind": "human"}
+    )
+    same()
+    services.event_save(
+        study=study,
+        key="leave",
+        item={"id": "out", "name": "Go out", "per_day": 1.5, "when": "awake"},
+    )
+    same()
+    services.task_save(
+        study=study,
+        key=None,
+        item={
+            "id": "T3",
+            "parent": "G1",
+            "title": "Close the windows",
+            "occurs": {"event": "out"},
+            "duration_s": [5, 10, 30],
+        },
+    )
+    same()
+    services.link_save(study=study, pk=None, item={"from": "T3", "to": "T2", "kind": "informs"})
+    same()
+    services.assignment_set(
+        study=study,
+        plan_key="auto",
+        task_key="T3",
+        item={
+            "human": "helper",
+            "automation": "thermostat",
+            "levels": {"acquisition": 9, "analysis": 5, "decision": 2, "action": 1},
+            "feedback": "alert",
+        },
+    )
+    same()
+    services.plan_copy(study=study, key="auto", new_key="auto-2", new_name="Second")
+    same()
+    services.assignments_bulk_set(
+        study=study, plan_key="auto-2", task_keys=["T2", "T3"], changes={"status": "open"}
+    )
+    same()
+    services.study_header_save(
+        study=study, item={"id": "heating", "title": "Heating", "scale": "sv10", "bin_s": 600}
+    )
+    same()
+    services.agent_delete(study=study, key="helper")
+    same()
+    services.task_delete(study=study, key="T3")
+    same()

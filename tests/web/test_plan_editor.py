@@ -114,3 +114,26 @@ def test_start_an_empty_plan(client, study, owner):
         "name": "Blank",
         "assignments": {},
     }
+
+
+def test_editor_shows_one_goal_when_asked(client, study, owner, heating_document):
+    client.force_login(owner)
+    page = client.get(editor(study.pk) + "?goal=G1").content.decode()
+    assert 'id="row-T1"' in page and 'id="row-T2"' in page
+    everything = client.get(editor(study.pk) + "?goal=all").content.decode()
+    assert 'id="row-T1"' in everything
+
+
+def test_a_large_study_opens_on_its_first_goal(client, owner):
+    from allocation import services
+    from allocation.core.synthetic import synthetic_study
+
+    document = synthetic_study(tasks=300, links=600, events=5, plans=1, seed=3)
+    study = services.study_import(data=document, owner=owner)
+    client.force_login(owner)
+    page = client.get(editor(study.pk, "plan-0")).content.decode()
+    first_goal_leaves = [t["id"] for t in document["tasks"] if t.get("parent") == "G0"]
+    other_leaf = next(t["id"] for t in document["tasks"] if t.get("parent") == "G1")
+    assert all(f'id="row-{task}"' in page for task in first_goal_leaves)
+    assert f'id="row-{other_leaf}"' not in page
+    assert "opens on one goal" in page

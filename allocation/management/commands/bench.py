@@ -25,6 +25,8 @@ from allocation.core.synthetic import synthetic_study
 #: tasks within twelve times the time).
 ANALYSIS_OVER_FLOOR = 3.0
 SCALING_LIMIT = 12.0
+#: Opening the plan editor and saving one row, against a trivial page (issue target).
+PAGE_LIMIT = 10.0
 
 
 def _median_seconds(work: Callable[[], object], repeats: int, collect: bool) -> float:
@@ -56,8 +58,15 @@ class Command(BaseCommand):
         parser.add_argument(
             "--large", type=int, default=10000, help="tasks in the large study (default 10000)"
         )
+        parser.add_argument("--no-web", action="store_true", help="skip the page timings")
 
-    def handle(self, *args, repeats: int, seed: int, large: int, **options) -> None:
+    def handle(self, *args, repeats: int, seed: int, large: int, no_web: bool, **options) -> None:
+        self.engine(repeats=repeats, seed=seed, large=large)
+        if not no_web:
+            self.stdout.write("")
+            self.pages(repeats=max(repeats, 5), seed=seed)
+
+    def engine(self, *, repeats: int, seed: int, large: int) -> None:
         rows = {}
         for size in (1000, large):
             document = synthetic_study(tasks=size, links=3 * size, events=20, plans=4, seed=seed)
@@ -104,3 +113,74 @@ class Command(BaseCommand):
                 f"{whole:5.2f}x (target <= {SCALING_LIMIT:g}: "
                 f"{'met' if scale <= SCALING_LIMIT else 'MISSED'})"
             )
+
+    def pages(self, *, repeats: int, seed: int) -> None:
+        """Plan editor timings on the 1,000-task study, in a throw-away test database."""
+        from django.db import connection
+        from django.test import Client
+        from django.test.utils import setup_test_environment, teardown_test_environment
+        from django.urls import reverse
+
+        from allocation import selectors, services
+
+        try:
+            setup_test_environment()
+        except RuntimeError:  # already inside a test run, on its test database
+            owns_database = False
+        else:
+            owns_database = True
+            old_name = connection.creation.create_test_db(verbosity=0, autoclobber=True)
+        try:
+            from django.contrib.auth import get_user_model
+
+            user = get_user_model().objects.create_user("bench-runner")
+            document = synthetic_study(tasks=1000, links=3000, events=20, plans=4, seed=seed)
+            study = services.study_import(data=document, owner=user)
+            client = Client()
+            client.force_login(user)
+            plan = document["plans"][1]["id"]
+            task = next(t["id"] for t in document["tasks"] if "parent" in t)
+            trivial_url = reverse("study-list")
+            editor_url = reverse("plan-editor", args=[study.pk, plan])
+            row_url = reverse("plan-row-save", args=[study.pk, plan, task])
+            choices = [
+                {"who": "person", "human": "person"},
+                {"who": "device", "automation": "device-0"},
+            ]
+            turn = iter(range(10**6))
+
+            def trivial():
+                client.get(trivial_url)
+
+            def editor_cold():
+                selectors._LOADED.clear()
+                client.get(editor_url)
+
+            def editor_warm():
+                client.get(editor_url)
+
+            def row_save():
+                client.post(row_url, choices[next(turn) % 2], headers={"HX-Request": "true"})
+
+            trivial_s = _median_seconds(trivial, repeats * 4, True)
+            rows = [
+                ("open the plan editor (study read from the rows)", editor_cold),
+                ("open the plan editor again (study already read)", editor_warm),
+                ("save one row (check, write, re-analyse, answer)", row_save),
+            ]
+            self.stdout.write(
+                f"pages on the 1,000-task study: trivial page (the study list) "
+                f"{trivial_s * 1000:.1f} ms"
+            )
+            for label, work in rows:
+                seconds = _median_seconds(work, repeats, True)
+                ratio = seconds / trivial_s
+                verdict = "met" if ratio <= PAGE_LIMIT else "MISSED"
+                self.stdout.write(
+                    f"    {label:52} {seconds * 1000:8.1f} ms  "
+                    f"{ratio:6.1f}x trivial (target <= {PAGE_LIMIT:g}: {verdict})"
+                )
+        finally:
+            if owns_database:
+                connection.creation.destroy_test_db(old_name, verbosity=0)
+                teardown_test_environment()
