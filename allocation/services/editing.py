@@ -93,6 +93,17 @@ def _next_position(queryset) -> int:
     return 0 if top is None else top + 1
 
 
+def _upsert(related, key: str | None, values: dict[str, Any], **create: Any):
+    """Add a row to ``related`` (``key`` None, placed last) or change the row ``key``;
+    the caller saves it."""
+    if key is None:
+        return related.model(position=_next_position(related), **create, **values)
+    row = related.get(key=key)
+    for name, value in values.items():
+        setattr(row, name, value)
+    return row
+
+
 def _index(items: list[dict[str, Any]], key: str, name: str = "id") -> int:
     for index, item in enumerate(items):
         if item.get(name) == key:
@@ -189,13 +200,7 @@ def agent_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Ag
                             assignment[role] = item["id"]
 
     _checked(study, mutate)
-    values = rows.agent_values(item)
-    if key is None:
-        agent = m.Agent(study=study, position=_next_position(study.agents), **values)
-    else:
-        agent = study.agents.get(key=key)
-        for name, value in values.items():
-            setattr(agent, name, value)
+    agent = _upsert(study.agents, key, rows.agent_values(item), study=study)
     agent.save()
     _touch(study)
     return agent
@@ -276,17 +281,11 @@ def event_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Ev
                 task["occurs"]["event"] = item["id"]
 
     _checked(study, mutate)
-    values = rows.event_values(item)
-    if key is None:
-        event = m.Event(study=study, position=_next_position(study.events), **values)
-    else:
-        event = study.events.get(key=key)
-        for name, value in values.items():
-            setattr(event, name, value)
-        if item["id"] != key:
-            for task in study.tasks.filter(occurs__event=key):
-                task.occurs = {**task.occurs, "event": item["id"]}
-                task.save(update_fields=["occurs"])
+    event = _upsert(study.events, key, rows.event_values(item), study=study)
+    if key is not None and item["id"] != key:
+        for task in study.tasks.filter(occurs__event=key):
+            task.occurs = {**task.occurs, "event": item["id"]}
+            task.save(update_fields=["occurs"])
     event.save()
     _touch(study)
     return event
@@ -364,13 +363,7 @@ def task_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Tas
                 assignments.update(rebuilt)
 
     _checked(study, mutate)
-    values = rows.task_values(item)
-    if key is None:
-        task = m.Task(study=study, position=_next_position(study.tasks), **values)
-    else:
-        task = study.tasks.get(key=key)
-        for name, value in values.items():
-            setattr(task, name, value)
+    task = _upsert(study.tasks, key, rows.task_values(item), study=study)
     task.parent = study.tasks.get(key=item["parent"]) if "parent" in item else None
     task.save()
     _touch(study)
