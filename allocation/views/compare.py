@@ -20,13 +20,13 @@ from django.views.decorators.http import require_GET, require_POST
 
 from allocation import models as m
 from allocation import services
+from allocation.charts import burden_moved_figure, objective_figure
 from allocation.core import StudyInvalid
 from allocation.core.analysis.compare import (
     FIGURES,
     OBJECTIVE_FIGURES,
     Comparison,
     PlanDelta,
-    Ranking,
     compare_plans,
     weight_problems,
 )
@@ -57,19 +57,6 @@ WEIGHT_LABELS = {
     key: f"{FIGURES[key][0]}{' ' + FIGURES[key][1] if FIGURES[key][1] else ''}"
     for key in OBJECTIVE_FIGURES
 }
-
-#: Colours of the study's own look (static/baton/baton.css).
-SAVED, ADDED = "#2f7d6d", "#c2571a"
-FIGURE_COLOURS = (
-    "#1d2a3a",
-    "#c2571a",
-    "#5b4b9a",
-    "#2f7d6d",
-    "#a4282b",
-    "#b08a1e",
-    "#7a8aa0",
-    "#8a6a00",
-)
 
 
 @dataclass
@@ -179,76 +166,6 @@ def _figure_rows(rows, names: dict[str, str] | None = None) -> list[dict[str, An
     return table
 
 
-def _task_label(shift) -> str:
-    title = shift.title if len(shift.title) <= 48 else shift.title[:47] + "…"
-    return f"{shift.task_id} {title}"
-
-
-def burden_figure(delta: PlanDelta) -> dict[str, Any]:
-    """Person seconds per day saved (−) or added (+) per task, largest first: plotly data."""
-    shifts = [shift for shift in delta.shifts[:TOP_TASKS] if shift.change != 0]
-    changes = [shift.change for shift in shifts]
-    return {
-        "data": [
-            {
-                "type": "bar",
-                "orientation": "h",
-                "y": [_task_label(shift) for shift in shifts],
-                "x": changes,
-                "customdata": [shift.task_id for shift in shifts],
-                "marker": {"color": [ADDED if change > 0 else SAVED for change in changes]},
-                "hovertemplate": "%{y}<br>%{x:+.1f} person s/day<extra></extra>",
-            }
-        ],
-        "layout": {
-            "height": 120 + 22 * len(shifts),
-            "margin": {"l": 300, "r": 20, "t": 10, "b": 50},
-            "xaxis": {
-                "title": {
-                    "text": f"person s/day, {delta.plan} against {delta.baseline} "
-                    "(− saved, + added)"
-                },
-                "zeroline": True,
-                "zerolinecolor": "#1d2a3a",
-            },
-            "yaxis": {"autorange": "reversed", "automargin": True},
-            "plot_bgcolor": "#ffffff",
-            "paper_bgcolor": "#ffffff",
-            "font": {"family": "Source Sans 3, Segoe UI, system-ui, sans-serif"},
-        },
-    }
-
-
-def contribution_figure(ranking: Ranking) -> dict[str, Any]:
-    """Each plan's score as stacked weighted contributions, best plan on top."""
-    plans = list(ranking.order)
-    return {
-        "data": [
-            {
-                "type": "bar",
-                "orientation": "h",
-                "name": WEIGHT_LABELS[figure],
-                "y": plans,
-                "x": [ranking.contributions[plan][figure] for plan in plans],
-                "marker": {"color": FIGURE_COLOURS[index % len(FIGURE_COLOURS)]},
-                "hovertemplate": f"%{{y}}: {WEIGHT_LABELS[figure]} %{{x:.3f}}<extra></extra>",
-            }
-            for index, figure in enumerate(OBJECTIVE_FIGURES)
-        ],
-        "layout": {
-            "barmode": "stack",
-            "height": max(230, 90 + 42 * len(plans)),
-            "margin": {"l": 20, "r": 20, "t": 10, "b": 50},
-            "xaxis": {"title": {"text": "score: weighted contributions (lower is better)"}},
-            "yaxis": {"autorange": "reversed", "type": "category", "automargin": True},
-            "legend": {"orientation": "v", "x": 1.02, "y": 1, "traceorder": "normal"},
-            "plot_bgcolor": "#ffffff",
-            "paper_bgcolor": "#ffffff",
-            "font": {"family": "Source Sans 3, Segoe UI, system-ui, sans-serif"},
-        },
-    }
-
-
 def _handover_rows(handovers) -> list[dict[str, Any]]:
     return [
         {"handover": handover, "per_day": _rate(handover.site.per_day)} for handover in handovers
@@ -263,7 +180,7 @@ def _delta_context(delta: PlanDelta, comparison: Comparison) -> dict[str, Any]:
         "chart_id": "compare-burden-chart",
         "handovers_added": _handover_rows(delta.handovers_added),
         "handovers_removed": _handover_rows(delta.handovers_removed),
-        "figure": burden_figure(delta),
+        "figure": burden_moved_figure(delta, top=TOP_TASKS),
         "shifts": [
             {
                 "shift": shift,
@@ -320,7 +237,7 @@ def _objective_context(comparison: Comparison) -> dict[str, Any]:
         "figure_labels": [WEIGHT_LABELS[figure] for figure in OBJECTIVE_FIGURES],
         "sensitivity": sensitivity,
         "sensitive": any(row.changed for row in comparison.sensitivity),
-        "contribution_figure": contribution_figure(ranking),
+        "contribution_figure": objective_figure(ranking, WEIGHT_LABELS),
     }
 
 
