@@ -13,7 +13,9 @@ with the factors, each in [0, 1]:
 - ``initiation``: how far the occurrences are started by someone other than the person
   (``initiation_weight``; Sarter & Woods 1995);
 - ``mode_change``: the weakest cue among the mode transitions that change the task's
-  holder (0 when no transition changes it);
+  holder (0 when no transition changes it); 1 when the task's holder is in question in
+  an error state of the mode map, where the person can believe a mode in which someone
+  else holds it (Degani & Heymann 2002; :mod:`.modecheck`);
 - ``rarity``: how rarely the person does the task hands-on,
   ``1 - min(1, hands-on occurrences per day / practice_per_day)``.
 
@@ -27,6 +29,8 @@ References
    consequences of stages and levels of automation. Human Factors, 56(3), 476-488.
 .. [3] Sarter, N. B., & Woods, D. D. (1995). How in the world did we ever get into that
    mode? Mode error and awareness in supervisory control. Human Factors, 37(1), 5-19.
+.. [4] Degani, A., & Heymann, M. (2002). Formal verification of human-automation
+   interaction. Human Factors, 44(1), 28-43.
 """
 
 from __future__ import annotations
@@ -57,6 +61,7 @@ def awareness(
     per_day: float,
     mode_cue: str | None,
     assumptions: dict[str, Any],
+    in_error_state: bool = False,
 ) -> Awareness | None:
     """The awareness index of one task, or ``None`` when no human is involved in it or
     accountable for it.
@@ -75,6 +80,9 @@ def awareness(
         The weakest cue among the mode transitions that change its holder, if any.
     assumptions : dict
         The resolved assumptions.
+    in_error_state : bool, optional
+        Whether the task's holder is in question in an error state of the mode map; the
+        ``mode_change`` factor is then 1, its highest.
     """
     accountable = study.agents_by_id.get(involved.accountable or "")
     human_accountable = accountable is not None and accountable.is_human
@@ -90,7 +98,7 @@ def awareness(
         "automation": (degrees["decision"] + degrees["action"]) / 2,
         "feedback": float(weakness[feedback]) if feedback else 0.0,
         "initiation": float(assumptions["initiation_weight"].get(initiator, 0.0)),
-        "mode_change": float(weakness[mode_cue]) if mode_cue else 0.0,
+        "mode_change": 1.0 if in_error_state else (float(weakness[mode_cue]) if mode_cue else 0.0),
         "rarity": 1 - min(1.0, hands_on / practice),
     }
     weights = assumptions["awareness_weights"]

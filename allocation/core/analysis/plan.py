@@ -29,6 +29,7 @@ from .coherence import Coherence, coherence
 from .findings import Finding, accountability_findings, capability_findings
 from .handovers import Handover, HandoverSite, assess_handover, time_budget_ratio
 from .involvement import Involvement, involvement
+from .modecheck import error_state_tasks, verify_mode_map
 from .modes import assignment_in_mode, mode_occupancy
 from .occurrences import Occurrences, occurrences
 from .risk import resolve_policy
@@ -207,6 +208,7 @@ class _Analysis:
         self.policy = resolve_policy(study.risk_policy)
         self.mode_share = mode_occupancy(plan.modes) if plan.modes else {}
         self.initial = plan.modes.initial if plan.modes else None
+        self.mode_findings = verify_mode_map(study, plan, self.assumptions) if plan.modes else []
 
     def involved(self, task_id: str, mode: str | None) -> Involvement:
         task = self.study.task(task_id)
@@ -247,6 +249,7 @@ class _Analysis:
         tasks = self.task_figures(leaves, normal, holders, counted, chains)
         people = self.people_figures(tasks, mixes)
         mode_cues = self.mode_cues(leaves, normal)
+        in_question = error_state_tasks(self.mode_findings)
         for task_id, figures in tasks.items():
             figures.awareness = awareness(
                 study,
@@ -255,6 +258,7 @@ class _Analysis:
                 figures.per_day,
                 mode_cues.get(task_id),
                 self.assumptions,
+                in_error_state=task_id in in_question,
             )
         link_weights = self.link_weights(counted)
         handovers = self.handovers(tasks, people, holders, link_weights)
@@ -548,6 +552,7 @@ class _Analysis:
                     found += accountability_findings(study, involved, mode.id)
                     found += capability_findings(study, involved, mode.id)
         found += _window_findings(study, chains)
+        found += self.mode_findings
         found.sort(key=lambda f: (-f.severity, f.kind, f.tasks))
         return found
 

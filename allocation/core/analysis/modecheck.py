@@ -1,0 +1,612 @@
+"""Formal verification of a plan's mode map against what the person can observe (DESIGN §3.8).
+
+The **machine** is the mode map: its modes and transitions. The **person's model** is
+what they can observe of it: their own actions (they know what each does, so after one
+they believe the mode it leads to from the mode they believed) and the cues of the other
+transitions. An ``alert`` or ``alert_confirm`` is always noticed, a change with cue
+``none`` never is, and one shown only on the ``display`` or ``on_request`` may or may
+not be noticed, so the search branches both ways (tool assumption, after Sarter & Woods
+1995: unannounced and passively shown changes are the ones people miss). The person's
+belief is a mode.
+
+The two are composed as in Degani & Heymann (2002): a state is ``(actual, believed)``,
+starting at ``(initial, initial)``. From ``(a, b)``, for each transition ``t`` of the
+machine from ``a``:
+
+- an action of the person (``by == "human"``) is taken only if their model offers it in
+  ``b`` (a transition from ``b`` with the same trigger, also by the person); it leads to
+  ``(t.target, p)`` for each mode ``p`` it leads to from ``b``;
+- any other transition leads to ``(t.target, t.target)`` when noticed and to
+  ``(t.target, b)`` when missed.
+
+The composition has at most ``modes x modes`` states and is searched breadth-first, so
+every witness is a shortest sequence of events. The findings (kinds as named here):
+
+- ``uncued_change``: a transition the person does not make, with no cue, that changes
+  who holds some task (an indirect mode change; Leveson et al. 1997);
+- ``ambiguous_indication``: two modes that show the same indication but differ in who
+  holds some task, or in where the same action of the person leads (interface
+  interpretation errors and inconsistent behaviour; Leveson et al. 1997);
+- ``error_state``: a reachable state where the believed and the actual mode disagree on
+  who principally holds some task (Degani & Heymann 2002), with the shortest sequence of
+  events that gets there, "how did we get into this mode?" (Sarter & Woods 1995);
+- ``unforeseen_transition``: a transition the machine can take from a reachable mode that
+  the person cannot notice (cue ``none``), so their model does not follow it;
+- ``refused_action``: an action the person's model offers in the believed mode that the
+  machine does not accept in the actual mode;
+- ``unreachable_mode``: a mode no sequence of transitions reaches from the initial one;
+- ``no_way_back``: a reachable mode from which no mode is reachable where a person
+  principally holds every applicable task of severity 4 or 5 (operator authority limits;
+  Leveson et al. 1997).
+
+A witness that needs some display (or on-request) change to go unnoticed says so. When a
+state can be reached both with and without such a miss, the witness is the shortest
+sequence that needs no miss (the finding then does not depend on one); otherwise it is
+the shortest sequence overall (tool assumption).
+
+References
+----------
+.. [1] Sarter, N. B., & Woods, D. D. (1995). How in the world did we ever get into that
+   mode? Mode error and awareness in supervisory control. Human Factors, 37(1), 5-19.
+.. [2] Leveson, N. G., Pinnel, L. D., Sandys, S. D., Koga, S., & Reese, J. D. (1997).
+   Analyzing software specifications for mode confusion potential. Proc. Workshop on
+   Human Error and System Development, Glasgow, 132-146.
+.. [3] Degani, A., & Heymann, M. (2002). Formal verification of human-automation
+   interaction. Human Factors, 44(1), 28-43.
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from dataclasses import dataclass
+from typing import Any
+
+from ..model import ModeMap, Plan, Study, Transition
+from .findings import Finding
+from .involvement import involvement
+from .modes import assignment_in_mode
+
+__all__ = [
+    "Exploration",
+    "Step",
+    "error_state_tasks",
+    "explore",
+    "verify_mode_map",
+]
+
+#: Cues the person always notices, and cues they may miss (branch both ways).
+NOTICED = frozenset({"alert", "alert_confirm"})
+MISSABLE = frozenset({"display", "on_request"})
+
+_MISSED_WORDS = {
+    "display": "shown only on the display, which may go unnoticed",
+    "on_request": "shown only when the person asks for it, which may go unnoticed",
+    "none": "not shown at all",
+}
+
+State = tuple[str, str]
+
+
+@dataclass(frozen=True)
+class Step:
+    """One event on a path through the composition: the transition and whether the
+    person missed it (always ``False`` for their own actions and for alerts)."""
+
+    transition: Transition
+    missed: bool
+
+    @property
+    def missed_display(self) -> bool:
+        """Missed although it was shown: the branch that may or may not happen."""
+        return self.missed and self.transition.cue in MISSABLE
+
+
+@dataclass(frozen=True)
+class Exploration:
+    """The reachable part of the composition of machine and person's model.
+
+    ``parents`` holds, for every reachable state, the state and step it was first
+    reached from (``None`` for the initial state) in a breadth-first search of the whole
+    composition; ``sure_parents`` the same for the search that never lets a display or
+    on-request change go unnoticed. ``machine_parents`` is the breadth-first tree of
+    the machine alone (every transition taken, whatever the person believes).
+    """
+
+    initial: State
+    parents: dict[State, tuple[State, Step] | None]
+    sure_parents: dict[State, tuple[State, Step] | None]
+    machine_parents: dict[str, tuple[str, Transition] | None]
+
+    @property
+    def states(self) -> list[State]:
+        """The reachable states in breadth-first order."""
+        return list(self.parents)
+
+    def path(self, state: State) -> tuple[tuple[Step, ...], bool]:
+        """The witness of a reachable state and whether it depends on a missed display.
+
+        The shortest path that needs no display change to go unnoticed, if there is one;
+        else the shortest path overall.
+        """
+        sure = state in self.sure_parents
+        tree = self.sure_parents if sure else self.parents
+        steps: list[Step] = []
+        while tree[state] is not None:
+            state, step = tree[state]
+            steps.append(step)
+        return tuple(reversed(steps)), not sure
+
+    def machine_path(self, mode: str) -> tuple[Transition, ...]:
+        """The shortest sequence of transitions from the initial mode to ``mode``."""
+        steps: list[Transition] = []
+        while self.machine_parents[mode] is not None:
+            mode, transition = self.machine_parents[mode]
+            steps.append(transition)
+        return tuple(reversed(steps))
+
+
+def _outgoing(modes: ModeMap) -> dict[str, list[Transition]]:
+    """Transitions from each mode in file order, leaving out ones naming unknown modes."""
+    out: dict[str, list[Transition]] = {mode.id: [] for mode in modes.states}
+    for transition in modes.transitions:
+        if transition.source in out and transition.target in out:
+            out[transition.source].append(transition)
+    return out
+
+
+def _actions(out: dict[str, list[Transition]]) -> dict[str, dict[str, list[str]]]:
+    """Per mode, each action of the person and the modes it leads to (file order)."""
+    actions: dict[str, dict[str, list[str]]] = {}
+    for mode_id, transitions in out.items():
+        table: dict[str, list[str]] = {}
+        for transition in transitions:
+            if transition.by == "human":
+                targets = table.setdefault(transition.trigger, [])
+                if transition.target not in targets:
+                    targets.append(transition.target)
+        actions[mode_id] = table
+    return actions
+
+
+def _successors(
+    state: State,
+    out: dict[str, list[Transition]],
+    actions: dict[str, dict[str, list[str]]],
+    allow_missed_display: bool,
+):
+    """The steps out of a composed state and the states they lead to."""
+    actual, believed = state
+    for transition in out[actual]:
+        if transition.by == "human":
+            for predicted in actions[believed].get(transition.trigger, ()):
+                yield Step(transition, False), (transition.target, predicted)
+        elif transition.cue in NOTICED:
+            yield Step(transition, False), (transition.target, transition.target)
+        elif transition.cue in MISSABLE:
+            yield Step(transition, False), (transition.target, transition.target)
+            if allow_missed_display:
+                yield Step(transition, True), (transition.target, believed)
+        else:
+            yield Step(transition, True), (transition.target, believed)
+
+
+def _search(initial: State, out, actions, allow_missed_display: bool):
+    parents: dict[State, tuple[State, Step] | None] = {initial: None}
+    queue = deque([initial])
+    while queue:
+        state = queue.popleft()
+        for step, following in _successors(state, out, actions, allow_missed_display):
+            if following not in parents:
+                parents[following] = (state, step)
+                queue.append(following)
+    return parents
+
+
+def explore(modes: ModeMap) -> Exploration:
+    """Search the composition of a mode map with the person's model breadth-first.
+
+    Parameters
+    ----------
+    modes : ModeMap
+        The machine; its initial mode must be one of its modes.
+
+    Returns
+    -------
+    Exploration
+    """
+    out = _outgoing(modes)
+    actions = _actions(out)
+    initial = (modes.initial, modes.initial)
+    machine: dict[str, tuple[str, Transition] | None] = {modes.initial: None}
+    queue = deque([modes.initial])
+    while queue:
+        mode = queue.popleft()
+        for transition in out[mode]:
+            if transition.target not in machine:
+                machine[transition.target] = (mode, transition)
+                queue.append(transition.target)
+    return Exploration(
+        initial,
+        _search(initial, out, actions, True),
+        _search(initial, out, actions, False),
+        machine,
+    )
+
+
+def error_state_tasks(findings: list[Finding]) -> frozenset[str]:
+    """The tasks whose holder is in question in some error state."""
+    return frozenset(task for f in findings if f.kind == "error_state" for task in f.tasks)
+
+
+class _Checker:
+    """The holders of every mode and the words of the findings for one plan."""
+
+    def __init__(self, study: Study, plan: Plan, assumptions: dict[str, Any]):
+        self.study = study
+        self.plan = plan
+        self.modes: ModeMap = plan.modes
+        self.leaves = [task.id for task in study.leaves]
+        leaf_set = set(self.leaves)
+        # Only overridden tasks can differ between modes; the rest hold the plan's holder.
+        self.base = {task_id: self._holder(task_id, None, assumptions) for task_id in self.leaves}
+        self.overridden: dict[str, dict[str, tuple[str | None, bool]]] = {
+            mode.id: {
+                task_id: self._holder(task_id, mode.id, assumptions)
+                for task_id in (mode.overrides or {})
+                if task_id in leaf_set
+            }
+            for mode in self.modes.states
+        }
+        self._differences: dict[tuple[str, str], tuple[str, ...]] = {}
+
+    def _holder(self, task_id: str, mode: str | None, assumptions) -> tuple[str | None, bool]:
+        """The principal holder of a task in a mode, and whether the task applies."""
+        assignment = assignment_in_mode(self.plan, mode, task_id)
+        involved = involvement(self.study, self.study.task(task_id), assignment, assumptions)
+        return involved.principal, involved.applies
+
+    def holder(self, mode: str, task_id: str) -> tuple[str | None, bool]:
+        return self.overridden[mode].get(task_id, self.base[task_id])
+
+    def differences(self, first: str, second: str) -> tuple[str, ...]:
+        """Tasks held differently in two modes, in task-file order."""
+        key = (first, second) if first <= second else (second, first)
+        if key not in self._differences:
+            touched = set(self.overridden[first]) | set(self.overridden[second])
+            self._differences[key] = tuple(
+                task_id
+                for task_id in self.leaves
+                if task_id in touched
+                and self.holder(first, task_id)[0] != self.holder(second, task_id)[0]
+            )
+        return self._differences[key]
+
+    def severity(self, tasks) -> int:
+        return max((self.study.task(task_id).severity or 1 for task_id in tasks), default=1)
+
+    # -- words ------------------------------------------------------------------------
+
+    def mode_name(self, mode_id: str) -> str:
+        return self.modes.by_id[mode_id].name
+
+    def holder_name(self, mode: str, task_id: str) -> str:
+        principal, applies = self.holder(mode, task_id)
+        if not applies or principal is None:
+            return "nobody (it is not done)"
+        agent = self.study.agents_by_id.get(principal)
+        return agent.name if agent else principal
+
+    def task_label(self, task_id: str) -> str:
+        return f"{task_id} ({self.study.task(task_id).title})"
+
+    def holders_text(self, tasks, first: str, second: str) -> str:
+        return "; ".join(
+            f"{self.task_label(task_id)} is held by {self.holder_name(first, task_id)} in "
+            f"{self.mode_name(first)} and by {self.holder_name(second, task_id)} in "
+            f"{self.mode_name(second)}"
+            for task_id in tasks
+        )
+
+    @staticmethod
+    def path_text(steps) -> str:
+        if not steps:
+            return "From the start"
+        parts = []
+        for step in steps:
+            text = f"'{step.transition.trigger}'"
+            if step.missed:
+                text += f" ({_MISSED_WORDS.get(step.transition.cue, 'not noticed')})"
+            parts.append(text)
+        return "After " + ", then ".join(parts)
+
+
+def verify_mode_map(study: Study, plan: Plan, assumptions: dict[str, Any]) -> list[Finding]:
+    """The mode-map findings of one plan (DESIGN §3.8), see the module docstring.
+
+    Parameters
+    ----------
+    study : Study
+        A valid study.
+    plan : Plan
+        One of its plans; a plan without a mode map (or whose initial mode is not one of
+        its modes) has no findings.
+    assumptions : dict
+        The resolved assumptions (for the holders, through :func:`.involvement`).
+
+    Returns
+    -------
+    list of Finding
+        Grouped by kind in the order of the module docstring; within a kind in the order
+        of the file (modes, transitions) and of the breadth-first search.
+    """
+    modes = plan.modes
+    if modes is None or modes.initial not in modes.by_id:
+        return []
+    check = _Checker(study, plan, assumptions)
+    found = explore(modes)
+    out = _outgoing(modes)
+    actions = _actions(out)
+    findings: list[Finding] = []
+    findings += _uncued_changes(check, modes)
+    findings += _ambiguous_indications(check, modes, actions)
+    findings += _error_states(check, found)
+    findings += _unforeseen_transitions(check, modes, found)
+    findings += _refused_actions(check, found, actions)
+    findings += _unreachable_modes(check, modes, found)
+    findings += _no_way_back(check, modes, found, out)
+    return findings
+
+
+def _uncued_changes(check: _Checker, modes: ModeMap) -> list[Finding]:
+    findings = []
+    for t in modes.transitions:
+        if t.by == "human" or t.cue != "none" or t.source not in modes.by_id:
+            continue
+        if t.target not in modes.by_id:
+            continue
+        tasks = check.differences(t.source, t.target)
+        if not tasks:
+            continue
+        findings.append(
+            Finding(
+                "uncued_change",
+                check.severity(tasks),
+                f"'{t.trigger}' changes the mode from {check.mode_name(t.source)} to "
+                f"{check.mode_name(t.target)} without any cue, and it changes who holds "
+                f"work: {check.holders_text(tasks, t.source, t.target)}.",
+                tasks,
+                (t.source, t.target),
+                (t.trigger,),
+            )
+        )
+    return findings
+
+
+def _ambiguous_indications(check: _Checker, modes: ModeMap, actions) -> list[Finding]:
+    findings = []
+    states = modes.states
+    for i, first in enumerate(states):
+        shown = (first.indication or "").strip()
+        if not shown:
+            continue
+        for second in states[i + 1 :]:
+            if (second.indication or "").strip().casefold() != shown.casefold():
+                continue
+            tasks = check.differences(first.id, second.id)
+            triggers = [
+                trigger
+                for trigger in dict.fromkeys([*actions[first.id], *actions[second.id]])
+                if actions[first.id].get(trigger, []) != actions[second.id].get(trigger, [])
+            ]
+            if not tasks and not triggers:
+                continue
+            reasons = []
+            if tasks:
+                reasons.append(check.holders_text(tasks, first.id, second.id))
+            for trigger in triggers:
+                reasons.append(
+                    f"'{trigger}' leads to "
+                    f"{_targets_text(check, actions[first.id].get(trigger, []))} from "
+                    f"{first.name} but to "
+                    f"{_targets_text(check, actions[second.id].get(trigger, []))} from "
+                    f"{second.name}"
+                )
+            findings.append(
+                Finding(
+                    "ambiguous_indication",
+                    check.severity(tasks),
+                    f"{first.name} and {second.name} both show '{shown}', so the person "
+                    f"cannot tell them apart, yet they differ: {'; '.join(reasons)}.",
+                    tasks,
+                    (first.id, second.id),
+                    tuple(triggers),
+                )
+            )
+    return findings
+
+
+def _targets_text(check: _Checker, targets: list[str]) -> str:
+    if not targets:
+        return "nothing (the action is not accepted)"
+    return " or ".join(check.mode_name(target) for target in targets)
+
+
+def _dependence(depends: bool) -> str:
+    return (
+        " This depends on a change shown only passively going unnoticed."
+        if depends
+        else " No unnoticed display change is needed for this."
+    )
+
+
+def _error_states(check: _Checker, found: Exploration) -> list[Finding]:
+    findings = []
+    for state in found.states:
+        actual, believed = state
+        if actual == believed:
+            continue
+        tasks = check.differences(actual, believed)
+        if not tasks:
+            continue
+        steps, depends = found.path(state)
+        findings.append(
+            Finding(
+                "error_state",
+                check.severity(tasks),
+                f"{check.path_text(steps)}, the person can believe the device is in "
+                f"{check.mode_name(believed)} while it is in {check.mode_name(actual)}: "
+                f"{check.holders_text(tasks, actual, believed)}.{_dependence(depends)}",
+                tasks,
+                (actual, believed),
+                tuple(step.transition.trigger for step in steps),
+            )
+        )
+    return findings
+
+
+def _unforeseen_transitions(check: _Checker, modes: ModeMap, found: Exploration) -> list[Finding]:
+    findings = []
+    for t in modes.transitions:
+        if t.by == "human" or t.cue != "none" or t.source not in found.machine_parents:
+            continue
+        if t.target not in modes.by_id or t.source == t.target:
+            continue
+        before = found.machine_path(t.source)
+        tasks = check.differences(t.source, t.target)
+        effect = (
+            f"; it changes who holds work: {check.holders_text(tasks, t.source, t.target)}"
+            if tasks
+            else "; no task changes hands, but the person's picture of the mode is now wrong"
+        )
+        reach = (
+            "After " + ", then ".join(f"'{step.trigger}'" for step in before)
+            if before
+            else "From the start"
+        )
+        findings.append(
+            Finding(
+                "unforeseen_transition",
+                check.severity(tasks),
+                f"{reach}, the device is in {check.mode_name(t.source)} and can move to "
+                f"{check.mode_name(t.target)} on '{t.trigger}' with no cue, so the "
+                f"person's picture does not follow it{effect}.",
+                tasks,
+                (t.source, t.target),
+                (*(step.trigger for step in before), t.trigger),
+            )
+        )
+    return findings
+
+
+def _refused_actions(check: _Checker, found: Exploration, actions) -> list[Finding]:
+    findings = []
+    for state in found.states:
+        actual, believed = state
+        for trigger in actions[believed]:
+            if trigger in actions[actual]:
+                continue
+            steps, depends = found.path(state)
+            tasks = check.differences(actual, believed)
+            findings.append(
+                Finding(
+                    "refused_action",
+                    check.severity(tasks),
+                    f"{check.path_text(steps)}, the person can believe the device is in "
+                    f"{check.mode_name(believed)} and try '{trigger}', which the device, "
+                    f"in {check.mode_name(actual)}, does not accept.{_dependence(depends)}",
+                    tasks,
+                    (actual, believed),
+                    (*(step.transition.trigger for step in steps), trigger),
+                )
+            )
+    return findings
+
+
+def _unreachable_modes(check: _Checker, modes: ModeMap, found: Exploration) -> list[Finding]:
+    return [
+        Finding(
+            "unreachable_mode",
+            1,
+            f"{mode.name} cannot be reached from {check.mode_name(modes.initial)} by any "
+            "sequence of transitions: either a transition into it is missing or the mode "
+            "is not needed.",
+            (),
+            (mode.id,),
+        )
+        for mode in modes.states
+        if mode.id not in found.machine_parents
+    ]
+
+
+def _no_way_back(check: _Checker, modes: ModeMap, found: Exploration, out) -> list[Finding]:
+    critical = [
+        task_id for task_id in check.leaves if (check.study.task(task_id).severity or 0) >= 4
+    ]
+    if not critical:
+        return []
+
+    def person_lacks(mode_id: str) -> list[str]:
+        """Applicable critical tasks that no person principally holds in the mode."""
+        lacking = []
+        for task_id in critical:
+            principal, applies = check.holder(mode_id, task_id)
+            if not applies:
+                continue
+            agent = check.study.agents_by_id.get(principal or "")
+            if agent is None or not agent.is_human:
+                lacking.append(task_id)
+        return lacking
+
+    lacks = {mode.id: person_lacks(mode.id) for mode in modes.states}
+    good = [mode_id for mode_id, tasks in lacks.items() if not tasks]
+    reachable = [mode.id for mode in modes.states if mode.id in found.machine_parents]
+    if not good:
+        tasks = tuple(dict.fromkeys(t for m in reachable for t in lacks[m]))
+        return [
+            Finding(
+                "no_way_back",
+                check.severity(tasks),
+                "In no mode does a person hold every safety-critical task (severity 4 or "
+                f"5): {', '.join(check.task_label(t) for t in tasks)}; the person can never "
+                "take these over.",
+                tasks,
+                tuple(reachable),
+            )
+        ]
+    # Modes that can reach a good mode: search backwards from the good ones.
+    into: dict[str, list[str]] = {mode.id: [] for mode in modes.states}
+    for source, transitions in out.items():
+        for t in transitions:
+            into[t.target].append(source)
+    back = set(good)
+    queue = deque(good)
+    while queue:
+        mode_id = queue.popleft()
+        for source in into[mode_id]:
+            if source not in back:
+                back.add(source)
+                queue.append(source)
+    findings = []
+    for mode_id in reachable:
+        if mode_id in back:
+            continue
+        before = found.machine_path(mode_id)
+        tasks = tuple(lacks[mode_id])
+        reach = (
+            "After " + ", then ".join(f"'{t.trigger}'" for t in before)
+            if before
+            else "From the start"
+        )
+        findings.append(
+            Finding(
+                "no_way_back",
+                check.severity(tasks),
+                f"{reach}, the device is in {check.mode_name(mode_id)}, and from there no "
+                "mode can be reached in which a person holds every safety-critical task; "
+                f"here no person holds {', '.join(check.task_label(t) for t in tasks)}.",
+                tasks,
+                (mode_id,),
+                tuple(t.trigger for t in before),
+            )
+        )
+    return findings

@@ -1,0 +1,333 @@
+"""Mode-map verification (allocation.core.analysis.modecheck, DESIGN §3.8).
+
+The expected findings and witnesses are worked by hand from the composition rules of
+Degani & Heymann (2002) as the module states them: a state is (actual, believed); the
+person's own actions move the belief to the target predicted from the believed mode;
+alerts are always noticed, changes with no cue never, display changes either way. The
+reachable composed states are also checked against a brute-force enumeration of event
+sequences written here independently of the breadth-first search.
+"""
+
+from __future__ import annotations
+
+import json
+import random
+
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from allocation.core import read_study
+from allocation.core.analysis import analyse_plan
+from allocation.core.analysis.modecheck import explore, verify_mode_map
+from allocation.core.assumptions import resolve_assumptions
+from allocation.core.model import Agent, Assignment, Mode, ModeMap, Plan, Study, Task, Transition
+from allocation.examples import EXAMPLES_DIR
+
+ASSUMPTIONS = resolve_assumptions({}, "sv10")
+PAT = Agent("pat", "Pat", "human")
+PUMP = Agent("pump", "Pump", "automation")
+TASKS = (
+    Task("T1", "Dose insulin", duration_s=None, severity=5),
+    Task("T2", "Log the dose", severity=2),
+)
+BY_PERSON = {"T1": Assignment(human="pat")}
+
+
+def mode(mode_id: str, name: str, indication: str | None, overrides=None) -> Mode:
+    return Mode(mode_id, name, indication, overrides)
+
+
+def study_with(modes: ModeMap, tasks=TASKS) -> tuple[Study, Plan]:
+    """T1 held by the pump and T2 by Pat, unless a mode overrides them."""
+    plan = Plan(
+        "p",
+        "Plan",
+        {"T1": Assignment(automation="pump"), "T2": Assignment(human="pat")},
+        modes,
+    )
+    return Study("s", "Study", "sv10", agents=(PAT, PUMP), tasks=tasks, plans=(plan,)), plan
+
+
+AUTO = mode("A", "Automatic", "green")
+MANUAL = mode("M", "Manual", "grey", BY_PERSON)
+STANDBY = mode("S", "Standby", "green")
+
+
+def base(cue: str = "display", extra_modes=(), extra_transitions=()) -> ModeMap:
+    """Automatic -> Manual by the machine ('signal lost', with ``cue``); back, and to and
+    from Standby, by the person."""
+    return ModeMap(
+        "A",
+        (AUTO, MANUAL, STANDBY, *extra_modes),
+        (
+            Transition("A", "M", "signal lost", "automation", cue),
+            Transition("M", "A", "restart", "human", "display"),
+            Transition("A", "S", "pause", "human", "display"),
+            Transition("S", "A", "resume", "human", "display"),
+            *extra_transitions,
+        ),
+    )
+
+
+def check(modes: ModeMap):
+    study, plan = study_with(modes)
+    return verify_mode_map(study, plan, ASSUMPTIONS)
+
+
+def keys(findings):
+    return [(f.kind, f.modes, f.tasks, f.events, f.severity) for f in findings]
+
+
+def test_missed_display_gives_error_state_and_refused_action():
+    # By hand: (A,A) -signal lost-> (M,M) noticed or (M,A) missed; (A,A) -pause-> (S,S);
+    # (M,M) -restart-> (A,A); (S,S) -resume-> (A,A). In (M,A) Pat believes Automatic
+    # (pump holds T1) while Manual has Pat hold T1: an error state; the restart action
+    # is not in Pat's model of Automatic, and 'pause' is refused by Manual.
+    findings = check(base())
+    assert keys(findings) == [
+        ("ambiguous_indication", ("A", "S"), (), ("pause", "resume"), 1),
+        ("error_state", ("M", "A"), ("T1",), ("signal lost",), 5),
+        ("refused_action", ("M", "A"), ("T1",), ("signal lost", "pause"), 5),
+    ]
+    error = findings[1]
+    assert error.message == (
+        "After 'signal lost' (shown only on the display, which may go unnoticed), the "
+        "person can believe the device is in Automatic while it is in Manual: T1 (Dose "
+        "insulin) is held by Pat in Manual and by Pump in Automatic. This depends on a "
+        "change shown only passively going unnoticed."
+    )
+    assert set(explore(base()).states) == {("A", "A"), ("M", "M"), ("M", "A"), ("S", "S")}
+
+
+def test_alert_removes_the_branch_and_its_findings():
+    # With an alert Pat always notices: (M,A) is never reached.
+    assert keys(check(base("alert"))) == [
+        ("ambiguous_indication", ("A", "S"), (), ("pause", "resume"), 1),
+    ]
+    assert set(explore(base("alert")).states) == {("A", "A"), ("M", "M"), ("S", "S")}
+
+
+def test_uncued_change_unforeseen_transition_and_certain_error_state():
+    findings = check(base("none"))
+    assert keys(findings) == [
+        ("uncued_change", ("A", "M"), ("T1",), ("signal lost",), 5),
+        ("ambiguous_indication", ("A", "S"), (), ("pause", "resume"), 1),
+        ("error_state", ("M", "A"), ("T1",), ("signal lost",), 5),
+        ("unforeseen_transition", ("A", "M"), ("T1",), ("signal lost",), 5),
+        ("refused_action", ("M", "A"), ("T1",), ("signal lost", "pause"), 5),
+    ]
+    assert findings[2].message.startswith("After 'signal lost' (not shown at all), ")
+    assert findings[2].message.endswith("No unnoticed display change is needed for this.")
+
+
+def test_uncued_change_needs_a_change_of_holder():
+    # Standby -> Automatic with no cue: the holders are the same, so no uncued change;
+    # the transition is still unforeseen, with the path to Standby as witness.
+    extra = (Transition("S", "A", "timeout", "schedule", "none"),)
+    findings = check(base("alert", extra_transitions=extra))
+    # By hand: (S,S) -timeout-> (A,S), the same holders (no error state), but Pat may
+    # try 'resume', which Automatic does not accept.
+    assert keys(findings)[1:] == [
+        ("unforeseen_transition", ("S", "A"), (), ("pause", "timeout"), 1),
+        ("refused_action", ("A", "S"), (), ("pause", "timeout", "resume"), 1),
+    ]
+    assert findings[0].kind == "ambiguous_indication"
+
+
+def test_witness_is_the_shortest_event_sequence():
+    # A longer way into (M, S): pause, then from Standby the machine drops to Manual on a
+    # display change; the belief stays Standby. Shortest witness: pause, drop.
+    extra = (Transition("S", "M", "drop", "automation", "display"),)
+    findings = check(base("alert", extra_transitions=extra))
+    errors = [f for f in findings if f.kind == "error_state"]
+    assert [(f.modes, f.events) for f in errors] == [(("M", "S"), ("pause", "drop"))]
+
+
+def test_ambiguous_indication_by_holders_and_absent_when_indications_differ():
+    standby = mode("S", "Standby", "green", BY_PERSON)
+    modes = ModeMap("A", (AUTO, MANUAL, standby), base().transitions)
+    ambiguous = [f for f in check(modes) if f.kind == "ambiguous_indication"]
+    assert keys(ambiguous) == [
+        ("ambiguous_indication", ("A", "S"), ("T1",), ("pause", "resume"), 5)
+    ]
+    distinct = ModeMap("A", (AUTO, MANUAL, mode("S", "Standby", "amber")), base().transitions)
+    assert not [f for f in check(distinct) if f.kind == "ambiguous_indication"]
+    blank = ModeMap(
+        "A", (mode("A", "Automatic", ""), MANUAL, mode("S", "Standby", "")), base().transitions
+    )
+    assert not [f for f in check(blank) if f.kind == "ambiguous_indication"]
+
+
+def test_unreachable_mode_and_removing_it_removes_only_its_findings():
+    spare = mode("X", "Spare", "green", BY_PERSON)
+    extra = (Transition("X", "A", "leave spare", "automation", "none"),)
+    with_spare = check(base(extra_modes=(spare,), extra_transitions=extra))
+    assert [f for f in with_spare if f.kind == "unreachable_mode"] == [
+        f for f in with_spare if f.modes == ("X",)
+    ]
+    assert ("unreachable_mode", ("X",), (), (), 1) in keys(with_spare)
+    without = check(base())
+    assert without == [f for f in with_spare if "X" not in f.modes]
+    assert len(with_spare) > len(without) + 1  # its uncued change and ambiguity went too
+
+
+def test_no_way_back_from_a_locked_mode():
+    locked = mode("L", "Locked", "red")
+    extra = (Transition("A", "L", "fault", "automation", "alert"),)
+    findings = check(base("alert", extra_modes=(locked,), extra_transitions=extra))
+    assert [k for k in keys(findings) if k[0] == "no_way_back"] == [
+        ("no_way_back", ("L",), ("T1",), ("fault",), 5)
+    ]
+    # With a way from Locked to Manual (where Pat holds T1) there is no finding.
+    out = (*extra, Transition("L", "M", "unlock", "human", "display"))
+    findings = check(base("alert", extra_modes=(locked,), extra_transitions=out))
+    assert not [f for f in findings if f.kind == "no_way_back"]
+
+
+def test_no_way_back_when_no_mode_gives_the_person_the_critical_tasks():
+    modes = ModeMap("A", (AUTO, STANDBY), base().transitions[2:])
+    findings = [f for f in check(modes) if f.kind == "no_way_back"]
+    assert keys(findings) == [("no_way_back", ("A", "S"), ("T1",), (), 5)]
+    # No task of severity 4-5: nothing to hold.
+    study, plan = study_with(modes, tasks=(TASKS[1],))
+    assert not [f for f in verify_mode_map(study, plan, ASSUMPTIONS) if f.kind == "no_way_back"]
+
+
+def test_plan_without_modes_has_none():
+    study, plan = study_with(None)
+    assert verify_mode_map(study, plan, ASSUMPTIONS) == []
+
+
+def test_home_heating_auto_in_the_plan_analysis():
+    # The 'hold' mode hands the set points to the resident and shows the same clock
+    # symbol as 'schedule'; 'next period' returns to the schedule with no cue.
+    study = read_study(json.loads((EXAMPLES_DIR / "home-heating.json").read_text("utf-8")))
+    analysis = analyse_plan(study, "auto")
+    mode_kinds = [
+        (f.kind, f.modes, f.events)
+        for f in analysis.findings
+        if f.kind
+        in {"uncued_change", "ambiguous_indication", "error_state", "unforeseen_transition"}
+    ]
+    assert ("error_state", ("schedule", "hold"), ("dial turned", "next period")) in mode_kinds
+    assert ("uncued_change", ("hold", "schedule"), ("next period",)) in mode_kinds
+    # Tasks in question in the error state get the highest mode-change factor.
+    awareness = analysis.tasks["T2"].awareness
+    assert awareness is not None and awareness.factors["mode_change"] == 1.0
+
+
+# -- random machines: brute force, property, size ----------------------------------------
+
+CUE_CHOICES = ("none", "on_request", "display", "alert", "alert_confirm")
+
+
+def random_machine(rng: random.Random, size: int, transitions: int) -> ModeMap:
+    ids = [f"m{i}" for i in range(size)]
+    states = tuple(
+        mode(
+            mode_id,
+            f"Mode {mode_id}",
+            rng.choice(["a", "b", "c"]),
+            BY_PERSON if rng.random() < 0.4 else None,
+        )
+        for mode_id in ids
+    )
+    edges = tuple(
+        Transition(
+            rng.choice(ids),
+            rng.choice(ids),
+            f"e{rng.randrange(4)}",
+            rng.choice(["human", "automation", "event"]),
+            rng.choice(CUE_CHOICES),
+        )
+        for _ in range(transitions)
+    )
+    return ModeMap("m0", states, edges)
+
+
+def brute_force(modes: ModeMap, depth: int) -> dict[tuple[str, str], int]:
+    """Every (actual, believed) reached by some event sequence of at most ``depth``
+    events, with the fewest events needed, by enumerating the sequences one by one."""
+    found: dict[tuple[str, str], int] = {}
+
+    def walk(actual, believed, length):
+        found[(actual, believed)] = min(found.get((actual, believed), length), length)
+        if length == depth:
+            return
+        for t in modes.transitions:
+            if t.source != actual:
+                continue
+            if t.by == "human":
+                for u in modes.transitions:
+                    if u.source == believed and u.by == "human" and u.trigger == t.trigger:
+                        walk(t.target, u.target, length + 1)
+            else:
+                if t.cue != "none":
+                    walk(t.target, t.target, length + 1)
+                if t.cue in ("none", "display", "on_request"):
+                    walk(t.target, believed, length + 1)
+
+    walk(modes.initial, modes.initial, 0)
+    return found
+
+
+def depths(modes: ModeMap) -> dict[tuple[str, str], int]:
+    parents = explore(modes).parents
+    result = {}
+    for state in parents:
+        length, at = 0, state
+        while parents[at] is not None:
+            at = parents[at][0]
+            length += 1
+        result[state] = length
+    return result
+
+
+def test_reachable_states_match_brute_force_on_small_random_machines():
+    for seed in (3, 11):
+        rng = random.Random(seed)
+        modes = random_machine(rng, 3, 7)
+        expected = brute_force(modes, 6)
+        searched = {s: d for s, d in depths(modes).items() if d <= 6}
+        assert searched == expected
+        assert len(expected) > 3  # the machines are not trivial
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(0, 10_000), st.integers(2, 4), st.integers(1, 8), st.data())
+def test_turning_a_display_cue_into_an_alert_never_adds_a_finding(seed, size, count, data):
+    modes = random_machine(random.Random(seed), size, count)
+    passive = [i for i, t in enumerate(modes.transitions) if t.cue in ("display", "on_request")]
+    if not passive:
+        return
+    index = data.draw(st.sampled_from(passive))
+    changed = list(modes.transitions)
+    old = changed[index]
+    changed[index] = Transition(old.source, old.target, old.trigger, old.by, "alert")
+    before = {(f.kind, f.modes, f.tasks) for f in check(modes)}
+    alerted = ModeMap("m0", modes.states, tuple(changed))
+    after = {(f.kind, f.modes, f.tasks) for f in check(alerted)}
+    assert after <= before
+
+
+def test_a_cue_on_an_uncued_change_can_reveal_an_error_state():
+    # Not monotone for cue 'none': once Pat notices the change to M, they can act there
+    # ('go' from M to N), and N's silent drop to Automatic is a new error state.
+    # By hand, without the cue: (A,A) -lost-> (M,A); 'go' is not in Pat's model of A.
+    states = (AUTO, MANUAL, mode("N", "Night", "blue", BY_PERSON))
+    transitions = [
+        Transition("A", "M", "lost", "automation", "none"),
+        Transition("M", "N", "go", "human", "display"),
+        Transition("N", "A", "drop", "automation", "none"),
+    ]
+    silent = {(f.kind, f.modes) for f in check(ModeMap("A", states, tuple(transitions)))}
+    transitions[0] = Transition("A", "M", "lost", "automation", "alert")
+    alerted = {(f.kind, f.modes) for f in check(ModeMap("A", states, tuple(transitions)))}
+    assert ("error_state", ("A", "N")) in alerted - silent
+
+
+def test_fifty_modes_and_two_hundred_transitions():
+    modes = random_machine(random.Random(7), 50, 200)
+    findings = check(modes)
+    assert len(explore(modes).states) <= 50 * 50
+    assert findings == check(modes)  # deterministic
