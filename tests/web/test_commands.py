@@ -168,4 +168,5 @@ def test_bench_prints_the_ratios_against_the_targets(db):
     assert "analysis / floor at 1,000 tasks" in output
     assert "2,000 / 1,000 tasks" in output
     assert "save one row (check, write, re-analyse, answer)" in output
+    assert "mode-map verification of plan-1" in output
     assert output.count("x trivial (target <= 10") == 3

@@ -18,6 +18,8 @@ from django.core.management.base import BaseCommand
 
 from allocation.core import load_study
 from allocation.core.analysis import analyse_plan, prepare
+from allocation.core.analysis.modecheck import verify_mode_map
+from allocation.core.assumptions import resolve_assumptions
 from allocation.core.graph import task_graph
 from allocation.core.synthetic import synthetic_study
 
@@ -82,6 +84,19 @@ class Command(BaseCommand):
             def analysis(study=study, graph=graph, plan=plan):
                 analyse_plan(study, plan, graph=graph)
 
+            if size == 1000:
+                modes = study.plan(plan).modes
+                verify_s = _median_seconds(
+                    lambda study=study, plan=plan: verify_mode_map(
+                        study, study.plan(plan), resolve_assumptions(study.assumptions)
+                    ),
+                    repeats,
+                    True,
+                )
+                self.stdout.write(
+                    f"mode-map verification of {plan} ({len(modes.states)} modes, "
+                    f"{len(modes.transitions)} transitions): {verify_s * 1000:.1f} ms"
+                )
             rows[size] = {
                 collect: (
                     _median_seconds(floor, repeats, collect),
