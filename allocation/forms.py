@@ -251,15 +251,20 @@ class ItemForm(forms.Form):
             item[key] = value
 
 
-def _range_fields(prefix: str, label: str) -> dict[str, forms.Field]:
-    return {
-        f"{prefix}_{part}": forms.FloatField(
+def _range_fields(label: str) -> tuple[forms.Field, forms.Field, forms.Field]:
+    """Three number fields for a range's min, typical and max (named ``*_low`` etc.)."""
+    return tuple(
+        forms.FloatField(
             required=False,
             label=f"{label} {part}",
             widget=forms.NumberInput(attrs={"step": "any"}),
         )
         for part in ("low", "typical", "high")
-    }
+    )
+
+
+def _demand_field(channel: str) -> forms.ChoiceField:
+    return forms.ChoiceField(required=False, choices=_anchor_choices(channel), label=channel)
 
 
 class StudyForm(forms.Form):
@@ -281,9 +286,9 @@ class AgentForm(ItemForm):
     asleep_to = forms.CharField(
         required=False, label="asleep to", widget=forms.TimeInput(attrs={"type": "time"})
     )
-    locals().update(_range_fields("awake", "response awake (s)"))
-    locals().update(_range_fields("sleeping", "response asleep (s)"))
-    locals().update(_range_fields("any", "response (s)"))
+    awake_low, awake_typical, awake_high = _range_fields("response awake (s)")
+    sleeping_low, sleeping_typical, sleeping_high = _range_fields("response asleep (s)")
+    any_low, any_typical, any_high = _range_fields("response (s)")
     notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
 
     groups = (
@@ -441,17 +446,17 @@ class TaskForm(ItemForm):
     per_day = forms.FloatField(required=False, label="per day")
     when = forms.ChoiceField(required=False, choices=[(w, w) for w in EVENT_WHEN])
     every_days = forms.FloatField(required=False, label="every (days)")
-    locals().update(_range_fields("duration", "duration (s)"))
+    duration_low, duration_typical, duration_high = _range_fields("duration (s)")
     window_s = forms.FloatField(required=False, label="window (s)")
     severity = forms.ChoiceField(
         required=False,
         choices=[("", "—")]
         + [(str(n), f"{n} {name} — {text}") for n, (name, text) in SEVERITIES.items()],
     )
-    for _channel in CHANNELS:
-        locals()[f"demand_{_channel}"] = forms.ChoiceField(
-            required=False, choices=_anchor_choices(_channel), label=_channel
-        )
+    demand_visual = _demand_field("visual")
+    demand_auditory = _demand_field("auditory")
+    demand_cognitive = _demand_field("cognitive")
+    demand_psychomotor = _demand_field("psychomotor")
     needs = forms.CharField(required=False, help_text="capabilities, comma-separated")
     notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
 

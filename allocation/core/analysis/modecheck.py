@@ -309,15 +309,23 @@ class _Checker:
 
     @staticmethod
     def path_text(steps) -> str:
-        if not steps:
-            return "From the start"
+        """A composed path in words, marking the changes the person may miss."""
         parts = []
         for step in steps:
             text = f"'{step.transition.trigger}'"
             if step.missed:
                 text += f" ({_MISSED_WORDS.get(step.transition.cue, 'not noticed')})"
             parts.append(text)
-        return "After " + ", then ".join(parts)
+        return _after(parts)
+
+    @staticmethod
+    def machine_path_text(transitions) -> str:
+        """A path of the machine alone in words."""
+        return _after([f"'{t.trigger}'" for t in transitions])
+
+
+def _after(parts: list[str]) -> str:
+    return "After " + ", then ".join(parts) if parts else "From the start"
 
 
 def verify_mode_map(study: Study, plan: Plan, assumptions: dict[str, Any]) -> list[Finding]:
@@ -478,11 +486,7 @@ def _unforeseen_transitions(check: _Checker, modes: ModeMap, found: Exploration)
             if tasks
             else "; no task changes hands, but the person's picture of the mode is now wrong"
         )
-        reach = (
-            "After " + ", then ".join(f"'{step.trigger}'" for step in before)
-            if before
-            else "From the start"
-        )
+        reach = check.machine_path_text(before)
         findings.append(
             Finding(
                 "unforeseen_transition",
@@ -592,11 +596,7 @@ def _no_way_back(check: _Checker, modes: ModeMap, found: Exploration, out) -> li
             continue
         before = found.machine_path(mode_id)
         tasks = tuple(lacks[mode_id])
-        reach = (
-            "After " + ", then ".join(f"'{t.trigger}'" for t in before)
-            if before
-            else "From the start"
-        )
+        reach = check.machine_path_text(before)
         findings.append(
             Finding(
                 "no_way_back",
