@@ -1,7 +1,16 @@
 from django.contrib import admin
 from django.urls import include, path
 
-from allocation.views import assumptions, compare, dashboards, graph, inventory, plans, studies
+from allocation.views import (
+    assumptions,
+    compare,
+    dashboards,
+    graph,
+    inventory,
+    modes,
+    plans,
+    studies,
+)
 
 urlpatterns = [
     path("", studies.study_list, name="study-list"),
@@ -32,6 +41,52 @@ urlpatterns = [
         "studies/<int:pk>/plans/<str:plan>/tasks/<str:task>",
         plans.plan_row_save,
         name="plan-row-save",
+    ),
+    path("studies/<int:pk>/plans/<str:plan>/modes", modes.plan_modes, name="plan-modes"),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/modes/delete",
+        modes.mode_map_delete,
+        name="mode-map-delete",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/modes/states/<str:mode>",
+        modes.mode_edit,
+        name="mode-edit",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/modes/states/<str:mode>/delete",
+        modes.mode_delete,
+        name="mode-delete",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/modes/states/<str:mode>/initial",
+        modes.mode_initial,
+        name="mode-initial",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/modes/states/<str:mode>/overrides",
+        modes.mode_override_pick,
+        name="mode-override-pick",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/modes/states/<str:mode>/overrides/<str:task>",
+        modes.mode_override,
+        name="mode-override",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/modes/transitions/<str:transition>",
+        modes.transition_edit,
+        name="transition-edit",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/modes/transitions/<str:transition>/delete",
+        modes.transition_delete,
+        name="transition-delete",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/modes/findings/<int:finding>",
+        modes.mode_finding,
+        name="mode-finding",
     ),
     path("studies/<int:pk>/compare", compare.study_compare, name="study-compare"),
     path(

@@ -8,6 +8,8 @@ from .assumptions import *  # noqa: F403 - listed in assumptions.__all__
 from .assumptions import __all__ as _assumptions
 from .editing import *  # noqa: F403 - every edit, listed in editing.__all__
 from .editing import __all__ as _editing
+from .modemaps import *  # noqa: F403 - every mode-map edit, listed in modemaps.__all__
+from .modemaps import __all__ as _modemaps
 from .studies import (
     LOCAL_USERNAME,
     examples_load,
@@ -19,6 +21,7 @@ from .studies import (
 __all__ = [
     *_assumptions,
     *_editing,
+    *_modemaps,
     "LOCAL_USERNAME",
     "examples_load",
     "local_user_ensure",

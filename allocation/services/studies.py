@@ -116,9 +116,19 @@ def plan_create(
             for index, (task_id, assignment) in enumerate(item["assignments"].items())
         ]
     )
-    modes = item.get("modes")
-    if not modes:
-        return plan_row
+    if item.get("modes"):
+        modes_create(plan_row=plan_row, modes=item["modes"], agents=agents, tasks=tasks)
+    return plan_row
+
+
+def modes_create(
+    *,
+    plan_row: m.Plan,
+    modes: dict[str, Any],
+    agents: dict[str, m.Agent],
+    tasks: dict[str, m.Task],
+) -> None:
+    """Write a plan's mode map (study-file item) as rows: modes, overrides, transitions."""
     states = {}
     for index, mode in enumerate(modes["states"]):
         state = m.ModeState.objects.create(plan=plan_row, position=index, **rows.mode_values(mode))
@@ -142,7 +152,6 @@ def plan_create(
             for index, transition in enumerate(modes["transitions"])
         ]
     )
-    return plan_row
 
 
 def examples_load(*, owner: AbstractBaseUser) -> list[tuple[str, bool]]:

@@ -17,6 +17,7 @@ STUDY_TABS = (
     ("Overview", "study-detail", False),
     ("Inventory", "study-inventory", False),
     ("Plan editor", "plan-editor", True),
+    ("Mode map", "plan-modes", True),
     ("Graph", "study-graph", False),
     ("Dashboards", "plan-dashboard", True),
     ("Compare", "study-compare", False),

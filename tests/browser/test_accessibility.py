@@ -22,6 +22,8 @@ def pages(pk: int, plan: str) -> list[str]:
         f"{base}/plans/{plan}/edit",
         f"{base}/graph",
         f"{base}/plans/{plan}/dashboard",
+        f"{base}/plans/{plan}/modes",
+        f"{base}/plans/{plan}/modes/findings/0?step=1",
         f"{base}/compare",
         f"{base}/assumptions",
         f"{base}/inventory/tasks/T2",

@@ -23,6 +23,8 @@ SAMPLE_ARGUMENTS = {
     "mode": "hold",
     "kind": "tasks",
     "key": "T2",
+    "transition": "0",
+    "finding": 0,
 }
 
 

@@ -27,12 +27,47 @@ from ..model import Study
 from ..vocabulary import STAGES
 from .involvement import Involvement
 
-__all__ = ["Finding", "accountability_findings", "capability_findings"]
+__all__ = ["Finding", "WitnessStep", "accountability_findings", "capability_findings"]
+
+
+@dataclass(frozen=True)
+class WitnessStep:
+    """One event of a mode-map finding's witness, and where it leaves machine and person.
+
+    ``actual`` is the mode the device is in after the event and ``believed`` the mode
+    the person then believes it is in; ``missed`` is true when the person did not notice
+    the change (always false for their own actions and for alerts); ``refused`` marks an
+    action of the person that the device does not accept (nothing changes).
+    """
+
+    event: str
+    by: str
+    cue: str
+    missed: bool
+    actual: str
+    believed: str
+    refused: bool = False
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "event": self.event,
+            "by": self.by,
+            "cue": self.cue,
+            "missed": self.missed,
+            "refused": self.refused,
+            "actual": self.actual,
+            "believed": self.believed,
+        }
 
 
 @dataclass(frozen=True)
 class Finding:
-    """One point to review."""
+    """One point to review.
+
+    ``witness`` is, for mode-map findings, the shortest sequence of events from the
+    initial mode that shows the finding (empty for the other kinds and for findings
+    that no event sequence shows, such as an unreachable mode).
+    """
 
     kind: str
     severity: int
@@ -41,6 +76,7 @@ class Finding:
     modes: tuple[str, ...] = ()
     events: tuple[str, ...] = ()
     agents: tuple[str, ...] = ()
+    witness: tuple[WitnessStep, ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         return {
@@ -50,6 +86,7 @@ class Finding:
             "modes": list(self.modes),
             "events": list(self.events),
             "agents": list(self.agents),
+            "witness": [step.to_json() for step in self.witness],
             "message": self.message,
         }
 

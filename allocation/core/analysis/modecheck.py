@@ -36,8 +36,20 @@ every witness is a shortest sequence of events. The findings (kinds as named her
   machine does not accept in the actual mode;
 - ``unreachable_mode``: a mode no sequence of transitions reaches from the initial one;
 - ``no_way_back``: a reachable mode from which no mode is reachable where a person
-  principally holds every applicable task of severity 4 or 5 (operator authority limits;
-  Leveson et al. 1997).
+  principally holds every safety-critical task that the map ever gives to a person
+  (operator authority limits; Leveson et al. 1997). Safety-critical means applicable and
+  of severity 4 or 5; a critical task the plan leaves to the device in every mode is an
+  allocation decision, seen on the other screens, not a trap of the mode map, so it is
+  left out (tool assumption).
+
+Every finding that an event sequence shows carries it as its ``witness``: each event
+with the mode the device is then in and the mode the person then believes. For
+``error_state`` and ``refused_action`` it is the path of the composed search; for the
+findings about a mode or a transition (``uncued_change``, ``unforeseen_transition``,
+``no_way_back``) it is the shortest way the machine gets there, replayed with the person
+noticing every change that is shown and missing those that are not (their own action
+sets their belief to where it leads, also when their model does not offer it: they see
+what they did; tool assumption).
 
 A witness that needs some display (or on-request) change to go unnoticed says so. When a
 state can be reached both with and without such a miss, the witness is the shortest
@@ -62,17 +74,31 @@ from dataclasses import dataclass
 from typing import Any
 
 from ..model import ModeMap, Plan, Study, Transition
-from .findings import Finding
+from .findings import Finding, WitnessStep
 from .involvement import involvement
 from .modes import assignment_in_mode
 
 __all__ = [
+    "MODE_FINDING_KINDS",
     "Exploration",
+    "Moment",
     "Step",
     "error_state_tasks",
     "explore",
     "verify_mode_map",
+    "walkthrough",
 ]
+
+#: The finding kinds of the mode-map check, in the order they are listed.
+MODE_FINDING_KINDS = (
+    "uncued_change",
+    "ambiguous_indication",
+    "error_state",
+    "unforeseen_transition",
+    "refused_action",
+    "unreachable_mode",
+    "no_way_back",
+)
 
 #: Cues the person always notices, and cues they may miss (branch both ways).
 NOTICED = frozenset({"alert", "alert_confirm"})
@@ -85,6 +111,8 @@ _MISSED_WORDS = {
 }
 
 State = tuple[str, str]
+#: Tasks named with their titles in a message; more are given by id only.
+_NAMED = 4
 
 
 @dataclass(frozen=True)
@@ -128,13 +156,38 @@ class Exploration:
         The shortest path that needs no display change to go unnoticed, if there is one;
         else the shortest path overall.
         """
+        trail, depends = self.trail(state)
+        return tuple(step for step, _ in trail), depends
+
+    def trail(self, state: State) -> tuple[tuple[tuple[Step, State], ...], bool]:
+        """Like :meth:`path`, each step with the composed state it leads to."""
         sure = state in self.sure_parents
         tree = self.sure_parents if sure else self.parents
-        steps: list[Step] = []
+        trail: list[tuple[Step, State]] = []
         while tree[state] is not None:
-            state, step = tree[state]
-            steps.append(step)
-        return tuple(reversed(steps)), not sure
+            before, step = tree[state]
+            trail.append((step, state))
+            state = before
+        return tuple(reversed(trail)), not sure
+
+    def witness(self, state: State, refused: str | None = None) -> tuple[WitnessStep, ...]:
+        """The witness of a reachable state as events with both modes after each; with
+        ``refused``, ending in that action of the person, which the device refuses."""
+        trail, _ = self.trail(state)
+        steps = [
+            WitnessStep(
+                step.transition.trigger,
+                step.transition.by,
+                step.transition.cue,
+                step.missed,
+                actual,
+                believed,
+            )
+            for step, (actual, believed) in trail
+        ]
+        if refused is not None:
+            steps.append(WitnessStep(refused, "human", "", False, *state, refused=True))
+        return tuple(steps)
 
     def machine_path(self, mode: str) -> tuple[Transition, ...]:
         """The shortest sequence of transitions from the initial mode to ``mode``."""
@@ -233,6 +286,22 @@ def explore(modes: ModeMap) -> Exploration:
     )
 
 
+def _replayed(
+    initial: str, transitions, actions: dict[str, dict[str, list[str]]]
+) -> tuple[WitnessStep, ...]:
+    """A sequence of the machine's transitions with the person's belief after each: they
+    notice every change that is shown, miss those with no cue, and believe their own
+    action led where it did (module docstring)."""
+    believed = initial
+    steps = []
+    for t in transitions:
+        missed = t.by != "human" and t.cue not in NOTICED | MISSABLE
+        if not missed:
+            believed = t.target
+        steps.append(WitnessStep(t.trigger, t.by, t.cue, missed, t.target, believed))
+    return tuple(steps)
+
+
 def error_state_tasks(findings: list[Finding]) -> frozenset[str]:
     """The tasks whose holder is in question in some error state."""
     return frozenset(task for f in findings if f.kind == "error_state" for task in f.tasks)
@@ -299,12 +368,25 @@ class _Checker:
     def task_label(self, task_id: str) -> str:
         return f"{task_id} ({self.study.task(task_id).title})"
 
+    def tasks_text(self, tasks) -> str:
+        """Tasks in words: the first few with their titles, the rest by id."""
+        named = [self.task_label(task_id) for task_id in tasks[:_NAMED]]
+        rest = list(tasks[_NAMED:])
+        if rest:
+            return f"{', '.join(named)} and {len(rest)} more ({', '.join(rest)})"
+        return named[0] if len(named) == 1 else f"{', '.join(named[:-1])} and {named[-1]}"
+
     def holders_text(self, tasks, first: str, second: str) -> str:
+        """Who holds the tasks in two modes, tasks with the same two holders together."""
+        groups: dict[tuple[str, str], list[str]] = {}
+        for task_id in tasks:
+            key = (self.holder_name(first, task_id), self.holder_name(second, task_id))
+            groups.setdefault(key, []).append(task_id)
         return "; ".join(
-            f"{self.task_label(task_id)} is held by {self.holder_name(first, task_id)} in "
-            f"{self.mode_name(first)} and by {self.holder_name(second, task_id)} in "
+            f"{self.tasks_text(group)} {'is' if len(group) == 1 else 'are'} held by "
+            f"{in_first} in {self.mode_name(first)} and by {in_second} in "
             f"{self.mode_name(second)}"
-            for task_id in tasks
+            for (in_first, in_second), group in groups.items()
         )
 
     @staticmethod
@@ -355,17 +437,17 @@ def verify_mode_map(study: Study, plan: Plan, assumptions: dict[str, Any]) -> li
     out = _outgoing(modes)
     actions = _actions(out)
     findings: list[Finding] = []
-    findings += _uncued_changes(check, modes)
+    findings += _uncued_changes(check, modes, found, actions)
     findings += _ambiguous_indications(check, modes, actions)
     findings += _error_states(check, found)
-    findings += _unforeseen_transitions(check, modes, found)
+    findings += _unforeseen_transitions(check, modes, found, actions)
     findings += _refused_actions(check, found, actions)
     findings += _unreachable_modes(check, modes, found)
-    findings += _no_way_back(check, modes, found, out)
+    findings += _no_way_back(check, modes, found, out, actions)
     return findings
 
 
-def _uncued_changes(check: _Checker, modes: ModeMap) -> list[Finding]:
+def _uncued_changes(check: _Checker, modes: ModeMap, found: Exploration, actions) -> list[Finding]:
     findings = []
     for t in modes.transitions:
         if t.by == "human" or t.cue != "none" or t.source not in modes.by_id:
@@ -375,6 +457,9 @@ def _uncued_changes(check: _Checker, modes: ModeMap) -> list[Finding]:
         tasks = check.differences(t.source, t.target)
         if not tasks:
             continue
+        # The change is a finding wherever it sits; an unreachable one has no witness.
+        before = found.machine_path(t.source) if t.source in found.machine_parents else None
+        witness = () if before is None else _replayed(modes.initial, (*before, t), actions)
         findings.append(
             Finding(
                 "uncued_change",
@@ -384,7 +469,8 @@ def _uncued_changes(check: _Checker, modes: ModeMap) -> list[Finding]:
                 f"work: {check.holders_text(tasks, t.source, t.target)}.",
                 tasks,
                 (t.source, t.target),
-                (t.trigger,),
+                tuple(step.event for step in witness) or (t.trigger,),
+                witness=witness,
             )
         )
     return findings
@@ -467,12 +553,15 @@ def _error_states(check: _Checker, found: Exploration) -> list[Finding]:
                 tasks,
                 (actual, believed),
                 tuple(step.transition.trigger for step in steps),
+                witness=found.witness(state),
             )
         )
     return findings
 
 
-def _unforeseen_transitions(check: _Checker, modes: ModeMap, found: Exploration) -> list[Finding]:
+def _unforeseen_transitions(
+    check: _Checker, modes: ModeMap, found: Exploration, actions
+) -> list[Finding]:
     findings = []
     for t in modes.transitions:
         if t.by == "human" or t.cue != "none" or t.source not in found.machine_parents:
@@ -497,6 +586,7 @@ def _unforeseen_transitions(check: _Checker, modes: ModeMap, found: Exploration)
                 tasks,
                 (t.source, t.target),
                 (*(step.trigger for step in before), t.trigger),
+                witness=_replayed(modes.initial, (*before, t), actions),
             )
         )
     return findings
@@ -521,6 +611,7 @@ def _refused_actions(check: _Checker, found: Exploration, actions) -> list[Findi
                     tasks,
                     (actual, believed),
                     (*(step.transition.trigger for step in steps), trigger),
+                    witness=found.witness(state, refused=trigger),
                 )
             )
     return findings
@@ -542,26 +633,30 @@ def _unreachable_modes(check: _Checker, modes: ModeMap, found: Exploration) -> l
     ]
 
 
-def _no_way_back(check: _Checker, modes: ModeMap, found: Exploration, out) -> list[Finding]:
+def _no_way_back(
+    check: _Checker, modes: ModeMap, found: Exploration, out, actions
+) -> list[Finding]:
+    def person_holds(mode_id: str, task_id: str) -> bool | None:
+        """Whether a person principally holds the task in the mode (None: not done)."""
+        principal, applies = check.holder(mode_id, task_id)
+        if not applies:
+            return None
+        agent = check.study.agents_by_id.get(principal or "")
+        return agent is not None and agent.is_human
+
+    # Only the critical tasks the map gives to a person in some mode (module docstring).
     critical = [
-        task_id for task_id in check.leaves if (check.study.task(task_id).severity or 0) >= 4
+        task_id
+        for task_id in check.leaves
+        if (check.study.task(task_id).severity or 0) >= 4
+        and any(person_holds(mode.id, task_id) for mode in modes.states)
     ]
     if not critical:
         return []
-
-    def person_lacks(mode_id: str) -> list[str]:
-        """Applicable critical tasks that no person principally holds in the mode."""
-        lacking = []
-        for task_id in critical:
-            principal, applies = check.holder(mode_id, task_id)
-            if not applies:
-                continue
-            agent = check.study.agents_by_id.get(principal or "")
-            if agent is None or not agent.is_human:
-                lacking.append(task_id)
-        return lacking
-
-    lacks = {mode.id: person_lacks(mode.id) for mode in modes.states}
+    lacks = {
+        mode.id: [task_id for task_id in critical if person_holds(mode.id, task_id) is False]
+        for mode in modes.states
+    }
     good = [mode_id for mode_id, tasks in lacks.items() if not tasks]
     reachable = [mode.id for mode in modes.states if mode.id in found.machine_parents]
     if not good:
@@ -570,9 +665,10 @@ def _no_way_back(check: _Checker, modes: ModeMap, found: Exploration, out) -> li
             Finding(
                 "no_way_back",
                 check.severity(tasks),
-                "In no mode does a person hold every safety-critical task (severity 4 or "
-                f"5): {', '.join(check.task_label(t) for t in tasks)}; the person can never "
-                "take these over.",
+                "No mode lets a person hold all the safety-critical tasks (severity 4 or "
+                "5) that some mode gives them: "
+                f"{check.tasks_text(tasks)}; the person can never "
+                "take all of these over at once.",
                 tasks,
                 tuple(reachable),
             )
@@ -603,10 +699,79 @@ def _no_way_back(check: _Checker, modes: ModeMap, found: Exploration, out) -> li
                 check.severity(tasks),
                 f"{reach}, the device is in {check.mode_name(mode_id)}, and from there no "
                 "mode can be reached in which a person holds every safety-critical task; "
-                f"here no person holds {', '.join(check.task_label(t) for t in tasks)}.",
+                f"here no person holds {check.tasks_text(tasks)}.",
                 tasks,
                 (mode_id,),
                 tuple(t.trigger for t in before),
+                witness=_replayed(modes.initial, before, actions),
             )
         )
     return findings
+
+
+@dataclass(frozen=True)
+class Moment:
+    """One moment of a witness played step by step: the event that led here (``None`` at
+    the start), the mode the device is in, the mode the person believes, and for each
+    task worth showing who holds it in each (agent ids; ``None`` when it is not done)."""
+
+    step: WitnessStep | None
+    actual: str
+    believed: str
+    holders: tuple[tuple[str, str | None, str | None], ...]
+
+    @property
+    def confused(self) -> bool:
+        """The person's picture disagrees with the device on who holds some task."""
+        return any(actual != believed for _, actual, believed in self.holders)
+
+
+def walkthrough(
+    study: Study, plan: Plan, assumptions: dict[str, Any], finding: Finding
+) -> list[Moment]:
+    """A mode-map finding's witness as moments, from the initial mode on.
+
+    At every moment the tasks shown are the finding's own and any other task whose
+    holder differs between the actual and the believed mode then, in task-file order.
+
+    Parameters
+    ----------
+    study, plan : Study, Plan
+        The study and the plan the finding is about (the plan has a mode map).
+    assumptions : dict
+        The resolved assumptions (for the holders).
+    finding : Finding
+        One of :func:`verify_mode_map`'s findings for this plan.
+
+    Returns
+    -------
+    list of Moment
+        Empty when the finding has no witness.
+    """
+    if not finding.witness or plan.modes is None:
+        return []
+    check = _Checker(study, plan, assumptions)
+    own = set(finding.tasks)
+
+    def moment(step: WitnessStep | None, actual: str, believed: str) -> Moment:
+        differing = set(check.differences(actual, believed))
+        holders = tuple(
+            (
+                task_id,
+                _applied(check.holder(actual, task_id)),
+                _applied(check.holder(believed, task_id)),
+            )
+            for task_id in check.leaves
+            if task_id in own or task_id in differing
+        )
+        return Moment(step, actual, believed, holders)
+
+    initial = plan.modes.initial
+    moments = [moment(None, initial, initial)]
+    moments += [moment(step, step.actual, step.believed) for step in finding.witness]
+    return moments
+
+
+def _applied(holder: tuple[str | None, bool]) -> str | None:
+    principal, applies = holder
+    return principal if applies else None

@@ -69,6 +69,14 @@ METHODS = (
         "under the study's risk policy (ISO 14971 leaves acceptability to the manufacturer).",
     ),
     (
+        "Mode-map verification",
+        "The device's modes composed with the person's model of them (their own actions "
+        "and the changes they notice; a change shown only on the display may be missed) and "
+        "searched breadth-first: Degani & Heymann (2002), Sarter & Woods (1995); finding "
+        "kinds after Leveson et al. (1997). Each finding's witness is a shortest sequence of "
+        "events from the initial mode.",
+    ),
+    (
         "Coherence",
         "Share of link weight crossing agents, and weighted modularity (Newman "
         "2006) of the partition by principal holder (incoherency: Pritchett et al. 2014).",

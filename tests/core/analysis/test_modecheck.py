@@ -13,12 +13,20 @@ from __future__ import annotations
 import json
 import random
 
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from allocation.core import read_study
 from allocation.core.analysis import analyse_plan
-from allocation.core.analysis.modecheck import explore, verify_mode_map
+from allocation.core.analysis.compare import compare_plans
+from allocation.core.analysis.findings import WitnessStep
+from allocation.core.analysis.modecheck import (
+    MODE_FINDING_KINDS,
+    explore,
+    verify_mode_map,
+    walkthrough,
+)
 from allocation.core.assumptions import resolve_assumptions
 from allocation.core.model import Agent, Assignment, Mode, ModeMap, Plan, Study, Task, Transition
 from allocation.examples import EXAMPLES_DIR
@@ -143,6 +151,71 @@ def test_witness_is_the_shortest_event_sequence():
     assert [(f.modes, f.events) for f in errors] == [(("M", "S"), ("pause", "drop"))]
 
 
+def test_witnesses_give_both_modes_after_every_event():
+    # By hand, base("none"): 'signal lost' is never noticed, so after it the device is
+    # in Manual and Pat still believes Automatic; 'pause' is then refused.
+    lost = WitnessStep("signal lost", "automation", "none", True, "M", "A")
+    findings = {f.kind: f for f in check(base("none"))}
+    assert findings["uncued_change"].witness == (lost,)
+    assert findings["error_state"].witness == (lost,)
+    assert findings["unforeseen_transition"].witness == (lost,)
+    assert findings["refused_action"].witness == (
+        lost,
+        WitnessStep("pause", "human", "", False, "M", "A", refused=True),
+    )
+    # A missed display change is marked as missed on the path that needs it.
+    shown = {f.kind: f for f in check(base("display"))}
+    assert shown["error_state"].witness == (
+        WitnessStep("signal lost", "automation", "display", True, "M", "A"),
+    )
+    assert findings["ambiguous_indication"].witness == ()
+    assert findings["error_state"].to_json()["witness"] == [
+        {
+            "event": "signal lost",
+            "by": "automation",
+            "cue": "none",
+            "missed": True,
+            "refused": False,
+            "actual": "M",
+            "believed": "A",
+        }
+    ]
+
+
+def test_witness_of_a_later_transition_replays_the_way_there():
+    # The unforeseen 'timeout' from Standby: Pat pauses (believes Standby), then the
+    # device goes back to Automatic unseen, so Pat still believes Standby.
+    extra = (Transition("S", "A", "timeout", "schedule", "none"),)
+    findings = check(base("alert", extra_transitions=extra))
+    unforeseen = next(f for f in findings if f.kind == "unforeseen_transition")
+    assert unforeseen.witness == (
+        WitnessStep("pause", "human", "display", False, "S", "S"),
+        WitnessStep("timeout", "schedule", "none", True, "A", "S"),
+    )
+
+
+def test_walkthrough_shows_who_holds_what_in_both_modes_at_every_step():
+    study, plan = study_with(base("none"))
+    findings = verify_mode_map(study, plan, ASSUMPTIONS)
+    error = next(f for f in findings if f.kind == "error_state")
+    moments = walkthrough(study, plan, ASSUMPTIONS, error)
+    # By hand: at the start both are Automatic (T1 the pump's); after 'signal lost' the
+    # device is Manual (T1 Pat's) while Pat believes Automatic (T1 the pump's).
+    assert [(m.step and m.step.event, m.actual, m.believed) for m in moments] == [
+        (None, "A", "A"),
+        ("signal lost", "M", "A"),
+    ]
+    assert moments[0].holders == (("T1", "pump", "pump"),)
+    assert moments[1].holders == (("T1", "pat", "pump"),)
+    assert [m.confused for m in moments] == [False, True]
+    unreachable = next(
+        f
+        for f in check(base(extra_modes=(mode("X", "Spare", "x"),)))
+        if f.kind == "unreachable_mode"
+    )
+    assert walkthrough(study, plan, ASSUMPTIONS, unreachable) == []
+
+
 def test_ambiguous_indication_by_holders_and_absent_when_indications_differ():
     standby = mode("S", "Standby", "green", BY_PERSON)
     modes = ModeMap("A", (AUTO, MANUAL, standby), base().transitions)
@@ -184,13 +257,27 @@ def test_no_way_back_from_a_locked_mode():
     assert not [f for f in findings if f.kind == "no_way_back"]
 
 
-def test_no_way_back_when_no_mode_gives_the_person_the_critical_tasks():
+def test_no_way_back_leaves_out_critical_tasks_no_mode_gives_the_person():
+    # T1 (severity 5) is the pump's in every mode: an allocation decision of the plan,
+    # not a trap of the mode map, so no finding (the module's narrowed rule).
     modes = ModeMap("A", (AUTO, STANDBY), base().transitions[2:])
-    findings = [f for f in check(modes) if f.kind == "no_way_back"]
-    assert keys(findings) == [("no_way_back", ("A", "S"), ("T1",), (), 5)]
-    # No task of severity 4-5: nothing to hold.
+    assert not [f for f in check(modes) if f.kind == "no_way_back"]
+    # No task of severity 4-5 at all: nothing to hold either.
     study, plan = study_with(modes, tasks=(TASKS[1],))
     assert not [f for f in verify_mode_map(study, plan, ASSUMPTIONS) if f.kind == "no_way_back"]
+
+
+def test_no_way_back_when_no_mode_gives_the_person_all_critical_tasks_at_once():
+    # By hand: Manual gives Pat T1 (severity 5), Standby gives Pat T3 (severity 4); no
+    # mode gives both, so from every reachable mode there is no way back to one.
+    tasks = (*TASKS, Task("T3", "Stop delivery", severity=4))
+    standby = mode("S", "Standby", "amber", {"T3": Assignment(human="pat")})
+    modes = ModeMap("A", (AUTO, MANUAL, standby), base("alert").transitions)
+    study, plan = study_with(modes, tasks=tasks)
+    plan.assignments["T3"] = Assignment(automation="pump")
+    findings = [f for f in verify_mode_map(study, plan, ASSUMPTIONS) if f.kind == "no_way_back"]
+    assert keys(findings) == [("no_way_back", ("A", "M", "S"), ("T1", "T3"), (), 5)]
+    assert findings[0].witness == ()
 
 
 def test_plan_without_modes_has_none():
@@ -210,10 +297,39 @@ def test_home_heating_auto_in_the_plan_analysis():
         in {"uncued_change", "ambiguous_indication", "error_state", "unforeseen_transition"}
     ]
     assert ("error_state", ("schedule", "hold"), ("dial turned", "next period")) in mode_kinds
-    assert ("uncued_change", ("hold", "schedule"), ("next period",)) in mode_kinds
+    assert ("uncued_change", ("hold", "schedule"), ("dial turned", "next period")) in mode_kinds
     # Tasks in question in the error state get the highest mode-change factor.
     awareness = analysis.tasks["T2"].awareness
     assert awareness is not None and awareness.factors["mode_change"] == 1.0
+
+
+FIRST_FOUR = ("uncued_change", "ambiguous_indication", "error_state", "unforeseen_transition")
+
+
+def insulin_study():
+    path = EXAMPLES_DIR / "closed-loop-insulin.json"
+    return read_study(json.loads(path.read_text("utf-8")))
+
+
+@pytest.mark.parametrize("plan_id", ["hybrid-loop", "full-loop"])
+def test_insulin_loop_plans_show_each_of_the_first_four_kinds(plan_id):
+    analysis = analyse_plan(insulin_study(), plan_id)
+    kinds = {f.kind for f in analysis.findings}
+    assert set(FIRST_FOUR) <= kinds
+    # Every error state comes with the events that reach it, each with both modes.
+    errors = [f for f in analysis.findings if f.kind == "error_state"]
+    assert all(f.witness and f.witness[-1].actual != f.witness[-1].believed for f in errors)
+
+
+def test_the_cued_revision_removes_the_mode_findings_in_compare():
+    study = insulin_study()
+    before = analyse_plan(study, "hybrid-loop")
+    after = analyse_plan(study, "hybrid-loop-cued")
+    assert not [f for f in after.findings if f.kind in MODE_FINDING_KINDS]
+    delta = compare_plans([before, after]).delta("hybrid-loop-cued")
+    removed = {f.kind for f in delta.findings_removed}
+    assert set(FIRST_FOUR) <= removed
+    assert not [f for f in delta.findings_added if f.kind in MODE_FINDING_KINDS]
 
 
 # -- random machines: brute force, property, size ----------------------------------------
