@@ -17,7 +17,7 @@ from typing import Any
 
 from allocation.core.model import ModeMap
 
-__all__ = ["CAUSE_COLOURS", "CUE_LINES", "mode_map_figure"]
+__all__ = ["CAUSE_COLOURS", "CAUSE_WORDS", "CUE_LINES", "mode_map_figure"]
 
 INK = "#1d2a3a"
 INK_SOFT = "#4a5a6e"

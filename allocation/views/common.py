@@ -78,12 +78,16 @@ def study_page(request: HttpRequest, pk: int, role: str = m.Role.VIEWER) -> Stud
 
 def study_tabs(page: StudyPage, active: str) -> list[dict[str, object]]:
     """The study's tabs whose screens exist, the active one marked."""
-    first_plan = page.study.plans[0].id if page.study and page.study.plans else None
+    plans = page.study.plans if page.study else ()
+    first_plan = plans[0].id if plans else None
+    # The mode map opens on the first plan that has one.
+    with_modes = next((plan.id for plan in plans if plan.modes is not None), first_plan)
     tabs = []
     for label, name, takes_plan in STUDY_TABS:
         if takes_plan and first_plan is None:
             continue
-        args = [page.row.pk, first_plan] if takes_plan else [page.row.pk]
+        plan = with_modes if name == "plan-modes" else first_plan
+        args = [page.row.pk, plan] if takes_plan else [page.row.pk]
         try:
             url = reverse(name, args=args)
         except NoReverseMatch:

@@ -14,6 +14,7 @@ from django.views.decorators.http import require_GET
 
 from allocation import charts
 from allocation.core.analysis import PlanAnalysis
+from allocation.core.analysis.modecheck import MODE_FINDING_KINDS
 from allocation.core.analysis.report import METHODS
 from allocation.core.assumptions import AWARENESS_FACTORS
 from allocation.core.describe import seconds_text, severity_text
@@ -151,12 +152,23 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
         }
         for row in charts.awareness_rows(analysis, AWARENESS_SHOWN)
     ]
+    mode_numbers = {
+        id(finding): number
+        for number, finding in enumerate(
+            f for f in analysis.findings if f.kind in MODE_FINDING_KINDS
+        )
+    }
     findings = [
         {
             "finding": finding,
             "kind": finding.kind.replace("_", " "),
             "severity": severity_text(finding.severity),
             "tasks": _task_links(page, finding.tasks, plan_id),
+            "step_url": (
+                reverse("mode-finding", args=[page.row.pk, plan_id, mode_numbers[id(finding)]])
+                if finding.witness and id(finding) in mode_numbers
+                else None
+            ),
         }
         for finding in analysis.findings
     ]

@@ -26,7 +26,7 @@ from allocation.core.describe import severity_text
 from allocation.core.model import Assignment, Plan, Study
 from allocation.core.writing import assignment_to_json
 from allocation.forms import AssignmentForm, ItemForm, ModeForm, TransitionForm
-from allocation.mode_figures import CUE_LINES, mode_map_figure
+from allocation.mode_figures import CAUSE_WORDS, CUE_LINES, mode_map_figure
 from allocation.views.common import StudyPage, study_page
 
 #: Each kind of mode-map finding in a few words, for the findings list.
@@ -63,13 +63,6 @@ KIND_WORDS = {
     ),
 }
 CUE_WORDS = {cue: words for cue, (_dash, _width, words) in CUE_LINES.items()}
-CAUSE_WORDS = {
-    "human": "the person",
-    "automation": "the device",
-    "event": "an event",
-    "schedule": "a schedule",
-    "environment": "the surroundings",
-}
 
 
 def _plan_page(request: HttpRequest, pk: int, plan: str, role: str = m.Role.VIEWER):
@@ -305,6 +298,48 @@ def _problems_of(form: ItemForm | AssignmentForm, error: StudyInvalid | None) ->
     return [Problem(f"$.form.{name}", " ".join(errors)) for name, errors in form.errors.items()]
 
 
+def _item_edit(
+    request: HttpRequest,
+    page: StudyPage,
+    plan: Plan,
+    *,
+    what: str,
+    key: str,
+    make_form,
+    initial: dict[str, Any],
+    save,
+    hidden: dict[str, str],
+) -> HttpResponse:
+    """The form of a mode or a transition (GET), and saving it with ``save(item)``."""
+    action = request.path
+    if request.method == "GET":
+        form = make_form(initial=initial)
+        return _form_response(
+            request, page, plan, form, what=what, key=key, action=action, hidden=hidden
+        )
+    form = make_form(data=request.POST)
+    error = None
+    if form.is_valid():
+        try:
+            save(form.item())
+        except StudyInvalid as caught:
+            error = caught
+        else:
+            messages.success(request, f"Saved the {what}.")
+            return _region_response(request, page.row.pk, plan.id)
+    return _form_response(
+        request,
+        page,
+        plan,
+        form,
+        what=what,
+        key=key,
+        action=action,
+        problems=_problems_of(form, error),
+        hidden=hidden,
+    )
+
+
 @require_http_methods(["GET", "POST"])
 @login_required
 def mode_edit(request: HttpRequest, pk: int, plan: str, mode: str) -> HttpResponse:
@@ -313,35 +348,18 @@ def mode_edit(request: HttpRequest, pk: int, plan: str, mode: str) -> HttpRespon
     modes = chosen.modes
     if mode != "new" and (modes is None or mode not in modes.by_id):
         raise Http404("No such mode.")
-    action = reverse("mode-edit", args=[pk, plan, mode])
-    if request.method == "GET":
-        initial = {} if mode == "new" else ModeForm.initial_for(_mode_item(page, chosen, mode))
-        form = ModeForm(initial=initial)
-        return _form_response(request, page, chosen, form, what="mode", key=mode, action=action)
-    form = ModeForm(request.POST)
-    error = None
-    if form.is_valid():
-        try:
-            services.mode_save(
-                study=page.row,
-                plan_key=plan,
-                key=None if mode == "new" else mode,
-                item=form.item(),
-            )
-        except StudyInvalid as caught:
-            error = caught
-        else:
-            messages.success(request, "Saved the mode.")
-            return _region_response(request, pk, plan)
-    return _form_response(
+    return _item_edit(
         request,
         page,
         chosen,
-        form,
         what="mode",
         key=mode,
-        action=action,
-        problems=_problems_of(form, error),
+        make_form=lambda data=None, initial=None: ModeForm(data, initial=initial),
+        initial={} if mode == "new" else ModeForm.initial_for(_mode_item(page, chosen, mode)),
+        save=lambda item: services.mode_save(
+            study=page.row, plan_key=plan, key=None if mode == "new" else mode, item=item
+        ),
+        hidden={},
     )
 
 
@@ -533,52 +551,30 @@ def _expected(request: HttpRequest) -> dict[str, str] | None:
 @require_http_methods(["GET", "POST"])
 @login_required
 def transition_edit(request: HttpRequest, pk: int, plan: str, transition: str) -> HttpResponse:
+    """The form for a new transition (``new``) or an existing one (GET), and saving it."""
     page, chosen = _plan_page(request, pk, plan, role=m.Role.EDITOR)
     index = _transition_target(chosen, transition)
-    action = reverse("transition-edit", args=[pk, plan, transition])
-    if request.method == "GET":
-        initial, hidden = {}, {}
-        if index is not None:
-            item = _transition_item(page, chosen, index)
-            initial = TransitionForm.initial_for(item)
-            hidden = {f"expected_{key}": item[key] for key in ("from", "to", "trigger")}
-        form = _transition_form(chosen, initial=initial)
-        return _form_response(
-            request,
-            page,
-            chosen,
-            form,
-            what="transition",
-            key=transition,
-            action=action,
-            hidden=hidden,
-        )
-    form = _transition_form(chosen, data=request.POST)
-    error = None
-    if form.is_valid():
-        try:
-            services.transition_save(
-                study=page.row,
-                plan_key=plan,
-                index=index,
-                item=form.item(),
-                expected=_expected(request),
-            )
-        except StudyInvalid as caught:
-            error = caught
-        else:
-            messages.success(request, "Saved the transition.")
-            return _region_response(request, pk, plan)
-    return _form_response(
+    item = None if index is None else _transition_item(page, chosen, index)
+    if request.method == "POST":
+        expected = _expected(request) or {}
+    else:
+        expected = {} if item is None else {key: item[key] for key in ("from", "to", "trigger")}
+    return _item_edit(
         request,
         page,
         chosen,
-        form,
         what="transition",
         key=transition,
-        action=action,
-        problems=_problems_of(form, error),
-        hidden={f"expected_{key}": value for key, value in (_expected(request) or {}).items()},
+        make_form=lambda data=None, initial=None: _transition_form(chosen, data, initial),
+        initial={} if item is None else TransitionForm.initial_for(item),
+        save=lambda new: services.transition_save(
+            study=page.row,
+            plan_key=plan,
+            index=index,
+            item=new,
+            expected=_expected(request),
+        ),
+        hidden={f"expected_{key}": value for key, value in expected.items()},
     )
 
 

@@ -295,3 +295,18 @@ def test_the_rows_read_back_as_the_checked_document(signed_in, study):
         "cue": "display",
         "per_day": 0.5,
     }
+
+
+def test_dashboard_findings_open_the_same_step_through(signed_in, study):
+    page = signed_in.get(reverse("plan-dashboard", args=[study.pk, "auto"])).content.decode()
+    links = re.findall(r'<a href="([^"]+/modes/findings/\d+)">Step through', page)
+    assert links
+    for link in links:
+        target = signed_in.get(link).content.decode()
+        assert "How did we get into this mode?" in target
+
+
+def test_the_mode_map_tab_opens_on_a_plan_with_modes(signed_in, study):
+    # Plan 'manual' comes first and has no mode map; the tab goes to 'auto'.
+    page = signed_in.get(reverse("study-detail", args=[study.pk])).content.decode()
+    assert url("plan-modes", study) in page

@@ -251,6 +251,8 @@ def test_no_way_back_from_a_locked_mode():
     assert [k for k in keys(findings) if k[0] == "no_way_back"] == [
         ("no_way_back", ("L",), ("T1",), ("fault",), 5)
     ]
+    trapped = next(f for f in findings if f.kind == "no_way_back")
+    assert trapped.witness == (WitnessStep("fault", "automation", "alert", False, "L", "L"),)
     # With a way from Locked to Manual (where Pat holds T1) there is no finding.
     out = (*extra, Transition("L", "M", "unlock", "human", "display"))
     findings = check(base("alert", extra_modes=(locked,), extra_transitions=out))
