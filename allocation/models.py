@@ -333,3 +333,120 @@ class ModeTransition(models.Model):
 
     def __str__(self) -> str:
         return f"{self.source} -> {self.target}: {self.trigger}"
+
+
+class SimulationStatus(models.TextChoices):
+    QUEUED = "queued", "Queued"
+    RUNNING = "running", "Running"
+    DONE = "done", "Done"
+    FAILED = "failed", "Failed"
+    CANCELLED = "cancelled", "Cancelled"
+
+    @classmethod
+    def active(cls) -> tuple[str, ...]:
+        """Statuses of a run that workers may still add to."""
+        return (cls.QUEUED, cls.RUNNING)
+
+    @classmethod
+    def reusable(cls) -> tuple[str, ...]:
+        """Statuses of a run that a new request for the same figures joins instead."""
+        return (cls.QUEUED, cls.RUNNING, cls.DONE)
+
+
+#: The largest run the database accepts; requests are held to a smaller limit
+#: (``services.SIMULATION_MAX_DAYS``), which may grow without a migration.
+SIMULATION_DAYS_LIMIT = 100_000
+
+
+class SimulationRun(models.Model):
+    """N simulated days of one plan, at one version of its study, with one seed.
+
+    The days are simulated in chunks of ``CHUNK_DAYS`` by background tasks, one task per
+    chunk (``allocation.tasks``); the task that stores the last chunk combines them into
+    ``result``. ``study_version`` is the study's ``updated_at`` the run was made for: a
+    run is only current while the study still has that version.
+    """
+
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="simulation_runs")
+    plan_key = models.CharField("plan id", max_length=64)
+    days = models.PositiveIntegerField()
+    seed = models.PositiveBigIntegerField()
+    study_version = models.DateTimeField()
+    status = models.CharField(
+        max_length=16, choices=SimulationStatus.choices, default=SimulationStatus.QUEUED
+    )
+    chunks_total = models.PositiveIntegerField()
+    chunks_done = models.PositiveIntegerField(default=0)
+    # {"simulation": ..., "summary": ..., "typical": ..., "worst": ...} once done.
+    result = models.JSONField(null=True, blank=True)
+    error = models.TextField(blank=True)
+    requested_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.SET_NULL,
+        null=True,
+        blank=True,
+        related_name="simulation_runs",
+    )
+    created_at = models.DateTimeField(auto_now_add=True)
+    finished_at = models.DateTimeField(null=True, blank=True)
+    cancel_requested = models.BooleanField(default=False)
+
+    class Meta:
+        ordering = ["-created_at", "-pk"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(days__gte=1, days__lte=SIMULATION_DAYS_LIMIT),
+                name="simulation_days_range",
+            ),
+            models.CheckConstraint(condition=Q(seed__gte=0), name="simulation_seed_natural"),
+            models.CheckConstraint(
+                condition=Q(status__in=SimulationStatus.values), name="simulation_status_known"
+            ),
+            models.CheckConstraint(
+                condition=Q(chunks_total__gte=1, chunks_done__lte=F("chunks_total")),
+                name="simulation_chunks_counted",
+            ),
+            models.CheckConstraint(
+                condition=Q(result__isnull=True) | Q(status=SimulationStatus.DONE),
+                name="simulation_result_when_done",
+            ),
+            # At most one live or finished run per question: concurrent requests for the
+            # same figures join it instead of simulating them twice.
+            models.UniqueConstraint(
+                fields=["study", "study_version", "plan_key", "days", "seed"],
+                condition=Q(status__in=SimulationStatus.reusable()),
+                name="simulation_one_per_question",
+            ),
+        ]
+        indexes = [
+            models.Index(fields=["study", "plan_key", "days", "seed"], name="simulation_lookup")
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.study.key}/{self.plan_key}: {self.days} days, seed {self.seed}"
+
+    @property
+    def progress(self) -> float:
+        """Share of the chunks simulated, 0 to 1."""
+        return self.chunks_done / self.chunks_total if self.chunks_total else 0.0
+
+    @property
+    def finished(self) -> bool:
+        return self.status not in SimulationStatus.active()
+
+
+class SimulationChunk(models.Model):
+    """One chunk of a run's days, as the core's ``SimulationChunk.to_json()`` gave it."""
+
+    run = models.ForeignKey(SimulationRun, on_delete=models.CASCADE, related_name="chunks")
+    index = models.PositiveIntegerField()
+    result = models.JSONField()
+
+    class Meta:
+        ordering = ["run", "index"]
+        constraints = [
+            models.UniqueConstraint(fields=["run", "index"], name="simulation_chunk_unique"),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.run} chunk {self.index}"

@@ -51,6 +51,8 @@ INSTALLED_APPS = [
     "django.contrib.messages",
     "django.contrib.staticfiles",
     "django_htmx",
+    "django_tasks",
+    "django_tasks_db",
     "allocation",
 ]
 
@@ -65,6 +67,11 @@ MIDDLEWARE = [
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "django_htmx.middleware.HtmxMiddleware",
 ]
+
+# Background work (simulation runs) goes through Django's tasks API; the database backend
+# keeps the queue in the database, so workers on any machine sharing it can take tasks
+# (`manage.py db_worker`; `manage.py start` runs one beside the dev server).
+TASKS = {"default": {"BACKEND": "django_tasks_db.DatabaseBackend", "QUEUES": ["default"]}}
 
 ROOT_URLCONF = "allocation.urls"
 WSGI_APPLICATION = "allocation.wsgi.application"

@@ -9,6 +9,7 @@ from allocation.views import (
     inventory,
     modes,
     plans,
+    simulation,
     studies,
 )
 
@@ -87,6 +88,31 @@ urlpatterns = [
         "studies/<int:pk>/plans/<str:plan>/modes/findings/<int:finding>",
         modes.mode_finding,
         name="mode-finding",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/simulation",
+        simulation.plan_simulation,
+        name="plan-simulation",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/simulation/run",
+        simulation.plan_simulation_run,
+        name="plan-simulation-run",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/simulation/status",
+        simulation.plan_simulation_status,
+        name="plan-simulation-status",
+    ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/simulation/cancel",
+        simulation.plan_simulation_cancel,
+        name="plan-simulation-cancel",
+    ),
+    path(
+        "studies/<int:pk>/simulation",
+        simulation.study_simulation_compare,
+        name="study-simulation-compare",
     ),
     path("studies/<int:pk>/compare", compare.study_compare, name="study-compare"),
     path(

@@ -215,6 +215,26 @@ ASSUMPTIONS: tuple[Assumption, ...] = (
         _number(0.0, None, strict=True),
     ),
     Assumption(
+        "supervision_demand",
+        {"visual": 1.0, "auditory": 0.0, "cognitive": 1.2, "psychomotor": 0.0},
+        TOOL,
+        "Baton default; anchor values of McCracken & Aldrich (1984): visually register, "
+        "alternative selection",
+        "VACP demand on each channel while a person supervises automation (approving, "
+        "watching a veto window, reading a notice) in the day simulation.",
+        _table(("visual", "auditory", "cognitive", "psychomotor"), maximum=7),
+    ),
+    Assumption(
+        "monitoring_demand",
+        {"visual": 1.0, "auditory": 0.0, "cognitive": 1.0, "psychomotor": 0.0},
+        TOOL,
+        "Baton default; anchor values of McCracken & Aldrich (1984): visually register, "
+        "automatic (simple association)",
+        "VACP demand on each channel while an accountable person checks work another agent "
+        "holds, in the day simulation.",
+        _table(("visual", "auditory", "cognitive", "psychomotor"), maximum=7),
+    ),
+    Assumption(
         "cue_weakness",
         {"none": 1.0, "on_request": 0.75, "display": 0.5, "alert": 0.25, "alert_confirm": 0.0},
         TOOL,

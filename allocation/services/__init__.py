@@ -10,6 +10,8 @@ from .editing import *  # noqa: F403 - every edit, listed in editing.__all__
 from .editing import __all__ as _editing
 from .modemaps import *  # noqa: F403 - every mode-map edit, listed in modemaps.__all__
 from .modemaps import __all__ as _modemaps
+from .simulations import *  # noqa: F403 - runs and their limits, in simulations.__all__
+from .simulations import __all__ as _simulations
 from .studies import (
     LOCAL_USERNAME,
     examples_load,
@@ -22,6 +24,7 @@ __all__ = [
     *_assumptions,
     *_editing,
     *_modemaps,
+    *_simulations,
     "LOCAL_USERNAME",
     "examples_load",
     "local_user_ensure",

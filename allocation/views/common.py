@@ -20,6 +20,7 @@ STUDY_TABS = (
     ("Mode map", "plan-modes", True),
     ("Graph", "study-graph", False),
     ("Dashboards", "plan-dashboard", True),
+    ("Simulation", "plan-simulation", True),
     ("Compare", "study-compare", False),
     ("Assumptions", "study-assumptions", False),
 )

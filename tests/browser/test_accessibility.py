@@ -24,13 +24,15 @@ def pages(pk: int, plan: str) -> list[str]:
         f"{base}/plans/{plan}/dashboard",
         f"{base}/plans/{plan}/modes",
         f"{base}/plans/{plan}/modes/findings/0?step=1",
+        f"{base}/plans/{plan}/simulation?days=30&seed=1",
+        f"{base}/simulation?days=30&seed=1",
         f"{base}/compare",
         f"{base}/assumptions",
         f"{base}/inventory/tasks/T2",
     ]
 
 
-def test_every_page_has_no_serious_or_critical_violations(signed_in, django_user_model):
+def test_every_page_has_no_serious_or_critical_violations(signed_in, django_user_model, settings):
     page = signed_in
     owner = django_user_model.objects.get(username="walker")
     path = next(p for p in example_paths() if p.name == "home-heating.json")
@@ -38,6 +40,9 @@ def test_every_page_has_no_serious_or_critical_violations(signed_in, django_user
 
     study = services.study_import(data=json.loads(path.read_text()), owner=owner)
     plan = read_study(json.loads(path.read_text())).plans[-1].id
+    # A simulated run, so that the simulation pages show their charts and tables.
+    settings.TASKS = {"default": {"BACKEND": "django_tasks.backends.immediate.ImmediateBackend"}}
+    services.simulation_request(study=study, plan_key=plan, days=30, seed=1, user=owner)
     axe = Axe()
     report = {}
     for url in pages(study.pk, plan):

@@ -11,7 +11,7 @@ from django.core.management.base import CommandError
 
 from allocation import models as m
 from allocation import selectors, services
-from allocation.core import Problem
+from allocation.core import LoadResult, Problem, load_study_text
 
 
 def study_from_reference(reference: str) -> m.Study:
@@ -26,6 +26,18 @@ def study_from_reference(reference: str) -> m.Study:
             "name one by its number"
         )
     return matches[0]
+
+
+def study_result_from_reference(reference: str) -> LoadResult:
+    """A study a command names by stored id or number, or by the path of a study file
+    (read, not stored), as the core loaded it."""
+    path = Path(reference)
+    if reference.endswith(".json") or path.is_file():
+        try:
+            return load_study_text(path.read_bytes())
+        except OSError as error:
+            raise CommandError(f"cannot read {reference}: {error.strerror}") from None
+    return selectors.study_load(study_from_reference(reference))
 
 
 def problem_lines(problems: list[Problem]) -> str:

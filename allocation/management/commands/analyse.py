@@ -11,11 +11,10 @@ from pathlib import Path
 
 from django.core.management.base import BaseCommand, CommandError
 
-from allocation import selectors
-from allocation.core import LoadResult, UnknownReference, load_study_text
+from allocation.core import LoadResult, UnknownReference
 from allocation.core.analysis import analyse_plan, prepare, text_report
 
-from ._study import problem_lines, study_from_reference
+from ._study import problem_lines, study_result_from_reference
 
 
 class Command(BaseCommand):
@@ -63,13 +62,7 @@ class Command(BaseCommand):
             self.stderr.write(f"Wrote {output}.")
 
     def _load(self, reference: str) -> LoadResult:
-        path = Path(reference)
-        if reference.endswith(".json") or path.is_file():
-            try:
-                return load_study_text(path.read_bytes())
-            except OSError as error:
-                raise CommandError(f"cannot read {reference}: {error.strerror}") from None
-        return selectors.study_load(study_from_reference(reference))
+        return study_result_from_reference(reference)
 
 
 def _dumps(payload: object) -> str:

@@ -21,6 +21,7 @@ from allocation.core.analysis import analyse_plan, prepare
 from allocation.core.analysis.modecheck import verify_mode_map
 from allocation.core.assumptions import resolve_assumptions
 from allocation.core.graph import task_graph
+from allocation.core.simulation import simulate
 from allocation.core.synthetic import synthetic_study
 
 #: Targets of the analysis engine (issue: analysis within 3x the floor; ten times the
@@ -29,6 +30,9 @@ ANALYSIS_OVER_FLOOR = 3.0
 SCALING_LIMIT = 12.0
 #: Opening the plan editor and saving one row, against a trivial page (issue target).
 PAGE_LIMIT = 10.0
+#: 1,000 simulated days of the 1,000-task study within this many analyses (issue target).
+SIMULATION_DAYS = 1000
+SIMULATION_LIMIT = 30.0
 
 
 def _median_seconds(work: Callable[[], object], repeats: int, collect: bool) -> float:
@@ -61,9 +65,24 @@ class Command(BaseCommand):
             "--large", type=int, default=10000, help="tasks in the large study (default 10000)"
         )
         parser.add_argument("--no-web", action="store_true", help="skip the page timings")
+        parser.add_argument(
+            "--no-simulation", action="store_true", help="skip the day simulation timing"
+        )
 
-    def handle(self, *args, repeats: int, seed: int, large: int, no_web: bool, **options) -> None:
+    def handle(
+        self,
+        *args,
+        repeats: int,
+        seed: int,
+        large: int,
+        no_web: bool,
+        no_simulation: bool,
+        **options,
+    ) -> None:
         self.engine(repeats=repeats, seed=seed, large=large)
+        if not no_simulation:
+            self.stdout.write("")
+            self.simulation(repeats=repeats, seed=seed)
         if not no_web:
             self.stdout.write("")
             self.pages(repeats=max(repeats, 5), seed=seed)
@@ -128,6 +147,32 @@ class Command(BaseCommand):
                 f"{whole:5.2f}x (target <= {SCALING_LIMIT:g}: "
                 f"{'met' if scale <= SCALING_LIMIT else 'MISSED'})"
             )
+
+    def simulation(self, *, repeats: int, seed: int) -> None:
+        """1,000 simulated days of the 1,000-task study against one analysis of it."""
+        document = synthetic_study(tasks=1000, links=3000, events=20, plans=4, seed=seed)
+        study = load_study(document).study
+        graph = prepare(study)
+        plan = study.plans[1].id
+        analysis_s = _median_seconds(
+            lambda: analyse_plan(study, plan, graph=graph), repeats, collect=True
+        )
+        start = time.perf_counter()
+        run = simulate(study, plan, days=SIMULATION_DAYS, seed=seed)
+        simulation_s = time.perf_counter() - start
+        ratio = simulation_s / analysis_s
+        occurrences = sum(run.figures[h]["interactions"].sum() for h in run.humans)
+        self.stdout.write(
+            f"day simulation of {plan}: {SIMULATION_DAYS:,} days in {simulation_s:.2f} s "
+            f"({simulation_s / SIMULATION_DAYS * 1000:.2f} ms a day, "
+            f"{occurrences / SIMULATION_DAYS:,.0f} person involvements a day); one analysis "
+            f"{analysis_s * 1000:.1f} ms"
+        )
+        self.stdout.write(
+            f"            a simulated day / an analysis {ratio / SIMULATION_DAYS:6.4f};  "
+            f"{SIMULATION_DAYS:,} days / an analysis {ratio:6.1f} (target <= "
+            f"{SIMULATION_LIMIT:g}: {'met' if ratio <= SIMULATION_LIMIT else 'MISSED'})"
+        )
 
     def pages(self, *, repeats: int, seed: int) -> None:
         """Plan editor timings on the 1,000-task study, in a throw-away test database."""

@@ -1,0 +1,358 @@
+"""One chunk of simulated days: happenings, chains, modes and each person's involvements.
+
+A chunk covers consecutive days and draws from its own seeded generator, so a run split
+into chunks over several machines gives the same days as one run. Within a chunk every
+trigger's happenings on all its days are drawn at once and its chain is followed task by
+task over all of them together (NumPy arrays of happenings), so the Python loop runs per
+chain member, not per occurrence.
+
+The rules (DESIGN §2, §3.9, §3.10; tool assumptions marked):
+
+- a trigger with fixed ``times`` happens at each, shifted uniformly within its jitter; one
+  with ``per_day`` a Poisson number of times, evenly over its part of the day; one every
+  N days on the days its random phase (drawn once per run) puts it, at an even time in
+  the part of the day the assumption ``every_days_when`` names;
+- a chain's root occurs with its probability; another task occurs when some predecessor
+  that occurred leads on to it (each link with its probability); it becomes ready when
+  all its predecessors that occurred are done plus their lags (uniform within the lag's
+  range: tool assumption), and starts then, plus the receiving holder's response latency
+  (triangular; asleep or awake as the moment makes it) when the work changes hands or an
+  event hands it over;
+- durations are triangular over the task's (or assignment's) min, typical and max;
+- each day starts in the mode map's initial mode at midnight (as the analytic mode shares
+  do) and moves by its transition rates, the time in a mode exponential (a continuous-time
+  Markov chain); an occurrence takes the assignment in force in the mode it becomes ready
+  in;
+- a person's active time on an occurrence (each stage's share of the duration times the
+  share the automation leaves them, added up) runs from the task's start, the stages in
+  order (tool assumption); supervision follows the task's end, then monitoring by the
+  accountable person.
+
+References
+----------
+.. [1] Ross, S. M. (2014). Introduction to Probability Models (11th ed.), ch. 5-6:
+   Poisson processes; continuous-time Markov chains.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..vocabulary import CHANNELS
+from .sampling import DAY_S, in_intervals, triangular, uniform_in_pieces
+from .tables import KINDS, ChainPlan, SimPlan
+
+__all__ = ["ChunkDraw", "Segments", "draw_chunk", "run_generator"]
+
+
+def run_generator(seed: int, stream: int) -> np.random.Generator:
+    """The generator of one stream of a run: 0 for the run-wide draws (phases), 1 + k for
+    chunk k. Independent of how chunks are spread over workers."""
+    return np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(int(stream),)))
+
+
+@dataclass
+class Segments:
+    """A person's timeline in a chunk: one row per stretch of work (absolute seconds from
+    the run's start)."""
+
+    start: np.ndarray
+    end: np.ndarray
+    task: np.ndarray
+    kind: np.ndarray  # index into tables.KINDS
+    initiator: np.ndarray
+    demand: np.ndarray  # channels x rows
+
+
+@dataclass
+class ChunkDraw:
+    """What a chunk's days produced, before they are summed up."""
+
+    first_day: int
+    days: int
+    # Occurrences
+    task: np.ndarray
+    variant: np.ndarray
+    day: np.ndarray  # chunk-relative
+    begin: np.ndarray  # the chain's start (absolute)
+    start: np.ndarray
+    finish: np.ndarray
+    duration: np.ndarray
+    # Chains: per chain, happenings per day and window misses
+    chain_happenings: list[int]
+    chain_missed: list[int]
+    task_window_counts: dict[tuple[int, int], tuple[int, int]]
+    # Modes: absolute change times and the mode entered
+    mode_times: np.ndarray
+    mode_index: np.ndarray
+
+
+def _phases(sim: SimPlan, seed: int) -> list[float]:
+    """Each every-N-days trigger's phase in days, drawn once per run."""
+    rng = run_generator(seed, 0)
+    return [
+        float(rng.random() * chain.rule.every_days) if chain.rule.every_days else 0.0
+        for chain in sim.chains
+    ]
+
+
+def _happenings(
+    rng: np.random.Generator, chain: ChainPlan, phase: float, first_day: int, days: int
+) -> np.ndarray:
+    """Absolute start times of a trigger's happenings over the chunk's days."""
+    rule = chain.rule
+    day_numbers = np.arange(first_day, first_day + days)
+    if rule.times is not None:
+        times = np.array(rule.times)
+        day = np.repeat(day_numbers, len(times))
+        clock = np.tile(times, days)
+        if rule.jitter_s:
+            clock = clock + rng.uniform(-rule.jitter_s, rule.jitter_s, clock.size)
+        # A jittered time past midnight belongs to the neighbouring day, as on a clock.
+        return np.sort(day * DAY_S + clock)
+    if rule.every_days is not None:
+        k = rule.every_days
+        # Occurrences at phase + n k days; day d holds those in [d, d + 1).
+        counts = np.floor((day_numbers + 1 - phase) / k) - np.floor((day_numbers - phase) / k)
+        counts = counts.astype(int)
+    else:
+        counts = rng.poisson(rule.per_day or 0.0, days)
+    total = int(counts.sum())
+    day = np.repeat(day_numbers, counts)
+    return np.sort(day * DAY_S + uniform_in_pieces(rng, total, rule.pieces))
+
+
+def _mode_path(sim: SimPlan, rng: np.random.Generator, first_day: int, days: int):
+    """Each day's path through the modes from midnight: change times and modes."""
+    times, modes = [], []
+    out = sim.rates.sum(axis=1)
+    for day in range(first_day, first_day + days):
+        mode, clock = sim.initial_mode, 0.0
+        times.append(day * DAY_S)
+        modes.append(mode)
+        while out[mode] > 0:
+            clock += rng.exponential(1.0 / out[mode]) * DAY_S
+            if clock >= DAY_S:
+                break
+            mode = int(rng.choice(len(out), p=sim.rates[mode] / out[mode]))
+            times.append(day * DAY_S + clock)
+            modes.append(mode)
+    return np.array(times), np.array(modes, int)
+
+
+def _latency(
+    sim: SimPlan, rng: np.random.Generator, agents: np.ndarray, moment: np.ndarray
+) -> np.ndarray:
+    """Response latency of each receiving agent (-1: none) at each moment."""
+    needs = (agents >= 0) & sim.latency_any[agents]
+    wait = np.zeros(agents.shape)
+    if not needs.any():
+        return wait  # automations that respond at once: nothing to draw
+    rows = np.flatnonzero(needs)
+    who = agents[rows]
+    asleep = np.zeros(rows.size, bool)
+    for a in sim.sleepers:
+        mine = who == a
+        if mine.any():
+            asleep[mine] = in_intervals(moment[rows][mine] % DAY_S, sim.asleep[a])
+    if np.all(who == who[0]):
+        # One agent (the common case): draw awake and asleep latencies from its rows.
+        awake = triangular(rng, *sim.latency_awake[who[0]], rows.size)
+        if asleep.any():
+            awake[asleep] = triangular(rng, *sim.latency_asleep[who[0]], int(asleep.sum()))
+        wait[rows] = awake
+        return wait
+    table = np.where(asleep[:, None], sim.latency_asleep[who], sim.latency_awake[who])
+    wait[rows] = triangular(rng, table[:, 0], table[:, 1], table[:, 2])
+    return wait
+
+
+def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -> ChunkDraw:
+    """Simulate days ``first_day .. first_day + days - 1`` as chunk ``chunk`` of a run."""
+    rng = run_generator(seed, 1 + chunk)
+    phases = _phases(sim, seed)
+    mode_times, mode_index = _mode_path(sim, rng, first_day, days)
+    parts: dict[str, list[np.ndarray]] = {
+        key: [] for key in ("task", "variant", "begin", "start", "finish", "duration")
+    }
+    happenings_count, missed_count = [], []
+    window_counts: dict[tuple[int, int], tuple[int, int]] = {}
+    for c, chain in enumerate(sim.chains):
+        begin = _happenings(rng, chain, phases[c], first_day, days)
+        count = begin.size
+        happenings_count.append(count)
+        if count == 0 or not chain.members:
+            missed_count.append(0)
+            continue
+        # Per member over all happenings: whether it occurred (None: in every one), when
+        # it finished (-inf where it did not occur) and who held it.
+        occurred: dict[int, np.ndarray | None] = {}
+        finish: dict[int, np.ndarray] = {}
+        holder: dict[int, np.ndarray] = {}
+        any_missed = np.zeros(count, bool)
+        for k, task in enumerate(chain.members):
+            arrivals: list[tuple[np.ndarray, np.ndarray]] = []
+            if k in chain.root_probability:
+                chance = chain.root_probability[k]
+                here = None if chance >= 1 else rng.random(count) < chance
+                ready = begin
+            else:
+                here = np.zeros(count, bool)
+                ready = np.full(count, -np.inf)
+                for source, probability, lag_low, lag_high in chain.predecessors.get(k, ()):
+                    if source not in occurred:
+                        continue
+                    came = occurred[source]
+                    if probability < 1:
+                        drawn = rng.random(count) < probability
+                        came = drawn if came is None else came & drawn
+                    here = None if came is None or here is None else here | came
+                    lag = rng.uniform(lag_low, lag_high, count) if lag_high > lag_low else lag_low
+                    arrival = finish[source] + lag
+                    arrivals.append((arrival, holder[source]))
+                    ready = np.maximum(ready, arrival)
+                if here is not None and here.all():
+                    here = None
+            if here is not None and not here.any():
+                continue
+            rows = slice(None) if here is None else np.flatnonzero(here)
+            at = ready[rows]
+            size = at.size
+            if len(sim.modes) == 1:
+                variant = np.full(size, sim.variant_of[task, 0])
+            else:
+                mode = mode_index[np.searchsorted(mode_times, at, side="right") - 1]
+                variant = sim.variant_of[task, mode]
+            receiver = sim.holder[variant]
+            if not arrivals:
+                # An event hands the work to its holder; a schedule's holder starts it.
+                start = at + _latency(sim, rng, receiver, at) if chain.from_event else at
+            else:
+                # Each predecessor's work arrives, plus the receiver's latency where the
+                # work changes hands (drawn only there).
+                changes = [
+                    (given_by[rows] != receiver) & (receiver >= 0)
+                    for _arrival, given_by in arrivals
+                ]
+                handed = np.logical_or.reduce(changes) if len(changes) > 1 else changes[0]
+                wait = np.zeros(size)
+                if handed.any():
+                    wait[handed] = _latency(sim, rng, receiver[handed], at[handed])
+                start = np.full(size, -np.inf)
+                for (arrival, _given_by), changed in zip(arrivals, changes, strict=True):
+                    start = np.maximum(start, arrival[rows] + wait * changed)
+            if np.all(variant == variant[0]):
+                low, typical, high = sim.duration[variant[0]]
+            else:
+                low, typical, high = sim.duration[variant].T
+            took = triangular(rng, low, typical, high, size)
+            done = start + took
+            occurred[k] = here
+            if here is None:
+                finish[k], holder[k] = done, receiver
+            else:
+                finish[k] = np.full(count, -np.inf)
+                finish[k][rows] = done
+                holder[k] = np.full(count, -2)
+                holder[k][rows] = receiver
+            if k in chain.windowed:
+                late = (done - begin[rows]) > sim.window_s[task]
+                any_missed[rows] |= late
+                window_counts[(c, k)] = (size, int(late.sum()))
+            parts["task"].append(np.full(size, task))
+            parts["variant"].append(variant)
+            parts["begin"].append(begin[rows])
+            parts["start"].append(start)
+            parts["finish"].append(done)
+            parts["duration"].append(took)
+        missed_count.append(int(any_missed.sum()))
+    joined = {
+        key: (np.concatenate(values) if values else np.zeros(0)) for key, values in parts.items()
+    }
+    task = joined["task"].astype(int)
+    variant = joined["variant"].astype(int)
+    return ChunkDraw(
+        first_day=first_day,
+        days=days,
+        task=task,
+        variant=variant,
+        day=(np.floor(joined["begin"] / DAY_S) - first_day).astype(int).clip(0, max(days - 1, 0)),
+        begin=joined["begin"],
+        start=joined["start"],
+        finish=joined["finish"],
+        duration=joined["duration"],
+        chain_happenings=happenings_count,
+        chain_missed=missed_count,
+        task_window_counts=window_counts,
+        mode_times=mode_times,
+        mode_index=mode_index,
+    )
+
+
+def person_segments(
+    sim: SimPlan, draw: ChunkDraw, person: int, by_stage: bool = False
+) -> Segments:
+    """One person's stretches of work in a chunk: active work, supervision, monitoring.
+
+    The person's active time on an occurrence is taken as one stretch from the task's
+    start, the stages in order without gaps (tool assumption); ``by_stage`` cuts it into
+    one stretch per stage (for the day view; the sums and overlaps are the same).
+    Supervision follows the task's end, then the accountable person's monitoring.
+    """
+    variant = draw.variant
+    scale = np.where(sim.typical[variant] > 0, draw.duration, 0.0)
+    mine = sim.human[variant] == person
+    shares = sim.stage_share[variant]
+    total = shares.sum(axis=1)
+    pieces = []
+    if by_stage:
+        before = np.cumsum(shares, axis=1) - shares
+        for s in range(shares.shape[1]):
+            rows = np.flatnonzero(mine & (shares[:, s] > 0) & (scale > 0))
+            begin = draw.start[rows] + scale[rows] * before[rows, s]
+            pieces.append((rows, begin, begin + scale[rows] * shares[rows, s], s, None))
+    else:
+        rows = np.flatnonzero(mine & (total > 0) & (scale > 0))
+        begin = draw.start[rows]
+        pieces.append((rows, begin, begin + scale[rows] * total[rows], 0, None))
+    supervision = sim.supervision_s[variant]
+    rows = np.flatnonzero(mine & (supervision > 0))
+    after = draw.finish[rows]
+    pieces.append((rows, after, after + supervision[rows], KINDS.index("supervision"), "sup"))
+    watching = (sim.monitor[variant] == person) & (sim.monitoring_s[variant] > 0)
+    rows = np.flatnonzero(watching)
+    after = draw.finish[rows] + np.where(mine[rows], supervision[rows], 0.0)
+    pieces.append(
+        (rows, after, after + sim.monitoring_s[variant[rows]], KINDS.index("monitoring"), "mon")
+    )
+    starts, ends, tasks, kinds, extras = [], [], [], [], []
+    for rows, begin, end, kind, extra in pieces:
+        starts.append(begin)
+        ends.append(end)
+        tasks.append(draw.task[rows])
+        kinds.append(np.full(rows.size, kind))
+        extras.append(extra)
+    task = np.concatenate(tasks).astype(int)
+    # Demands by channel (one row each): the task's own while working on it, the
+    # assumed small ones while supervising or monitoring.
+    demand = np.empty((len(CHANNELS), task.size))
+    for c in range(len(CHANNELS)):
+        parts = []
+        for piece_task, extra in zip(tasks, extras, strict=True):
+            if extra == "sup":
+                parts.append(np.full(piece_task.size, sim.supervision_demand[c]))
+            elif extra == "mon":
+                parts.append(np.full(piece_task.size, sim.monitoring_demand[c]))
+            else:
+                parts.append(sim.demands_by_channel[c][piece_task])
+        np.concatenate(parts, out=demand[c])
+    return Segments(
+        start=np.concatenate(starts),
+        end=np.concatenate(ends),
+        task=task,
+        kind=np.concatenate(kinds).astype(int),
+        initiator=sim.initiator[task],
+        demand=demand,
+    )

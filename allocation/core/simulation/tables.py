@@ -1,0 +1,341 @@
+"""Everything the day simulation needs of one plan, as NumPy tables built once.
+
+A *variant* is one task under the assignment in force in one mode (a task no mode
+overrides has one variant for all modes). Occurrences carry their variant's index, so
+that person time, stages and demands are looked up for thousands of occurrences at once.
+The plan's analysis supplies what both the analytic figures and the simulation must
+agree on: the triggers and their chains, each task's initiator, the involvement of each
+task in each mode.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from ..analysis.chains import Span
+from ..analysis.involvement import Involvement, involvement
+from ..analysis.modes import assignment_in_mode
+from ..analysis.occurrences import TriggerTiming
+from ..analysis.plan import INTERRUPTING, PlanAnalysis, StudyGraph
+from ..analysis.timeofday import asleep_intervals, awake_intervals, primary_sleeper
+from ..model import Event, Occurs, Study, seconds_of_day
+from ..vocabulary import CHANNELS, STAGES
+
+__all__ = ["ChainPlan", "SimPlan", "TriggerRule", "build_sim_plan"]
+
+#: Segment kinds: the four stages, then supervision and monitoring.
+KINDS = (*STAGES, "supervision", "monitoring")
+INITIATORS = ("human", "automation", "event", "schedule")
+
+
+@dataclass(frozen=True)
+class TriggerRule:
+    """How a trigger happens in a day: exactly one of its ways is set."""
+
+    times: tuple[float, ...] | None
+    jitter_s: float
+    per_day: float | None
+    pieces: tuple[tuple[float, float, float], ...]
+    every_days: float | None
+
+
+@dataclass
+class ChainPlan:
+    """One trigger's chain: members in order, roots, predecessors with lag and link
+    probability (indices into the member list)."""
+
+    trigger_id: str
+    name: str
+    from_event: bool
+    rule: TriggerRule
+    members: list[int]
+    root_probability: dict[int, float]
+    predecessors: dict[int, list[tuple[int, float, float, float]]]
+    windowed: list[int]
+
+
+@dataclass
+class SimPlan:
+    """The plan's tables for the simulation (see the module docstring)."""
+
+    study: Study
+    plan_id: str
+    assumptions: dict[str, Any]
+    task_ids: list[str]
+    humans: list[str]
+    agents: list[str]
+    modes: list[str]
+    initial_mode: int
+    rates: np.ndarray  # modes x modes, per day, while in the row's mode
+    variant_of: np.ndarray  # tasks x modes -> variant
+    variant_task: np.ndarray
+    duration: np.ndarray  # variants x 3 (low, typical, high)
+    typical: np.ndarray
+    stage_share: np.ndarray  # variants x 4: share of the duration the person works
+    stage_offset: np.ndarray  # variants x 4: where each stage starts, share of duration
+    supervision_s: np.ndarray
+    monitoring_s: np.ndarray
+    human: np.ndarray  # human index or -1
+    monitor: np.ndarray
+    holder: np.ndarray  # agent index or -1
+    interacts: np.ndarray  # variants x humans: the human spends time on an occurrence
+    interrupting: np.ndarray  # tasks: initiator automation or event
+    initiator: np.ndarray  # tasks: index into INITIATORS
+    demands: np.ndarray  # tasks x channels
+    supervision_demand: np.ndarray
+    monitoring_demand: np.ndarray
+    latency_awake: np.ndarray  # agents x 3
+    latency_asleep: np.ndarray
+    asleep: list[list[tuple[float, float]]]  # per agent (empty for automations)
+    window_s: np.ndarray  # tasks, nan without
+    chains: list[ChainPlan] = field(default_factory=list)
+    bin_s: float = 900.0
+    occupancy_limit: float = 0.8
+    channel_limit: float = 7.0
+
+    def __post_init__(self) -> None:
+        #: Per agent: whether it ever takes time to respond; the agents who sleep.
+        self.latency_any = (self.latency_awake.max(axis=1) > 0) | (
+            self.latency_asleep.max(axis=1) > 0
+        )
+        self.sleepers = [a for a, pieces in enumerate(self.asleep) if pieces]
+        self.demands_by_channel = np.ascontiguousarray(self.demands.T)
+
+    @property
+    def human_asleep(self) -> list[list[tuple[float, float]]]:
+        return [self.asleep[self.agents.index(h)] for h in self.humans]
+
+
+def _rule(study: Study, trigger_timing: TriggerTiming, every_days_when: str) -> TriggerRule:
+    trigger = trigger_timing.trigger
+    rule: Event | Occurs
+    if trigger.kind == "event":
+        rule = study.events_by_id[trigger.id]
+    else:
+        rule = study.task(trigger.roots[0]).occurs
+    pieces = trigger_timing.timing.pieces
+    if rule.times is not None:
+        times = tuple(float(seconds_of_day(clock)) for clock in rule.times)
+        return TriggerRule(times, float(rule.jitter_s or 0), None, pieces, None)
+    if rule.per_day is not None:
+        return TriggerRule(None, 0.0, float(rule.per_day), pieces, None)
+    if rule.every_days is not None:
+        sleeper = primary_sleeper(study)
+        spread = awake_intervals(sleeper) if every_days_when == "awake" else [(0.0, 86400.0)]
+        total = sum(b - a for a, b in spread)
+        even = tuple((a, b, (b - a) / total) for a, b in spread if b > a)
+        return TriggerRule(None, 0.0, None, even, float(rule.every_days))
+    return TriggerRule(None, 0.0, 0.0, pieces, None)
+
+
+def _span(value) -> tuple[float, float, float]:
+    span = Span.of(value)
+    return (span.low, span.typical, span.high)
+
+
+def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> SimPlan:
+    """The simulation tables of an analysed plan.
+
+    Parameters
+    ----------
+    study : Study
+    analysis : PlanAnalysis
+        The plan's analysis (its triggers, chains, initiators and assumptions).
+    graph : StudyGraph
+        The study's ``precedes`` structure.
+
+    Returns
+    -------
+    SimPlan
+    """
+    plan = analysis.plan
+    assumptions = analysis.assumptions
+    task_ids = [task.id for task in study.leaves]
+    index = {task_id: i for i, task_id in enumerate(task_ids)}
+    humans = [agent.id for agent in study.humans]
+    agents = [agent.id for agent in study.agents]
+    agent_index = {agent_id: i for i, agent_id in enumerate(agents)}
+    human_index = {agent_id: i for i, agent_id in enumerate(humans)}
+    modes = [mode.id for mode in plan.modes.states] if plan.modes else [""]
+    initial = modes.index(plan.modes.initial) if plan.modes else 0
+    rates = np.zeros((len(modes), len(modes)))
+    if plan.modes:
+        for t in plan.modes.transitions:
+            if t.per_day and t.source in modes and t.target in modes and t.source != t.target:
+                rates[modes.index(t.source), modes.index(t.target)] += float(t.per_day)
+
+    # Variants: one per task, plus one per mode that overrides the task.
+    variants: list[Involvement] = []
+    variant_of = np.zeros((len(task_ids), len(modes)), int)
+    for i, task_id in enumerate(task_ids):
+        task = study.task(task_id)
+        base = analysis.tasks[task_id].involved
+        base_variant = len(variants)
+        variants.append(base)
+        for m, mode_id in enumerate(modes):
+            mode = plan.modes.by_id[mode_id] if plan.modes else None
+            if mode is not None and mode.overrides and task_id in mode.overrides:
+                variant_of[i, m] = len(variants)
+                variants.append(
+                    involvement(
+                        study, task, assignment_in_mode(plan, mode_id, task_id), assumptions
+                    )
+                )
+            else:
+                variant_of[i, m] = base_variant
+    count = len(variants)
+    duration = np.zeros((count, 3))
+    stage_share = np.zeros((count, len(STAGES)))
+    stage_offset = np.zeros((count, len(STAGES)))
+    supervision = np.zeros(count)
+    monitoring = np.zeros(count)
+    human = np.full(count, -1)
+    monitor = np.full(count, -1)
+    holder = np.full(count, -1)
+    interacts = np.zeros((count, len(humans)), bool)
+    variant_task = np.zeros(count, int)
+    for v, involved in enumerate(variants):
+        task = study.task(involved.task_id)
+        variant_task[v] = index[involved.task_id]
+        if not involved.applies:
+            continue
+        assignment = involved.assignment
+        duration[v] = _span(assignment.duration_s or task.duration_s)
+        split = task.stage_split
+        offset = 0.0
+        for s, stage in enumerate(STAGES):
+            stage_offset[v, s] = offset
+            offset += split[stage]
+            if involved.human is not None:
+                stage_share[v, s] = split[stage] * (1 - involved.degrees[stage])
+        supervision[v] = involved.supervision_s
+        monitoring[v] = involved.monitoring_s
+        human[v] = human_index.get(involved.human or "", -1)
+        monitor[v] = human_index.get(involved.monitor or "", -1)
+        holder[v] = agent_index.get(involved.principal or "", -1)
+        for person in involved.people():
+            if person in human_index:
+                interacts[v, human_index[person]] = True
+
+    initiators = [analysis.tasks[task_id].initiator for task_id in task_ids]
+    demands = np.array(
+        [[float((study.task(t).demands or {}).get(c, 0)) for c in CHANNELS] for t in task_ids]
+    ).reshape(len(task_ids), len(CHANNELS))
+    default = [float(x) for x in assumptions["default_response_s"]]
+    latency_awake = np.zeros((len(agents), 3))
+    latency_asleep = np.zeros((len(agents), 3))
+    asleep = []
+    for a, agent in enumerate(study.agents):
+        response = agent.response_s or {}
+        if agent.is_human:
+            awake_range = response.get("awake") or response.get("any")
+            latency_awake[a] = _span(awake_range) if awake_range else default
+            latency_asleep[a] = (
+                _span(response["asleep"]) if "asleep" in response else latency_awake[a]
+            )
+            asleep.append(asleep_intervals(agent))
+        else:
+            latency_awake[a] = latency_asleep[a] = _span(response.get("any"))
+            asleep.append([])
+
+    sim = SimPlan(
+        study=study,
+        plan_id=plan.id,
+        assumptions=assumptions,
+        task_ids=task_ids,
+        humans=humans,
+        agents=agents,
+        modes=modes,
+        initial_mode=initial,
+        rates=rates,
+        variant_of=variant_of,
+        variant_task=variant_task,
+        duration=duration,
+        typical=duration[:, 1].copy(),
+        stage_share=stage_share,
+        stage_offset=stage_offset,
+        supervision_s=supervision,
+        monitoring_s=monitoring,
+        human=human,
+        monitor=monitor,
+        holder=holder,
+        interacts=interacts,
+        interrupting=np.array([initiator in INTERRUPTING for initiator in initiators], bool),
+        initiator=np.array([INITIATORS.index(initiator) for initiator in initiators], int),
+        demands=demands,
+        supervision_demand=np.array(
+            [float(assumptions["supervision_demand"].get(c, 0)) for c in CHANNELS]
+        ),
+        monitoring_demand=np.array(
+            [float(assumptions["monitoring_demand"].get(c, 0)) for c in CHANNELS]
+        ),
+        latency_awake=latency_awake,
+        latency_asleep=latency_asleep,
+        asleep=asleep,
+        window_s=np.array(
+            [
+                np.nan if study.task(t).window_s is None else float(study.task(t).window_s)
+                for t in task_ids
+            ]
+        ),
+        bin_s=float(study.bin_seconds),
+        occupancy_limit=float(assumptions["occupancy_limit"]),
+        channel_limit=float(assumptions["channel_limit"]),
+    )
+    sim.chains = _chains(study, analysis, graph, index, assumptions["every_days_when"])
+    return sim
+
+
+def _chains(study, analysis: PlanAnalysis, graph: StudyGraph, index, every_days_when):
+    link_probability = {
+        (source, target): p
+        for source, targets in graph.successors.items()
+        for target, p in targets
+    }
+    chains = []
+    for trigger_id, timing in analysis.occurrences.timings.items():
+        chance = analysis.occurrences.chains[trigger_id]
+        members = sorted((t for t, p in chance.items() if p > 0), key=graph.position.__getitem__)
+        place = {task_id: k for k, task_id in enumerate(members)}
+        roots = {}
+        for root in timing.trigger.roots:
+            if root in place:
+                occurs = study.task(root).occurs
+                roots[place[root]] = (
+                    1.0 if occurs.probability is None else float(occurs.probability)
+                )
+        predecessors = {}
+        for task_id in members:
+            if place[task_id] in roots:
+                continue
+            predecessors[place[task_id]] = [
+                (place[source], link_probability[(source, task_id)], *_lag(lag))
+                for source, lag in graph.predecessors.get(task_id, ())
+                if source in place
+            ]
+        chains.append(
+            ChainPlan(
+                trigger_id=trigger_id,
+                name=timing.trigger.name,
+                from_event=timing.from_event,
+                rule=_rule(study, timing, every_days_when),
+                members=[index[task_id] for task_id in members],
+                root_probability=roots,
+                predecessors=predecessors,
+                windowed=[
+                    k
+                    for k, task_id in enumerate(members)
+                    if study.task(task_id).window_s is not None
+                ],
+            )
+        )
+    return chains
+
+
+def _lag(lag) -> tuple[float, float]:
+    if lag is None:
+        return (0.0, 0.0)
+    return (float(lag.low), float(lag.high))

@@ -1,0 +1,373 @@
+"""The day simulation (allocation.core.simulation; DESIGN §3.2, §3.3, §3.10).
+
+Checked against things outside the code: scipy.stats for the Poisson counts and the
+triangular durations, hand-worked timelines for occupancy and channel sums, hand-worked
+sleep windows across midnight, and the analytic engine's figures (means within a few
+standard errors, the usual sampling-error band).
+"""
+
+from __future__ import annotations
+
+import random
+
+import numpy as np
+import pytest
+from scipy import stats
+
+from allocation.core import read_study
+from allocation.core.analysis import analyse_plan
+from allocation.core.simulation import (
+    CHUNK_DAYS,
+    Simulation,
+    SimulationCancelled,
+    SimulationChunk,
+    chunk_count,
+    combine,
+    day_timeline,
+    simulate,
+    simulate_chunk,
+)
+from allocation.core.simulation.sampling import triangular
+from allocation.core.simulation.timeline import Sweep, bin_edges
+
+
+def study_file(tasks, links=(), events=(), plans=None, agents=None, assumptions=None) -> dict:
+    """A small study: Pat (asleep 23:00-07:00, responds in 10-60 s awake, 60-600 s asleep)
+    and a pump, the given tasks under one goal."""
+    return {
+        "format": "baton.study",
+        "version": 1,
+        "study": {"id": "s", "title": "S", "scale": "sv10", "assumptions": assumptions or {}},
+        "agents": agents
+        or [
+            {
+                "id": "pat",
+                "name": "Pat",
+                "kind": "human",
+                "asleep": ["23:00", "07:00"],
+                "response_s": {"awake": [10, 30, 50], "asleep": [60, 300, 540]},
+            },
+            {"id": "pump", "name": "Pump", "kind": "automation"},
+        ],
+        "events": list(events),
+        "tasks": [{"id": "G", "title": "Goal"}, *({**t, "parent": "G"} for t in tasks)],
+        "links": list(links),
+        "plans": plans
+        or [
+            {
+                "id": "p",
+                "name": "Plan",
+                "assignments": {t["id"]: {"human": "pat"} for t in tasks},
+            }
+        ],
+    }
+
+
+# -- reproducibility ------------------------------------------------------------------
+
+CHAIN = study_file(
+    tasks=[
+        {"id": "T1", "title": "Notice", "occurs": {"event": "e"}, "duration_s": [10, 20, 30]},
+        {"id": "T2", "title": "Act", "duration_s": [30, 60, 90], "window_s": 150},
+        {
+            "id": "T3",
+            "title": "Check",
+            "occurs": {"per_day": 3, "when": "any"},
+            "duration_s": 40,
+            "demands": {"visual": 5, "cognitive": 4},
+        },
+    ],
+    links=[{"from": "T1", "to": "T2", "kind": "precedes", "lag_s": [0, 60]}],
+    events=[{"id": "e", "name": "Event", "per_day": 6, "when": "any"}],
+    plans=[
+        {
+            "id": "p",
+            "name": "Plan",
+            "assignments": {
+                "T1": {"automation": "pump"},
+                "T2": {"human": "pat"},
+                "T3": {"human": "pat"},
+            },
+        }
+    ],
+)
+
+
+def test_same_seed_same_result_and_other_seeds_differ():
+    study = read_study(CHAIN)
+    first = simulate(study, "p", days=120, seed=7)
+    again = simulate(study, "p", days=120, seed=7)
+    other = simulate(study, "p", days=120, seed=8)
+    assert first.to_json() == again.to_json()
+    assert first.to_json()["figures"] != other.to_json()["figures"]
+    assert Simulation.from_json(first.to_json()).summary() == first.summary()
+
+
+def test_chunks_in_any_order_give_the_same_run():
+    study = read_study(CHAIN)
+    days = 2 * CHUNK_DAYS + 7
+    whole = simulate(study, "p", days=days, seed=11)
+    parts = [
+        SimulationChunk.from_json(
+            simulate_chunk(study, "p", seed=11, chunk=k, days=days).to_json()
+        )
+        for k in range(chunk_count(days))
+    ]
+    random.Random(0).shuffle(parts)
+    assert combine(study, "p", seed=11, days=days, chunks=parts).to_json() == whole.to_json()
+    with pytest.raises(ValueError, match="needs chunks 0 to 2 once each"):
+        combine(study, "p", seed=11, days=days, chunks=parts[:2])
+
+
+def test_progress_is_reported_and_can_cancel():
+    study = read_study(CHAIN)
+    seen = []
+    simulate(study, "p", days=CHUNK_DAYS + 1, seed=1, progress=lambda d, n: seen.append((d, n)))
+    assert seen == [(CHUNK_DAYS, CHUNK_DAYS + 1), (CHUNK_DAYS + 1, CHUNK_DAYS + 1)]
+    with pytest.raises(SimulationCancelled):
+        simulate(study, "p", days=CHUNK_DAYS + 1, seed=1, progress=lambda d, n: False)
+
+
+@pytest.mark.parametrize(("days", "seed"), [(0, 1), (-3, 1), (10, -1), (1.5, 1)])
+def test_bad_days_or_seed_are_refused_with_a_clear_message(days, seed):
+    with pytest.raises(ValueError, match="days must|seed must"):
+        simulate(read_study(CHAIN), "p", days=days, seed=seed)
+
+
+# -- distributions against scipy.stats --------------------------------------------------
+
+
+def test_daily_counts_of_a_poisson_event_follow_scipy_poisson():
+    # T3 occurs 3 times a day by a Poisson rate: its daily interactions are Poisson(3)
+    # (scipy.stats.poisson); a chi-square test on the counts 0..6+ at the 0.001 level.
+    study = read_study(
+        study_file(
+            tasks=[
+                {
+                    "id": "T3",
+                    "title": "Check",
+                    "occurs": {"per_day": 3, "when": "any"},
+                    "duration_s": 5,
+                }
+            ]
+        )
+    )
+    counts = simulate(study, "p", days=2000, seed=3).figures["pat"]["interactions"]
+    observed = np.bincount(counts.astype(int), minlength=8)[:7].astype(float)
+    observed[6] += counts[counts > 6].size
+    expected = stats.poisson(3).pmf(np.arange(7)) * counts.size
+    expected[6] = stats.poisson(3).sf(5) * counts.size
+    assert stats.chisquare(observed, expected).pvalue > 0.001
+    assert counts.var(ddof=1) == pytest.approx(3, rel=0.15)  # Poisson: variance = mean
+
+
+def test_triangular_draws_follow_scipy_triang():
+    # scipy.stats.triang(c, loc, scale) with c = (mode - low) / (high - low).
+    rng = np.random.default_rng(5)
+    drawn = triangular(rng, 10.0, 20.0, 60.0, 20_000)
+    assert stats.kstest(drawn, stats.triang(0.2, loc=10, scale=50).cdf).pvalue > 0.001
+    arrays = triangular(rng, np.full(20_000, 10.0), np.full(20_000, 20.0), np.full(20_000, 60.0))
+    assert stats.kstest(arrays, stats.triang(0.2, loc=10, scale=50).cdf).pvalue > 0.001
+    assert np.array_equal(triangular(rng, 4.0, 4.0, 4.0, 3), [4.0, 4.0, 4.0])
+
+
+# -- occupancy and channels, by hand ----------------------------------------------------
+
+
+def test_occupancy_and_channel_sums_on_a_hand_worked_timeline():
+    # Two stretches: [0, 600) with visual 4, [300, 900) with visual 5, one [1000, 1100)
+    # with visual 1. Bins of 900 s: bin 0 holds 600 + 600 = 1200 s of work -> 1.333;
+    # bin 1 holds 100 s -> 0.111. Visual: 4, then 9 from 300 to 600 (above 7 for 300 s),
+    # then 5, then 1.
+    start = np.array([0.0, 300.0, 1000.0])
+    end = np.array([600.0, 900.0, 1100.0])
+    weights = np.array([[1.0, 1.0, 1.0], [4.0, 5.0, 1.0]])
+    sweep = Sweep.of(start, end, weights)
+    edges = np.array([0.0, 900.0, 1800.0])
+    assert np.diff(sweep.integral(0, edges)) / 900 == pytest.approx([1200 / 900, 100 / 900])
+    assert np.diff(sweep.above(1, 7.0, edges)) == pytest.approx([300.0, 0.0])
+    assert sweep.peaks(1, edges) == pytest.approx([9.0, 1.0])
+    # A stretch that ends as another starts does not overlap it.
+    touching = Sweep.of(np.array([0.0, 100.0]), np.array([100.0, 200.0]), np.ones((1, 2)) * 6)
+    assert touching.peaks(0, np.array([0.0, 300.0])) == pytest.approx([6.0])
+
+
+def test_bins_of_a_day_that_do_not_divide_it():
+    edges, per_day = bin_edges(0, 1, 7 * 3600)
+    assert per_day == 4 and np.diff(edges)[-1] == pytest.approx(86400 - 3 * 7 * 3600)
+
+
+def test_night_interruptions_count_across_midnight():
+    # Events at 23:30, 06:30 and 12:00 each start a task Pat does: Pat sleeps 23:00-07:00,
+    # so by hand two of the three interruptions a day fall at night.
+    study = read_study(
+        study_file(
+            tasks=[{"id": "T1", "title": "Respond", "occurs": {"event": "e"}, "duration_s": 60}],
+            events=[{"id": "e", "name": "Alarm", "times": ["23:30", "06:30", "12:00"]}],
+        )
+    )
+    figures = simulate(study, "p", days=5, seed=1).figures["pat"]
+    assert figures["interruptions"].tolist() == [3.0] * 5
+    assert figures["night_interruptions"].tolist() == [2.0] * 5
+    # And the analytic engine agrees, by the same hand count.
+    assert analyse_plan(study, "p").people["pat"].night_interruptions_per_day == pytest.approx(2)
+
+
+def test_peak_and_overload_of_concurrent_demands_in_a_day():
+    # Two fixed tasks overlap from 08:00:30 to 08:01:00 (both 60 s, visual 4 each): the
+    # visual channel reaches 8, above 7 for 30 s (by hand); occupancy's 08:00 bin holds
+    # 120 s of work in 900 s.
+    study = read_study(
+        study_file(
+            tasks=[
+                {
+                    "id": "A",
+                    "title": "A",
+                    "occurs": {"times": ["08:00"]},
+                    "duration_s": 60,
+                    "demands": {"visual": 4},
+                },
+                {
+                    "id": "B",
+                    "title": "B",
+                    "occurs": {"times": ["08:00:30"]},
+                    "duration_s": 60,
+                    "demands": {"visual": 4},
+                },
+            ]
+        )
+    )
+    figures = simulate(study, "p", days=2, seed=1).figures["pat"]
+    assert figures["peak_visual"].tolist() == [8.0, 8.0]
+    assert figures["overload_s_visual"] == pytest.approx([30.0, 30.0])
+    assert figures["peak_occupancy"] == pytest.approx([120 / 900] * 2)
+    day = day_timeline(study, "p", seed=1, day=1, days=2).to_json()
+    pat = day["people"]["pat"]
+    assert [(s["task"], s["start"]) for s in pat["segments"]][0] == ("A", 8 * 3600.0)
+    assert len(pat["occupancy"]) == 96
+    assert pat["occupancy"][32] == pytest.approx(120 / 900)
+    assert max(level for _t, level in pat["channels"]["visual"]) == 8.0
+
+
+# -- agreement with the analytic engine -------------------------------------------------
+
+AGREEING = study_file(
+    tasks=[
+        {"id": "T1", "title": "Notice", "occurs": {"event": "e"}, "duration_s": [10, 20, 30]},
+        {"id": "T2", "title": "Decide", "duration_s": [40, 60, 80]},
+        {"id": "T3", "title": "Act", "duration_s": 30},
+        {
+            "id": "T4",
+            "title": "Routine",
+            "occurs": {"per_day": 4, "when": "any"},
+            "duration_s": [100, 120, 140],
+        },
+        {"id": "T5", "title": "Review", "occurs": {"every_days": 3}, "duration_s": 600},
+    ],
+    links=[
+        {"from": "T1", "to": "T2", "kind": "precedes", "lag_s": [0, 30]},
+        {"from": "T2", "to": "T3", "kind": "precedes", "probability": 0.5},
+    ],
+    events=[{"id": "e", "name": "Event", "per_day": 8, "when": "any"}],
+    plans=[
+        {
+            "id": "p",
+            "name": "Plan",
+            "assignments": {
+                "T1": {"automation": "pump", "accountable": "pat"},
+                "T2": {"human": "pat", "automation": "pump", "levels": 5},
+                "T3": {"human": "pat"},
+                "T4": {"human": "pat", "automation": "pump", "levels": 7},
+                "T5": {"human": "pat"},
+            },
+        }
+    ],
+)
+
+
+@pytest.mark.parametrize(
+    ("figure", "analytic"),
+    [
+        ("burden_s", "burden_s_per_day"),
+        ("interactions", "interactions_per_day"),
+        ("interruptions", "interruptions_per_day"),
+        ("night_interruptions", "night_interruptions_per_day"),
+        ("monitoring_s", "monitoring_s_per_day"),
+    ],
+)
+def test_simulated_means_agree_with_the_analytic_figures(figure, analytic):
+    # Symmetric duration ranges (mean = typical), rates over the whole day: the analytic
+    # figures are exact expectations here, so the means must lie within 4 standard errors.
+    study = read_study(AGREEING)
+    values = simulate(study, "p", days=1500, seed=21).figures["pat"][figure]
+    expected = getattr(analyse_plan(study, "p").people["pat"], analytic)
+    error = values.std(ddof=1) / np.sqrt(values.size)
+    assert abs(values.mean() - expected) <= 4 * error + 1e-9
+
+
+def test_modes_hand_work_over_in_the_share_of_the_day_the_analysis_gives():
+    # A mode map: 'auto' (T4 the pump's) and 'manual' (T4 Pat's), 2 changes a day each
+    # way: half the day in each (the analytic share), so Pat handles about half of T4's 4
+    # a day, within sampling error.
+    document = study_file(
+        tasks=[
+            {
+                "id": "T4",
+                "title": "Routine",
+                "occurs": {"per_day": 4, "when": "any"},
+                "duration_s": 60,
+            }
+        ],
+        plans=[
+            {
+                "id": "p",
+                "name": "Plan",
+                "assignments": {"T4": {"automation": "pump"}},
+                "modes": {
+                    "initial": "auto",
+                    "states": [
+                        {"id": "auto", "name": "Auto"},
+                        {"id": "manual", "name": "Manual", "overrides": {"T4": {"human": "pat"}}},
+                    ],
+                    "transitions": [
+                        {
+                            "from": "auto",
+                            "to": "manual",
+                            "trigger": "x",
+                            "by": "automation",
+                            "cue": "alert",
+                            "per_day": 20,
+                        },
+                        {
+                            "from": "manual",
+                            "to": "auto",
+                            "trigger": "y",
+                            "by": "human",
+                            "cue": "display",
+                            "per_day": 20,
+                        },
+                    ],
+                },
+            }
+        ],
+    )
+    study = read_study(document)
+    values = simulate(study, "p", days=1500, seed=4).figures["pat"]["interactions"]
+    expected = analyse_plan(study, "p").people["pat"].interactions_per_day
+    error = values.std(ddof=1) / np.sqrt(values.size)
+    assert expected == pytest.approx(4 * 0.5, rel=0.05)  # the Markov chain's day average
+    assert abs(values.mean() - expected) <= 4 * error
+    day = day_timeline(study, "p", seed=4, day=0, days=1).to_json()
+    assert day["modes"][0] == [0.0, "auto"] and len(day["modes"]) > 1
+
+
+def test_window_misses_per_chain():
+    # T2 must finish within 150 s of the event; by hand: T1 10-30 s, lag 0-60 s, Pat's
+    # latency 10-50 s awake (60-540 s asleep, a third of the day), T2 30-90 s: the latest
+    # awake finish is 230 s, so some awake chains and most asleep ones miss it.
+    study = read_study(CHAIN)
+    summary = simulate(study, "p", days=300, seed=2).summary()
+    (chain,) = summary["chains"]
+    assert chain["name"] == "Event"
+    assert 0.05 < chain["missed_share"] < 0.95
+    assert chain["tasks"][0]["task"] == "T2"
