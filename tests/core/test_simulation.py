@@ -371,3 +371,38 @@ def test_window_misses_per_chain():
     assert chain["name"] == "Event"
     assert 0.05 < chain["missed_share"] < 0.95
     assert chain["tasks"][0]["task"] == "T2"
+
+
+def test_work_counts_on_the_day_it_starts_even_across_midnight_and_chunks():
+    # An event at 22:00 hands T1 to the pump; T2 (Pat's) follows 4 hours later, at 02:00
+    # the next day. By hand, every day has exactly one T2, at 02:00: the first day's comes
+    # from the day before it, and the first day of the second chunk's from the last day of
+    # the first.
+    study = read_study(
+        study_file(
+            tasks=[
+                {"id": "T1", "title": "Log", "occurs": {"event": "e"}, "duration_s": 10},
+                {"id": "T2", "title": "Review", "duration_s": 60},
+            ],
+            links=[{"from": "T1", "to": "T2", "kind": "precedes", "lag_s": 14400}],
+            events=[{"id": "e", "name": "Evening", "times": ["22:00"]}],
+            plans=[
+                {
+                    "id": "p",
+                    "name": "Plan",
+                    "assignments": {"T1": {"automation": "pump"}, "T2": {"human": "pat"}},
+                }
+            ],
+        )
+    )
+    days = CHUNK_DAYS + 3
+    run = simulate(study, "p", days=days, seed=1)
+    assert run.figures["pat"]["interactions"].tolist() == [1.0] * days
+    first = day_timeline(study, "p", seed=1, day=CHUNK_DAYS, days=days).to_json()
+    segments = first["people"]["pat"]["segments"]
+    # One occurrence of T2, its four stages one after the other (a minute in all).
+    assert [s["task"] for s in segments] == ["T2"] * 4
+    assert segments[-1]["end"] - segments[0]["start"] == pytest.approx(60)
+    # It starts after the pump's 10 s, the 4-hour lag and Pat's latency when the work
+    # changes hands: Pat is asleep at 02:00 (60-540 s).
+    assert 2 * 3600 + 10 + 60 <= segments[0]["start"] <= 2 * 3600 + 10 + 540

@@ -19,6 +19,10 @@ The rules (DESIGN §2, §3.9, §3.10; tool assumptions marked):
   (triangular; asleep or awake as the moment makes it) when the work changes hands or an
   event hands it over;
 - durations are triangular over the task's (or assignment's) min, typical and max;
+- an occurrence counts on the day it starts (a chain started late in the evening may go
+  on after midnight); a chunk also draws the chains started in the days before it, as
+  many as the longest chain can last (at most :data:`MAX_LEAD_DAYS`), so that its first
+  days get the work those chains carry into them;
 - each day starts in the mode map's initial mode at midnight (as the analytic mode shares
   do) and moves by its transition rates, the time in a mode exponential (a continuous-time
   Markov chain); an occurrence takes the assignment in force in the mode it becomes ready
@@ -173,16 +177,22 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
     """Simulate days ``first_day .. first_day + days - 1`` as chunk ``chunk`` of a run."""
     rng = run_generator(seed, 1 + chunk)
     phases = _phases(sim, seed)
-    mode_times, mode_index = _mode_path(sim, rng, first_day, days)
+    # Chains started in the days before the chunk that reach into it are drawn too (from
+    # the chunk's own stream), so that its first days carry their share of them.
+    lead = sim.lead_days
+    opens, closes = first_day * DAY_S, (first_day + days) * DAY_S
+    mode_times, mode_index = _mode_path(sim, rng, first_day - lead, days + lead)
     parts: dict[str, list[np.ndarray]] = {
         key: [] for key in ("task", "variant", "begin", "start", "finish", "duration")
     }
     happenings_count, missed_count = [], []
     window_counts: dict[tuple[int, int], tuple[int, int]] = {}
     for c, chain in enumerate(sim.chains):
-        begin = _happenings(rng, chain, phases[c], first_day, days)
+        begin = _happenings(rng, chain, phases[c], first_day - lead, days + lead)
         count = begin.size
-        happenings_count.append(count)
+        # The chain's own figures count the happenings that start in the chunk.
+        counted = begin >= opens
+        happenings_count.append(int(counted.sum()))
         if count == 0 or not chain.members:
             missed_count.append(0)
             continue
@@ -260,17 +270,22 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
             if k in chain.windowed:
                 late = (done - begin[rows]) > sim.window_s[task]
                 any_missed[rows] |= late
-                window_counts[(c, k)] = (size, int(late.sum()))
+                mine = counted[rows]
+                window_counts[(c, k)] = (int(mine.sum()), int((late & mine).sum()))
             parts["task"].append(np.full(size, task))
             parts["variant"].append(variant)
             parts["begin"].append(begin[rows])
             parts["start"].append(start)
             parts["finish"].append(done)
             parts["duration"].append(took)
-        missed_count.append(int(any_missed.sum()))
+        missed_count.append(int((any_missed & counted).sum()))
     joined = {
         key: (np.concatenate(values) if values else np.zeros(0)) for key, values in parts.items()
     }
+    # An occurrence belongs to the day it starts on; those starting outside the chunk
+    # belong to another chunk's days.
+    inside = (joined["start"] >= opens) & (joined["start"] < closes)
+    joined = {key: values[inside] for key, values in joined.items()}
     task = joined["task"].astype(int)
     variant = joined["variant"].astype(int)
     return ChunkDraw(
@@ -278,7 +293,7 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
         days=days,
         task=task,
         variant=variant,
-        day=(np.floor(joined["begin"] / DAY_S) - first_day).astype(int).clip(0, max(days - 1, 0)),
+        day=(np.floor(joined["start"] / DAY_S) - first_day).astype(int),
         begin=joined["begin"],
         start=joined["start"],
         finish=joined["finish"],

@@ -20,12 +20,15 @@ from ..analysis.involvement import Involvement, involvement
 from ..analysis.modes import assignment_in_mode
 from ..analysis.occurrences import TriggerTiming
 from ..analysis.plan import INTERRUPTING, PlanAnalysis, StudyGraph
-from ..analysis.timeofday import asleep_intervals, awake_intervals, primary_sleeper
+from ..analysis.timeofday import DAY_S, asleep_intervals, awake_intervals, primary_sleeper
 from ..model import Event, Occurs, Study, seconds_of_day
 from ..vocabulary import CHANNELS, STAGES
 
 __all__ = ["ChainPlan", "SimPlan", "TriggerRule", "build_sim_plan"]
 
+#: The most days before a chunk whose chains it draws (chains longer than this lose the
+#: work they would carry into a chunk's first days).
+MAX_LEAD_DAYS = 30
 #: Segment kinds: the four stages, then supervision and monitoring.
 KINDS = (*STAGES, "supervision", "monitoring")
 INITIATORS = ("human", "automation", "event", "schedule")
@@ -92,6 +95,7 @@ class SimPlan:
     asleep: list[list[tuple[float, float]]]  # per agent (empty for automations)
     window_s: np.ndarray  # tasks, nan without
     chains: list[ChainPlan] = field(default_factory=list)
+    lead_days: int = 0
     bin_s: float = 900.0
     occupancy_limit: float = 0.8
     channel_limit: float = 7.0
@@ -286,6 +290,11 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
         channel_limit=float(assumptions["channel_limit"]),
     )
     sim.chains = _chains(study, analysis, graph, index, assumptions["every_days_when"])
+    # How many days the longest chain can run on (its latest finish, from the analysis).
+    longest = max(
+        (timing.finish.high for chain in analysis.chains for timing in chain.tasks), default=0.0
+    )
+    sim.lead_days = min(MAX_LEAD_DAYS, int(np.ceil(max(longest, 0.0) / DAY_S)))
     return sim
 
 

@@ -118,7 +118,8 @@ def summary_text(study: Any, summary: dict[str, Any]) -> str:
     lines = [
         f"{study.title} — plan {plan.id}: {plan.name}",
         f"{summary['days']:,} simulated days, seed {summary['seed']} "
-        f"(typical day {summary['typical_day']}, worst day {summary['worst_day']})",
+        # Days counted from 1, as on the screen.
+        f"(typical day {summary['typical_day'] + 1}, worst day {summary['worst_day'] + 1})",
         "",
     ]
     for human_id, figures in summary["people"].items():
