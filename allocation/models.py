@@ -450,3 +450,220 @@ class SimulationChunk(models.Model):
 
     def __str__(self) -> str:
         return f"{self.run} chunk {self.index}"
+
+
+# -- reviews and submissions (issue 7) --------------------------------------------------
+
+
+class Snapshot(models.Model):
+    """A study frozen as it was: its canonical study file, identified by the SHA-256 of
+    that text. Never changed once stored (``save`` refuses an update)."""
+
+    study = models.ForeignKey(
+        Study, on_delete=models.SET_NULL, null=True, blank=True, related_name="snapshots"
+    )
+    # Kept apart from the study row, so that a snapshot outlives a deleted study.
+    study_key = models.CharField("study id", max_length=64)
+    study_title = models.CharField(max_length=200)
+    title = models.CharField(max_length=200)
+    author = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.SET_NULL,
+        null=True,
+        blank=True,
+        related_name="snapshots",
+    )
+    author_name = models.CharField(max_length=150)
+    created_at = models.DateTimeField(auto_now_add=True)
+    sha256 = models.CharField(max_length=64, db_index=True)
+    # The canonical JSON text itself (not a JSON column: databases may reorder keys).
+    canonical = models.TextField()
+    # Each plan's headline figures when frozen, for differences: {plan id: {figure: value}}.
+    headlines = models.JSONField(default=dict)
+    baton_version = models.CharField(max_length=32)
+
+    class Meta:
+        ordering = ["-created_at", "-pk"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(sha256__regex=r"^[0-9a-f]{64}$"), name="snapshot_hash_hex"
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.study_key}: {self.title} ({self.sha256[:12]})"
+
+    def save(self, *args, **kwargs) -> None:
+        if self.pk is not None and not kwargs.pop("allow_update", False):
+            raise ValueError("a snapshot is never changed once stored")
+        super().save(*args, **kwargs)
+
+
+class AuditSource(models.TextChoices):
+    SCREEN = "screen", "Screen"
+    IMPORT = "import", "Import"
+    COMMAND = "command", "Command"
+    ADMIN = "admin", "Admin"
+    SYSTEM = "system", "System"
+
+
+class AuditEntry(models.Model):
+    """One change to a study: who, when, from where, what, and the values before and
+    after (study-file form). Never changed once stored."""
+
+    study = models.ForeignKey(
+        Study, on_delete=models.SET_NULL, null=True, blank=True, related_name="audit_entries"
+    )
+    study_key = models.CharField("study id", max_length=64)
+    user = models.ForeignKey(
+        settings.AUTH_USER_MODEL,
+        on_delete=models.SET_NULL,
+        null=True,
+        blank=True,
+        related_name="audit_entries",
+    )
+    username = models.CharField(max_length=150, blank=True)
+    at = models.DateTimeField(auto_now_add=True, db_index=True)
+    source = models.CharField(max_length=16, choices=AuditSource.choices)
+    # What was done, e.g. "task.save", "assignment.set", "snapshot.create".
+    action = models.CharField(max_length=64)
+    # What it was done to, in words of the study, e.g. "task T2", "plan auto / task T2".
+    target = models.CharField(max_length=300, blank=True)
+    before = models.JSONField(null=True, blank=True)
+    after = models.JSONField(null=True, blank=True)
+
+    class Meta:
+        ordering = ["-at", "-pk"]
+        verbose_name_plural = "audit entries"
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(source__in=AuditSource.values), name="audit_source_known"
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.at:%Y-%m-%d %H:%M} {self.username} {self.action} {self.target}"
+
+    def save(self, *args, **kwargs) -> None:
+        if self.pk is not None:
+            raise ValueError("an audit entry is never changed once stored")
+        super().save(*args, **kwargs)
+
+
+class ReviewTarget(models.TextChoices):
+    """What a comment or a decision is about."""
+
+    STUDY = "study", "Study"
+    PLAN = "plan", "Plan"
+    TASK = "task", "Task"
+    ASSIGNMENT = "assignment", "Assignment"
+    HANDOVER = "handover", "Handover"
+    FINDING = "finding", "Finding"
+
+
+class Comment(models.Model):
+    """A remark in a review thread about one thing of a study (replies point to the
+    comment they answer)."""
+
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="comments")
+    plan_key = models.CharField("plan id", max_length=64, blank=True)
+    target_kind = models.CharField(max_length=16, choices=ReviewTarget.choices)
+    # The thing's key in the study's words: a task id, "T1>T2" for a handover, a finding's
+    # kind and tasks ("error_state:T2") …
+    target_key = models.CharField(max_length=300, blank=True)
+    parent = models.ForeignKey(
+        "self", on_delete=models.CASCADE, null=True, blank=True, related_name="replies"
+    )
+    author = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+    author_name = models.CharField(max_length=150)
+    body = models.TextField()
+    created_at = models.DateTimeField(auto_now_add=True)
+    resolved = models.BooleanField(default=False)
+
+    class Meta:
+        ordering = ["created_at", "pk"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(target_kind__in=ReviewTarget.values), name="comment_target_known"
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.author_name} on {self.target_kind} {self.target_key}"
+
+
+class DecisionStatus(models.TextChoices):
+    OPEN = "open", "Open"
+    AGREED = "agreed", "Agreed"
+    REJECTED = "rejected", "Rejected"
+    DEFERRED = "deferred", "Deferred"
+
+
+class Decision(models.Model):
+    """An entry of the decision log: what was decided about one thing, why, by whom."""
+
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="decisions")
+    plan_key = models.CharField("plan id", max_length=64, blank=True)
+    target_kind = models.CharField(max_length=16, choices=ReviewTarget.choices)
+    target_key = models.CharField(max_length=300, blank=True)
+    decision = models.TextField()
+    rationale = models.TextField(blank=True)
+    status = models.CharField(
+        max_length=16, choices=DecisionStatus.choices, default=DecisionStatus.OPEN
+    )
+    decided_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+    decided_by_name = models.CharField(max_length=150)
+    created_at = models.DateTimeField(auto_now_add=True)
+    updated_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        ordering = ["-created_at", "-pk"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(target_kind__in=ReviewTarget.values), name="decision_target_known"
+            ),
+            models.CheckConstraint(
+                condition=Q(status__in=DecisionStatus.values), name="decision_status_known"
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.get_status_display()}: {self.decision[:60]}"
+
+
+class WorkloadRating(models.Model):
+    """NASA-TLX ratings of one task under one plan by one participant of a session.
+
+    ``ratings`` maps the six subscales to 0-100; ``weights`` (weighted TLX only) maps them
+    to how often each was chosen in the 15 pairwise comparisons (summing to 15).
+    """
+
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="workload_ratings")
+    plan_key = models.CharField("plan id", max_length=64)
+    task_key = models.CharField("task id", max_length=64)
+    session = models.CharField(max_length=200)
+    # A participant code, never a name.
+    participant = models.CharField(max_length=64)
+    ratings = models.JSONField()
+    weights = models.JSONField(null=True, blank=True)
+    score = models.FloatField()
+    notes = models.TextField(blank=True)
+    recorded_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.SET_NULL, null=True, related_name="+"
+    )
+    created_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["plan_key", "task_key", "created_at", "pk"]
+        constraints = [
+            models.CheckConstraint(
+                condition=Q(score__gte=0, score__lte=100), name="workload_score_range"
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.plan_key}/{self.task_key} {self.participant}: {self.score:.1f}"
