@@ -15,6 +15,7 @@ from typing import Any
 
 import numpy as np
 
+from allocation.core.simulation import FIGURE_WORDS
 from allocation.core.vocabulary import CHANNELS, STAGE_NAMES, STAGES
 
 __all__ = [
@@ -49,18 +50,6 @@ CHANNEL_COLOURS = {
     "cognitive": "#b08a1e",
     "psychomotor": "#8a5a3c",
 }
-#: Each daily figure in words, with its unit, for tables, pickers and axes.
-FIGURE_WORDS = {
-    "burden_s": ("Person time", "s a day"),
-    "monitoring_s": ("of which monitoring", "s a day"),
-    "interactions": ("Interactions", "a day"),
-    "interruptions": ("Interruptions", "a day"),
-    "night_interruptions": ("Night interruptions", "a day"),
-    "peak_occupancy": ("Peak occupancy", "of a bin"),
-    "overload_min": ("Occupancy overload", "min a day"),
-    **{f"peak_{c}": (f"Peak {c} demand", "VACP") for c in CHANNELS},
-    **{f"overload_s_{c}": (f"{c.capitalize()} overload", "s a day") for c in CHANNELS},
-}
 HOURS = {
     "tickvals": [h * 3600 for h in range(0, 25, 3)],
     "ticktext": [f"{h:02d}:00" for h in range(0, 25, 3)],
@@ -74,6 +63,19 @@ def _clock(seconds: float) -> str:
 
 def _time_axis(**extra: Any) -> dict[str, Any]:
     return {"range": [0, 86400], "title": {"text": "time of day"}, **HOURS, **extra}
+
+
+def _limit_line(limit: float) -> dict[str, Any]:
+    """A dashed line across the chart at a limit."""
+    return {
+        "type": "line",
+        "xref": "paper",
+        "x0": 0,
+        "x1": 1,
+        "y0": limit,
+        "y1": limit,
+        "line": {"color": ACCENT, "dash": "dash", "width": 1.5},
+    }
 
 
 def _sleep_shapes(asleep: list[list[float]], rows: str = "paper") -> list[dict[str, Any]]:
@@ -223,17 +225,7 @@ def occupancy_chart(day: dict[str, Any], names: dict[str, str]) -> dict[str, Any
             }
         )
         shapes += _sleep_shapes(figures["asleep"])
-    shapes.append(
-        {
-            "type": "line",
-            "xref": "paper",
-            "x0": 0,
-            "x1": 1,
-            "y0": limit,
-            "y1": limit,
-            "line": {"color": ACCENT, "dash": "dash", "width": 1.5},
-        }
-    )
+    shapes.append(_limit_line(limit))
     return {
         "data": data,
         "layout": {
@@ -285,17 +277,7 @@ def channel_chart(day: dict[str, Any], person: str) -> dict[str, Any]:
             }
         )
     shapes = _sleep_shapes(figures["asleep"])
-    shapes.append(
-        {
-            "type": "line",
-            "xref": "paper",
-            "x0": 0,
-            "x1": 1,
-            "y0": limit,
-            "y1": limit,
-            "line": {"color": ACCENT, "dash": "dash", "width": 1.5},
-        }
-    )
+    shapes.append(_limit_line(limit))
     return {
         "data": data,
         "layout": {

@@ -496,7 +496,7 @@ def test_simulate_prints_a_table_per_person_and_the_chains(heating_document, tmp
     assert "Home heating schedule — plan auto" in output
     assert "30 simulated days, seed 4" in output
     assert "Resident (per day)" in output
-    row = next(line for line in output.splitlines() if line.startswith("person time, s/day"))
+    row = next(line for line in output.splitlines() if line.startswith("Person time, s a day"))
     assert row.split()[-3:] == [f"{burden[k]:.0f}" for k in ("mean", "p50", "p95")]
     assert "Leave home" in output and "missed" in output
     words = " ".join(output.split())  # the method note and cautions are wrapped

@@ -24,6 +24,7 @@ from ..errors import BatonError
 from ..model import Study
 from .engine import draw_chunk
 from .results import (
+    FIGURE_WORDS,
     FIGURES,
     DayTimeline,
     Simulation,
@@ -37,6 +38,7 @@ from .tables import KINDS, SimPlan, build_sim_plan
 __all__ = [
     "CHUNK_DAYS",
     "FIGURES",
+    "FIGURE_WORDS",
     "KINDS",
     "DayTimeline",
     "Simulation",

@@ -25,6 +25,7 @@ from .timeline import Sweep, bin_edges
 
 __all__ = [
     "FIGURES",
+    "FIGURE_WORDS",
     "DayTimeline",
     "Simulation",
     "SimulationChunk",
@@ -44,6 +45,18 @@ FIGURES = (
     *(f"peak_{channel}" for channel in CHANNELS),
     *(f"overload_s_{channel}" for channel in CHANNELS),
 )
+#: Each daily figure in words, with its unit, for tables, pickers, axes and reports.
+FIGURE_WORDS = {
+    "burden_s": ("Person time", "s a day"),
+    "monitoring_s": ("of which monitoring", "s a day"),
+    "interactions": ("Interactions", "a day"),
+    "interruptions": ("Interruptions", "a day"),
+    "night_interruptions": ("Night interruptions", "a day"),
+    "peak_occupancy": ("Peak occupancy", "share of a bin"),
+    "overload_min": ("Occupancy overload", "min a day"),
+    **{f"peak_{c}": (f"Peak {c} demand", "VACP sum") for c in CHANNELS},
+    **{f"overload_s_{c}": (f"{c.capitalize()} overload", "s a day") for c in CHANNELS},
+}
 
 
 def _per_day(day: np.ndarray, weights: np.ndarray, days: int) -> np.ndarray:

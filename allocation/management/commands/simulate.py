@@ -20,21 +20,25 @@ from django.core.management.base import BaseCommand, CommandError
 from allocation import services
 from allocation.core.cautions import CAUTIONS
 from allocation.core.simulation import CHUNK_DAYS, FIGURES, simulate
+from allocation.core.simulation import FIGURE_WORDS as SCREEN_WORDS
 from allocation.core.vocabulary import CHANNELS
 
 from ._study import problem_lines, study_result_from_reference
 
-#: Each figure's words and how to show it: ``(words, format)``.
+#: How each figure is shown: its words and unit (as on the screen) and a format.
+FORMATS = {
+    "burden_s": "{:.0f}",
+    "monitoring_s": "{:.0f}",
+    "interactions": "{:.2f}",
+    "interruptions": "{:.2f}",
+    "night_interruptions": "{:.2f}",
+    "peak_occupancy": "{:.2f}",
+    "overload_min": "{:.1f}",
+    **{f"peak_{c}": "{:.1f}" for c in CHANNELS},
+    **{f"overload_s_{c}": "{:.0f}" for c in CHANNELS},
+}
 FIGURE_WORDS: dict[str, tuple[str, str]] = {
-    "burden_s": ("person time, s/day", "{:.0f}"),
-    "monitoring_s": ("of it monitoring, s/day", "{:.0f}"),
-    "interactions": ("interactions/day", "{:.2f}"),
-    "interruptions": ("interruptions/day", "{:.2f}"),
-    "night_interruptions": ("night interruptions/day", "{:.2f}"),
-    "peak_occupancy": ("peak occupancy (share of a bin)", "{:.2f}"),
-    "overload_min": ("minutes in overloaded bins/day", "{:.1f}"),
-    **{f"peak_{c}": (f"peak {c} demand (VACP sum)", "{:.1f}") for c in CHANNELS},
-    **{f"overload_s_{c}": (f"{c} overload, s/day", "{:.0f}") for c in CHANNELS},
+    name: (f"{label}, {unit}", FORMATS[name]) for name, (label, unit) in SCREEN_WORDS.items()
 }
 
 METHOD = (
