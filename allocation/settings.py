@@ -66,6 +66,7 @@ MIDDLEWARE = [
     "django.contrib.messages.middleware.MessageMiddleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "django_htmx.middleware.HtmxMiddleware",
+    "allocation.middleware.AuditActorMiddleware",
 ]
 
 # Background work (simulation runs) goes through Django's tasks API; the database backend

@@ -10,8 +10,16 @@ from .editing import *  # noqa: F403 - every edit, listed in editing.__all__
 from .editing import __all__ as _editing
 from .modemaps import *  # noqa: F403 - every mode-map edit, listed in modemaps.__all__
 from .modemaps import __all__ as _modemaps
+from .ratings import *  # noqa: F403 - workload ratings, listed in ratings.__all__
+from .ratings import __all__ as _ratings
+from .reviews import *  # noqa: F403 - comments and decisions, listed in reviews.__all__
+from .reviews import __all__ as _reviews
 from .simulations import *  # noqa: F403 - runs and their limits, in simulations.__all__
 from .simulations import __all__ as _simulations
+from .snapshots import *  # noqa: F403 - freeze, restore, verify, in snapshots.__all__
+from .snapshots import __all__ as _snapshots
+from .spreadsheet_import import *  # noqa: F403 - preview and apply, in spreadsheet_import.__all__
+from .spreadsheet_import import __all__ as _spreadsheet_import
 from .studies import (
     LOCAL_USERNAME,
     examples_load,
@@ -24,7 +32,11 @@ __all__ = [
     *_assumptions,
     *_editing,
     *_modemaps,
+    *_ratings,
+    *_reviews,
     *_simulations,
+    *_snapshots,
+    *_spreadsheet_import,
     "LOCAL_USERNAME",
     "examples_load",
     "local_user_ensure",

@@ -17,8 +17,8 @@ from django.contrib.auth.models import AbstractBaseUser
 from django.core.exceptions import PermissionDenied
 from django.db import transaction
 
+from allocation import audit, selectors
 from allocation import models as m
-from allocation import selectors
 from allocation.core import Problem, StudyInvalid, load_study
 from allocation.core.assumptions import ASSUMPTIONS, check_assumptions
 from allocation.core.reading import child_path, parse_json_text
@@ -83,10 +83,17 @@ def _locked(study: m.Study) -> m.Study:
     return m.Study.objects.select_for_update().get(pk=study.pk)
 
 
-def _save(row: m.Study, field: str, value: Any) -> m.Study:
+def _save(row: m.Study, field: str, value: Any, action: str, target: str) -> m.Study:
+    before = selectors.study_document(row)
+    header = {name: v for name, v in before["study"].items() if name != field}
+    if value not in (None, ""):
+        header[field] = value
     setattr(row, field, value)
     row.full_clean()
     row.save(update_fields=[field, "updated_at"])
+    audit.record_change(
+        study=row, action=action, target=target, before=before, after={**before, "study": header}
+    )
     return row
 
 
@@ -113,7 +120,7 @@ def study_assumption_set(
         problems = _new_errors(row, "assumptions", assumptions)
         if problems:
             raise StudyInvalid(problems)
-        return _save(row, "assumptions", assumptions)
+        return _save(row, "assumptions", assumptions, "assumption.set", f"assumption {key}")
 
 
 def study_assumption_reset(*, study: m.Study, key: str, user: AbstractBaseUser) -> m.Study:
@@ -127,7 +134,7 @@ def study_assumption_reset(*, study: m.Study, key: str, user: AbstractBaseUser) 
         problems = _new_errors(row, "assumptions", assumptions)
         if problems:
             raise StudyInvalid(problems)
-        return _save(row, "assumptions", assumptions)
+        return _save(row, "assumptions", assumptions, "assumption.reset", f"assumption {key}")
 
 
 def study_risk_policy_set(
@@ -157,7 +164,7 @@ def study_risk_policy_set(
         problems = _new_errors(row, "risk_policy", policy)
         if problems:
             raise StudyInvalid(problems)
-        return _save(row, "risk_policy", policy)
+        return _save(row, "risk_policy", policy, "risk_policy.set", "risk policy")
 
 
 def study_risk_policy_reset(*, study: m.Study, user: AbstractBaseUser) -> m.Study:
@@ -167,4 +174,4 @@ def study_risk_policy_reset(*, study: m.Study, user: AbstractBaseUser) -> m.Stud
         row = _locked(study)
         if not row.risk_policy:
             return row
-        return _save(row, "risk_policy", {})
+        return _save(row, "risk_policy", {}, "risk_policy.reset", "risk policy")

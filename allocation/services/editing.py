@@ -18,8 +18,8 @@ from django.contrib.auth.models import AbstractBaseUser
 from django.db import transaction
 from django.db.models import Max
 
+from allocation import audit, selectors
 from allocation import models as m
-from allocation import selectors
 from allocation.core import Problem, StudyInvalid, load_study
 from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
 
@@ -71,7 +71,38 @@ def _checked(study: m.Study, mutate: Callable[[Document], None]) -> Document:
     if added:
         raise StudyInvalid(added)
     study._checked_after = (after, result)
+    study._audit_change = (before, after)
     return after
+
+
+def _unchecked(study: m.Study, mutate: Callable[[Document], None]) -> Document:
+    """The study's document with ``mutate`` applied, unchecked: for the deletions that
+    are written without a check, so that the audit trail still sees what they removed."""
+    before = selectors.study_document(study)
+    after = copy.deepcopy(before)
+    mutate(after)
+    study._audit_change = (before, after)
+    return after
+
+
+def _recorded(study: m.Study, action: str, target: str) -> None:
+    """Record the change :func:`_checked` (or :func:`_unchecked`) saw, in the audit
+    trail, inside the caller's transaction; only the parts that differ are kept."""
+    before, after = study._audit_change
+    audit.record_change(
+        study=study, action=action, target=target[:300], before=before, after=after
+    )
+
+
+def _named(kind: str, key: str | None, new: str) -> str:
+    """An item in words for the audit trail, saying so when its id changed."""
+    if key is None or key == new:
+        return f"{kind} {new}"
+    return f"{kind} {key} (now {new})"
+
+
+def _link_named(link: dict[str, Any]) -> str:
+    return f"link {link['from']} {link['kind']} {link['to']}"
 
 
 def _locked(study: m.Study) -> m.Study:
@@ -155,7 +186,7 @@ def study_new(*, owner: AbstractBaseUser, key: str, title: str, scale: str) -> m
     result = load_study(document)
     if not result.ok:
         raise StudyInvalid(result.errors)
-    return study_create(study=result.study, owner=owner)
+    return study_create(study=result.study, owner=owner, action="study.create")
 
 
 @transaction.atomic
@@ -175,6 +206,7 @@ def study_header_save(*, study: m.Study, item: dict[str, Any]) -> m.Study:
     for name, value in rows.header_values(document["study"]).items():
         setattr(study, name, value)
     study.save()
+    _recorded(study, "study.save", "study header")
     selectors.study_remember(study, *study._checked_after)
     return study
 
@@ -202,6 +234,7 @@ def agent_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Ag
     _checked(study, mutate)
     agent = _upsert(study.agents, key, rows.agent_values(item), study=study)
     agent.save()
+    _recorded(study, "agent.save", _named("agent", key, item["id"]))
     _touch(study)
     return agent
 
@@ -260,6 +293,7 @@ def agent_delete(*, study: m.Study, key: str) -> None:
         scope.filter(human=agent).update(human=None, levels=None)
         scope.filter(automation=agent).update(automation=None, levels=None)
     agent.delete()
+    _recorded(study, "agent.delete", f"agent {key}")
     _touch(study)
 
 
@@ -287,6 +321,7 @@ def event_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Ev
             task.occurs = {**task.occurs, "event": item["id"]}
             task.save(update_fields=["occurs"])
     event.save()
+    _recorded(study, "event.save", _named("event", key, item["id"]))
     _touch(study)
     return event
 
@@ -316,6 +351,7 @@ def event_delete(*, study: m.Study, key: str) -> None:
     _checked(study, mutate)
     study.tasks.filter(occurs__event=key).update(occurs=None)
     study.events.filter(key=key).delete()
+    _recorded(study, "event.delete", f"event {key}")
     _touch(study)
 
 
@@ -366,6 +402,7 @@ def task_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Tas
     task = _upsert(study.tasks, key, rows.task_values(item), study=study)
     task.parent = study.tasks.get(key=item["parent"]) if "parent" in item else None
     task.save()
+    _recorded(study, "task.save", _named("task", key, item["id"]))
     _touch(study)
     return task
 
@@ -415,6 +452,7 @@ def task_delete(*, study: m.Study, key: str) -> None:
     _checked(study, mutate)
     # Children first, so that no parent disappears before the rows that point at it.
     study.tasks.filter(key__in=doomed).delete()
+    _recorded(study, "task.delete", f"task {key}")
     _touch(study)
 
 
@@ -449,6 +487,7 @@ def link_save(*, study: m.Study, pk: int | None, item: dict[str, Any]) -> m.Link
         for name, value in values.items():
             setattr(link, name, value)
     link.save()
+    _recorded(study, "link.save", _link_named(item))
     _touch(study)
     return link
 
@@ -456,9 +495,14 @@ def link_save(*, study: m.Study, pk: int | None, item: dict[str, Any]) -> m.Link
 @transaction.atomic
 def link_delete(*, study: m.Study, pk: int) -> None:
     study = _locked(study)
-    deleted, _ = study.links.filter(pk=pk).delete()
-    if not deleted:
+    links = _link_rows(study)
+    index = next((i for i, link in enumerate(links) if link.pk == pk), None)
+    if index is None:
         raise StudyInvalid([Problem("$.links", "the link is no longer in the study")])
+    _unchecked(study, lambda document: document["links"].pop(index))
+    removed = study._audit_change[0]["links"][index]
+    links[index].delete()
+    _recorded(study, "link.delete", _link_named(removed))
     _touch(study)
 
 
@@ -495,6 +539,7 @@ def plan_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Pla
         plan.key, plan.name = item["id"], item["name"]
         plan.description = item.get("description", "")
     plan.save()
+    _recorded(study, "plan.save", _named("plan", key, item["id"]))
     _touch(study)
     return plan
 
@@ -518,6 +563,7 @@ def plan_copy(*, study: m.Study, key: str, new_key: str, new_name: str) -> m.Pla
         agents=_agents(study),
         tasks=_tasks(study),
     )
+    _recorded(study, "plan.copy", f"plan {new_key} (copy of {key})")
     _touch(study)
     return plan
 
@@ -525,7 +571,13 @@ def plan_copy(*, study: m.Study, key: str, new_key: str, new_name: str) -> m.Pla
 @transaction.atomic
 def plan_delete(*, study: m.Study, key: str) -> None:
     study = _locked(study)
+
+    def mutate(document: Document) -> None:
+        document["plans"] = [plan for plan in document["plans"] if plan["id"] != key]
+
+    _unchecked(study, mutate)
     study.plans.filter(key=key).delete()
+    _recorded(study, "plan.delete", f"plan {key}")
     _touch(study)
 
 
@@ -547,9 +599,11 @@ def assignment_set(
     plan = study.plans.get(key=plan_key)
     task = study.tasks.get(key=task_key)
     existing = plan.assignments.filter(task=task).first()
+    target = f"plan {plan_key} / task {task_key}"
     if item is None:
         if existing is not None:
             existing.delete()
+        _recorded(study, "assignment.delete", target)
         _touch(study)
         return None
     values = rows.assignment_values(item, _agents(study))
@@ -558,6 +612,7 @@ def assignment_set(
     for name, value in values.items():
         setattr(existing, name, value)
     existing.save()
+    _recorded(study, "assignment.set", target)
     _touch(study)
     return existing
 
@@ -596,5 +651,6 @@ def assignments_bulk_set(
         ).items():
             setattr(row, name, value)
         row.save()
+    _recorded(study, "assignment.bulk_set", f"plan {plan_key} / tasks {', '.join(changed)}")
     _touch(study)
     return changed

@@ -20,7 +20,17 @@ from allocation import models as m
 from allocation import selectors
 from allocation.core import Problem, StudyInvalid
 
-from .editing import Consequence, Document, _agents, _checked, _index, _locked, _tasks, _touch
+from .editing import (
+    Consequence,
+    Document,
+    _agents,
+    _checked,
+    _index,
+    _locked,
+    _recorded,
+    _tasks,
+    _touch,
+)
 from .studies import modes_create
 
 __all__ = [
@@ -41,9 +51,16 @@ def _plan_path(document: Document, plan_key: str) -> str:
     return f"$.plans[{_index(document['plans'], plan_key)}].modes"
 
 
-def _edit(study: m.Study, plan_key: str, change: Callable[[Modes | None, str], Modes | None]):
+def _edit(
+    study: m.Study,
+    plan_key: str,
+    change: Callable[[Modes | None, str], Modes | None],
+    action: str,
+    target: str,
+):
     """Apply ``change`` to a plan's mode map (``None`` when it has none; the JSON path of
-    the map is passed for messages) and write the result, if it adds no error."""
+    the map is passed for messages) and write the result, if it adds no error; the audit
+    trail records it as ``action`` on ``target`` (words after the plan's)."""
     study = _locked(study)
 
     def mutate(document: Document) -> None:
@@ -65,6 +82,7 @@ def _edit(study: m.Study, plan_key: str, change: Callable[[Modes | None, str], M
     plan_row.save(update_fields=["initial_mode"])
     if modes:
         modes_create(plan_row=plan_row, modes=modes, agents=_agents(study), tasks=_tasks(study))
+    _recorded(study, action, f"plan {plan_key} / {target}")
     _touch(study)
 
 
@@ -112,7 +130,7 @@ def mode_save(*, study: m.Study, plan_key: str, key: str | None, item: dict[str,
                         t[end] = new
         return modes
 
-    _edit(study, plan_key, change)
+    _edit(study, plan_key, change, "mode.save", f"mode {key or item['id']}")
 
 
 def mode_delete_consequences(*, study: m.Study, plan_key: str, key: str) -> list[Consequence]:
@@ -154,7 +172,7 @@ def mode_delete(*, study: m.Study, plan_key: str, key: str) -> None:
         modes["transitions"] = [t for t in modes["transitions"] if key not in (t["from"], t["to"])]
         return modes
 
-    _edit(study, plan_key, change)
+    _edit(study, plan_key, change, "mode.delete", f"mode {key}")
 
 
 @transaction.atomic
@@ -165,13 +183,13 @@ def mode_initial_set(*, study: m.Study, plan_key: str, key: str) -> None:
         _mode_index(modes, key, path)
         return {**modes, "initial": key}
 
-    _edit(study, plan_key, change)
+    _edit(study, plan_key, change, "mode.initial", f"mode {key}")
 
 
 @transaction.atomic
 def mode_map_delete(*, study: m.Study, plan_key: str) -> None:
     """Remove a plan's whole mode map."""
-    _edit(study, plan_key, lambda modes, path: None)
+    _edit(study, plan_key, lambda modes, path: None, "modes.delete", "mode map")
 
 
 @transaction.atomic
@@ -196,7 +214,8 @@ def mode_override_set(
             overrides[task_key] = item
         return modes
 
-    _edit(study, plan_key, change)
+    action = "override.delete" if item is None else "override.set"
+    _edit(study, plan_key, change, action, f"mode {mode_key} / task {task_key}")
 
 
 def _transition_index(modes: Modes | None, index: int, expected: dict | None, path: str) -> int:
@@ -237,7 +256,8 @@ def transition_save(
             modes["transitions"][_transition_index(modes, index, expected, path)] = item
         return modes
 
-    _edit(study, plan_key, change)
+    target = f"transition {item.get('from')} → {item.get('to')} on {item.get('trigger')!r}"
+    _edit(study, plan_key, change, "transition.save", target)
 
 
 @transaction.atomic
@@ -252,4 +272,9 @@ def transition_delete(
         modes["transitions"].pop(_transition_index(modes, index, expected, path))
         return modes
 
-    _edit(study, plan_key, change)
+    target = (
+        f"transition {expected.get('from')} → {expected.get('to')} on {expected.get('trigger')!r}"
+        if expected
+        else f"transition number {index + 1}"
+    )
+    _edit(study, plan_key, change, "transition.delete", target)

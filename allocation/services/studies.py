@@ -14,6 +14,7 @@ from typing import Any
 from django.contrib.auth.models import AbstractBaseUser
 from django.db import transaction
 
+from allocation import audit
 from allocation import models as m
 from allocation.core import StudyInvalid, load_study, study_to_json
 from allocation.core.model import Study
@@ -32,12 +33,18 @@ def study_import(*, data: Any, owner: AbstractBaseUser) -> m.Study:
     result = load_study(data)
     if not result.ok:
         raise StudyInvalid(result.problems)
-    return study_create(study=result.study, owner=owner)
+    return study_create(study=result.study, owner=owner, action="study.import")
 
 
 @transaction.atomic
-def study_create(*, study: Study, owner: AbstractBaseUser) -> m.Study:
-    """Write a checked core study as rows, with ``owner`` as its owner."""
+def study_create(
+    *, study: Study, owner: AbstractBaseUser, action: str = "study.create"
+) -> m.Study:
+    """Write a checked core study as rows, with ``owner`` as its owner.
+
+    The audit trail records ``action`` (``study.import`` for a study file) with the
+    whole study file as its "after".
+    """
     document = study_to_json(study)
     row = m.Study(**rows.header_values(document["study"]))
     row.full_clean()
@@ -78,6 +85,7 @@ def study_create(*, study: Study, owner: AbstractBaseUser) -> m.Study:
     )
     for index, item in enumerate(document["plans"]):
         plan_create(study_row=row, item=item, position=index, agents=agents, tasks=tasks)
+    audit.record(study=row, action=action, target=f"study {row.key}", after=document)
     return row
 
 

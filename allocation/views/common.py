@@ -22,6 +22,10 @@ STUDY_TABS = (
     ("Dashboards", "plan-dashboard", True),
     ("Simulation", "plan-simulation", True),
     ("Compare", "study-compare", False),
+    ("Workload ratings", "plan-ratings", True),
+    ("Review", "plan-review", True),
+    ("Snapshots", "study-snapshots", False),
+    ("History", "study-history", False),
     ("Assumptions", "study-assumptions", False),
 )
 

@@ -13,7 +13,8 @@ from django.utils.text import slugify
 from django.views.decorators.http import require_GET, require_POST
 from django_htmx.http import HttpResponseClientRedirect
 
-from allocation import selectors, services
+from allocation import audit, selectors, services
+from allocation import models as m
 from allocation.core import Problem, StudyInvalid
 from allocation.core.describe import (
     duration_text,
@@ -42,7 +43,8 @@ def study_upload(request: HttpRequest) -> HttpResponse:
         data, problems = parse_json_text(upload.read())
     if not problems:
         try:
-            study = services.study_import(data=data, owner=request.user)
+            with audit.acting(request.user, m.AuditSource.IMPORT):
+                study = services.study_import(data=data, owner=request.user)
         except StudyInvalid as error:
             problems = error.problems
     if problems:
@@ -107,6 +109,10 @@ def _json_attachment(payload: object, filename: str) -> HttpResponse:
 @login_required
 def study_download(request: HttpRequest, pk: int) -> HttpResponse:
     study_row = selectors.study_for_user(user=request.user, pk=pk)
+    if request.GET.get("snapshot"):
+        from allocation.views.exports import snapshot_study_download
+
+        return snapshot_study_download(request, study_row)
     filename = f"{slugify(study_row.key) or 'study'}.baton.json"
     return _json_attachment(selectors.study_document(study_row), filename)
 

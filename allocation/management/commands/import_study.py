@@ -6,7 +6,8 @@ from pathlib import Path
 
 from django.core.management.base import BaseCommand, CommandError
 
-from allocation import services
+from allocation import audit, services
+from allocation import models as m
 from allocation.core import StudyInvalid, load_study_text
 
 from ._study import owner_from_option, problem_lines
@@ -32,7 +33,11 @@ class Command(BaseCommand):
             )
         user = owner_from_option(owner)
         try:
-            study = services.study_create(study=result.study, owner=user)
+            # The owner is who the trail names: a command has no signed-in user.
+            with audit.acting(user, m.AuditSource.COMMAND):
+                study = services.study_create(
+                    study=result.study, owner=user, action="study.import"
+                )
         except StudyInvalid as error:  # pragma: no cover - checked above
             raise CommandError(problem_lines(error.problems)) from None
         if result.warnings:

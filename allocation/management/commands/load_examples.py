@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from django.core.management.base import BaseCommand
 
-from allocation import services
+from allocation import audit, services
+from allocation import models as m
 
 from ._study import owner_from_option
 
@@ -17,6 +18,9 @@ class Command(BaseCommand):
 
     def handle(self, *args, owner: str | None, **options) -> None:
         user = owner_from_option(owner)
-        for key, imported in services.examples_load(owner=user):
+        # The owner is who the trail names: a command has no signed-in user.
+        with audit.acting(user, m.AuditSource.COMMAND):
+            loaded = services.examples_load(owner=user)
+        for key, imported in loaded:
             state = "imported" if imported else "already there"
             self.stdout.write(f"{key}: {state}")

@@ -15,8 +15,8 @@ from django.core.management.base import BaseCommand
 from django_tasks import task_backends
 from django_tasks_db import DatabaseBackend
 
+from allocation import audit, services
 from allocation import models as m
-from allocation import services
 
 #: How long the worker may take to finish the chunk it is simulating when stopped.
 WORKER_STOP_S = 10
@@ -43,7 +43,9 @@ class Command(BaseCommand):
         call_command("migrate", verbosity=0, interactive=False)
         user, password = services.local_user_ensure(data_dir=Path(settings.DATA_DIR))
         if not m.Study.objects.exists():
-            for key, _imported in services.examples_load(owner=user):
+            with audit.acting(user, m.AuditSource.COMMAND):
+                loaded = services.examples_load(owner=user)
+            for key, _imported in loaded:
                 self.stdout.write(f"Loaded the example study {key!r}.")
         address = f"http://127.0.0.1:{port}/"
         self.stdout.write(

@@ -1,0 +1,358 @@
+"""The tables of an export, one per sheet of the spreadsheet layout, as pandas DataFrames.
+
+The ``allocation`` table has one row per leaf task in task-file order; its assignment
+columns are the study file's own values (what an import reads back), its figure columns
+the plan's analysis in its normal mode (DESIGN §3). Figures are rounded as the layout
+says: degrees to 4 decimals, occurrences per day 4, person seconds per day 2, awareness 3.
+"""
+
+from __future__ import annotations
+
+import json
+from typing import Any
+
+import pandas as pd
+
+from allocation.core.analysis.report import METHODS
+from allocation.core.assumptions import assumption_table
+from allocation.core.cautions import CAUTIONS
+from allocation.core.scales import level_text
+from allocation.core.vocabulary import STAGES
+
+from .source import ExportSource
+
+__all__ = [
+    "ALLOCATION_COLUMNS",
+    "SHEETS",
+    "allocation_rows",
+    "allocation_table",
+    "assumptions_table",
+    "compact_json",
+    "findings_table",
+    "handovers_table",
+    "links_table",
+    "methods_table",
+    "sheet_tables",
+    "tasks_table",
+    "workload_table",
+]
+
+ALLOCATION_COLUMNS = (
+    "task",
+    "goal",
+    "title",
+    "category",
+    "human",
+    "automation",
+    "levels",
+    "level_words",
+    "degree_acquisition",
+    "degree_analysis",
+    "degree_decision",
+    "degree_action",
+    "accountable",
+    "feedback",
+    "initiator",
+    "rationale",
+    "status",
+    "applies",
+    "occurrences_per_day",
+    "person_s_per_day",
+    "awareness",
+    "handovers",
+    "findings",
+)
+TASK_COLUMNS = (
+    "id",
+    "parent",
+    "title",
+    "occurs",
+    "duration_s",
+    "window_s",
+    "severity",
+    "demands",
+    "split",
+    "needs",
+    "notes",
+)
+LINK_COLUMNS = ("from", "to", "kind", "lag_s", "probability", "notes")
+HANDOVER_COLUMNS = (
+    "source",
+    "from_task",
+    "to_task",
+    "from_agent",
+    "to_agent",
+    "stage",
+    "modes",
+    "trigger",
+    "per_day",
+    "time_ratio",
+    "likelihood",
+    "likelihood_band",
+    "severity",
+    "risk",
+    "band",
+    "cue",
+    "initiator",
+)
+FINDING_COLUMNS = ("kind", "severity", "tasks", "modes", "events", "agents", "message")
+ASSUMPTION_COLUMNS = ("key", "value", "default", "status", "source")
+METHOD_COLUMNS = ("name", "source")
+#: The NASA-TLX subscales in the order of Hart & Staveland (1988); other keys follow.
+TLX_ORDER = ("mental", "physical", "temporal", "performance", "effort", "frustration")
+WORKLOAD_HEAD = ("task", "session", "participant", "kind")
+WORKLOAD_TAIL = (
+    "score",
+    "notes",
+    "predicted_category",
+    "predicted_occurrences_per_day",
+    "predicted_person_s_per_day",
+    "predicted_awareness",
+)
+
+#: The workbook's sheets, in order (the ``about`` and ``cautions`` sheets included).
+SHEETS = (
+    "about",
+    "allocation",
+    "tasks",
+    "links",
+    "handovers",
+    "findings",
+    "workload",
+    "assumptions",
+    "methods",
+    "cautions",
+)
+
+
+def compact_json(value: Any) -> str:
+    """A value as compact JSON text (``[2,5,30]``); empty for ``None``."""
+    if value is None:
+        return ""
+    return json.dumps(value, separators=(",", ":"), ensure_ascii=False, sort_keys=False)
+
+
+def _levels(scale: str, levels: int | dict[str, int] | None) -> tuple[str, str]:
+    """The levels cell and the level-words cell of an assignment."""
+    if levels is None:
+        return "", ""
+    if isinstance(levels, dict):
+        cells = [f"{stage} {int(levels[stage])}" for stage in STAGES if stage in levels]
+        words = [level_text(scale, int(levels[stage])) for stage in STAGES if stage in levels]
+        return "; ".join(cells), "; ".join(words)
+    return str(int(levels)), level_text(scale, int(levels))
+
+
+def _category(figures) -> str:
+    assignment = figures.involved.assignment
+    if assignment is not None and not assignment.is_applicable:
+        return "not_applicable"
+    return figures.involved.category
+
+
+def allocation_rows(source: ExportSource) -> list[dict[str, Any]]:
+    """One dict per leaf task, keys :data:`ALLOCATION_COLUMNS`, in task-file order."""
+    result = source.analysis
+    study = result.study
+    handovers: dict[str, int] = {}
+    for handover in result.handovers:
+        for task_id in {handover.site.from_task, handover.site.to_task}:
+            handovers[task_id] = handovers.get(task_id, 0) + 1
+    findings: dict[str, int] = {}
+    for finding in result.findings:
+        for task_id in set(finding.tasks):
+            findings[task_id] = findings.get(task_id, 0) + 1
+    rows = []
+    for task in study.leaves:
+        figures = result.tasks[task.id]
+        assignment = result.plan.assignments.get(task.id)
+        degrees = figures.involved.degrees
+        levels, words = _levels(study.scale, assignment.levels if assignment else None)
+        aware = figures.awareness
+        row = {
+            "task": task.id,
+            "goal": task.parent or "",
+            "title": task.title,
+            "category": _category(figures),
+            "human": (assignment and assignment.human) or "",
+            "automation": (assignment and assignment.automation) or "",
+            "levels": levels,
+            "level_words": words,
+            **{f"degree_{stage}": round(float(degrees[stage]), 4) for stage in STAGES},
+            "accountable": (assignment and assignment.accountable) or "",
+            "feedback": (assignment and assignment.feedback) or "",
+            "initiator": (assignment and assignment.initiator) or "",
+            "rationale": (assignment and assignment.rationale) or "",
+            "status": (assignment and assignment.status) or "",
+            "applies": "no" if assignment is not None and not assignment.is_applicable else "yes",
+            "occurrences_per_day": round(float(figures.per_day), 4),
+            "person_s_per_day": round(float(sum(figures.person_s_per_day.values())), 2),
+            "awareness": None if aware is None else round(float(aware.index), 3),
+            "handovers": handovers.get(task.id, 0),
+            "findings": findings.get(task.id, 0),
+        }
+        rows.append(row)
+    return rows
+
+
+def _frame(rows: list[dict[str, Any]], columns: tuple[str, ...]) -> pd.DataFrame:
+    return pd.DataFrame(rows, columns=list(columns))
+
+
+def allocation_table(source: ExportSource) -> pd.DataFrame:
+    """The allocation table: the ``allocation`` sheet and the CSV export."""
+    frame = _frame(allocation_rows(source), ALLOCATION_COLUMNS)
+    # Awareness stays a number column even when no task has one (empty cells).
+    frame["awareness"] = frame["awareness"].astype("float64")
+    return frame
+
+
+def tasks_table(source: ExportSource) -> pd.DataFrame:
+    """Goals and tasks as the study file gives them, JSON-valued keys as compact JSON."""
+    rows = []
+    for task in source.document.get("tasks", []):
+        rows.append(
+            {
+                "id": task["id"],
+                "parent": task.get("parent", ""),
+                "title": task.get("title", ""),
+                "occurs": compact_json(task.get("occurs")),
+                "duration_s": compact_json(task.get("duration_s")),
+                "window_s": task.get("window_s"),
+                "severity": task.get("severity"),
+                "demands": compact_json(task.get("demands")),
+                "split": compact_json(task.get("split")),
+                "needs": ",".join(task.get("needs") or ()),
+                "notes": task.get("notes", ""),
+            }
+        )
+    return _frame(rows, TASK_COLUMNS)
+
+
+def links_table(source: ExportSource) -> pd.DataFrame:
+    rows = [
+        {
+            "from": link["from"],
+            "to": link["to"],
+            "kind": link["kind"],
+            "lag_s": compact_json(link.get("lag_s")),
+            "probability": link.get("probability"),
+            "notes": link.get("notes", ""),
+        }
+        for link in source.document.get("links", [])
+    ]
+    return _frame(rows, LINK_COLUMNS)
+
+
+def handovers_table(source: ExportSource) -> pd.DataFrame:
+    """Every handover, riskiest first (the analysis's order)."""
+    rows = []
+    for handover in source.analysis.handovers:
+        site = handover.site
+        rows.append(
+            {
+                "source": site.source,
+                "from_task": site.from_task,
+                "to_task": site.to_task,
+                "from_agent": site.from_agent or "",
+                "to_agent": site.to_agent or "",
+                "stage": site.stage or "",
+                "modes": " -> ".join(site.modes),
+                "trigger": site.trigger or "",
+                "per_day": round(float(site.per_day), 4),
+                "time_ratio": None
+                if handover.time_ratio is None
+                else round(float(handover.time_ratio), 3),
+                "likelihood": round(float(handover.likelihood), 3),
+                "likelihood_band": handover.likelihood_band,
+                "severity": handover.severity,
+                "risk": handover.risk,
+                "band": handover.band,
+                "cue": site.cue or "",
+                "initiator": site.initiator,
+            }
+        )
+    return _frame(rows, HANDOVER_COLUMNS)
+
+
+def findings_table(source: ExportSource) -> pd.DataFrame:
+    rows = [
+        {
+            "kind": finding.kind,
+            "severity": finding.severity,
+            "tasks": ",".join(finding.tasks),
+            "modes": ",".join(finding.modes),
+            "events": ",".join(finding.events),
+            "agents": ",".join(finding.agents),
+            "message": finding.message,
+        }
+        for finding in source.analysis.findings
+    ]
+    return _frame(rows, FINDING_COLUMNS)
+
+
+def _subscales(source: ExportSource) -> list[str]:
+    keys = {key for rating in source.ratings for key in rating.ratings}
+    known = [key for key in TLX_ORDER if key in keys]
+    return known + sorted(keys - set(known))
+
+
+def workload_table(source: ExportSource) -> pd.DataFrame:
+    """Recorded NASA-TLX ratings with Baton's predicted figures for the task beside them."""
+    subscales = _subscales(source)
+    predicted = {row["task"]: row for row in allocation_rows(source)}
+    rows = []
+    for rating in source.ratings:
+        figures = predicted.get(rating.task, {})
+        rows.append(
+            {
+                "task": rating.task,
+                "session": rating.session,
+                "participant": rating.participant,
+                "kind": "weighted" if rating.weighted else "raw",
+                **{key: rating.ratings.get(key) for key in subscales},
+                "score": round(rating.score, 2),
+                "notes": rating.notes,
+                "predicted_category": figures.get("category", ""),
+                "predicted_occurrences_per_day": figures.get("occurrences_per_day"),
+                "predicted_person_s_per_day": figures.get("person_s_per_day"),
+                "predicted_awareness": figures.get("awareness"),
+            }
+        )
+    return _frame(rows, (*WORKLOAD_HEAD, *subscales, *WORKLOAD_TAIL))
+
+
+def assumptions_table(source: ExportSource) -> pd.DataFrame:
+    """Every assumption in force with its default, status and source."""
+    study = source.study
+    rows = [
+        {
+            "key": row["key"],
+            "value": compact_json(row["value"]),
+            "default": compact_json(row["default"]),
+            "status": row["status"],
+            "source": row["source"],
+        }
+        for row in assumption_table(study.assumptions, study.scale)
+    ]
+    return _frame(rows, ASSUMPTION_COLUMNS)
+
+
+def methods_table() -> pd.DataFrame:
+    return _frame([{"name": name, "source": text} for name, text in METHODS], METHOD_COLUMNS)
+
+
+def sheet_tables(source: ExportSource) -> dict[str, pd.DataFrame]:
+    """Every sheet of the workbook as a DataFrame, in the layout's order."""
+    return {
+        "about": pd.DataFrame(source.about(), columns=["key", "value"]),
+        "allocation": allocation_table(source),
+        "tasks": tasks_table(source),
+        "links": links_table(source),
+        "handovers": handovers_table(source),
+        "findings": findings_table(source),
+        "workload": workload_table(source),
+        "assumptions": assumptions_table(source),
+        "methods": methods_table(),
+        "cautions": pd.DataFrame([[CAUTIONS]]),
+    }

@@ -1,0 +1,155 @@
+"""Snapshots: freeze a study as its canonical text, restore one as a new study, verify one.
+
+A snapshot holds the study file in canonical form
+(:mod:`allocation.core.canonical`), its SHA-256, and every plan's headline figures
+when it was frozen; it is never changed afterwards. Freezing and restoring each write
+one audit entry in the same transaction as the rows they store.
+"""
+
+from __future__ import annotations
+
+import json
+
+from django.contrib.auth.models import AbstractBaseUser
+from django.core.exceptions import PermissionDenied
+from django.db import transaction
+
+from allocation import __version__, audit, selectors
+from allocation import models as m
+from allocation.core import Problem, StudyInvalid
+from allocation.core.canonical import canonical_text, digest, verify
+
+from .studies import study_import
+
+__all__ = [
+    "SnapshotDamaged",
+    "snapshot_create",
+    "snapshot_restore",
+    "snapshot_verify",
+]
+
+_WRITERS = (m.Role.EDITOR, m.Role.OWNER)
+
+
+class SnapshotDamaged(Exception):
+    """A stored snapshot no longer matches its hash, so it is not restored."""
+
+
+def _require_editor(study: m.Study, user: AbstractBaseUser, doing: str) -> None:
+    if not m.Membership.objects.filter(study=study, user=user, role__in=_WRITERS).exists():
+        raise PermissionDenied(f"{doing} needs the editor or owner role in the study.")
+
+
+def _name(user: AbstractBaseUser) -> str:
+    full = user.get_full_name() if hasattr(user, "get_full_name") else ""
+    return full or user.get_username()
+
+
+@transaction.atomic
+def snapshot_create(*, study: m.Study, title: str, user: AbstractBaseUser) -> m.Snapshot:
+    """Freeze the study as it is now: its canonical text, hash and headline figures.
+
+    Parameters
+    ----------
+    study : Study
+        The study row.
+    title : str
+        What the snapshot is (``Agreed at the workshop of 3 March``); 1–200 characters.
+    user : User
+        Its author: an editor or owner of the study.
+
+    Raises
+    ------
+    PermissionDenied
+        When ``user`` is not an editor or owner.
+    StudyInvalid
+        When the title is empty or too long (path ``title``) or the study has errors
+        (a snapshot must be a study that can be restored and analysed).
+    """
+    _require_editor(study, user, "Freezing a study")
+    title = " ".join(title.split())
+    if not title:
+        raise StudyInvalid([Problem("title", "is empty; say what this snapshot is")])
+    limit = m.Snapshot._meta.get_field("title").max_length
+    if len(title) > limit:
+        raise StudyInvalid([Problem("title", f"is {len(title)} characters; at most {limit}")])
+    # Lock the study row so that no edit lands between reading and freezing it.
+    row = m.Study.objects.select_for_update().get(pk=study.pk)
+    result = selectors.study_load(row)
+    if not result.ok:
+        raise StudyInvalid(result.problems)
+    text = canonical_text(result.study)
+    headlines = {
+        plan: analysis.headline() for plan, analysis in selectors.study_analyses(row).items()
+    }
+    snapshot = m.Snapshot(
+        study=row,
+        study_key=row.key,
+        study_title=row.title,
+        title=title,
+        author=user,
+        author_name=_name(user),
+        sha256=digest(text),
+        canonical=text,
+        headlines=headlines,
+        baton_version=__version__,
+    )
+    snapshot.full_clean()
+    snapshot.save()
+    audit.record(
+        study=row,
+        action="snapshot.create",
+        target=f"snapshot {snapshot.sha256[:12]}",
+        after={"title": title, "sha256": snapshot.sha256},
+    )
+    return snapshot
+
+
+def snapshot_verify(snapshot: m.Snapshot) -> bool:
+    """Whether the stored text still hashes to the stored SHA-256 and is still in
+    canonical form (:func:`allocation.core.canonical.verify`)."""
+    return verify(snapshot.canonical, snapshot.sha256)
+
+
+@transaction.atomic
+def snapshot_restore(
+    *, snapshot: m.Snapshot, user: AbstractBaseUser, key: str | None = None
+) -> m.Study:
+    """A new study, owned by ``user``, holding exactly what the snapshot froze.
+
+    With ``key`` left out the new study keeps the snapshot's study id, so its canonical
+    text hashes to the snapshot's hash; a ``key`` gives it another id (and so another
+    hash).
+
+    Raises
+    ------
+    PermissionDenied
+        When ``user`` is not an editor or owner of the snapshot's study.
+    SnapshotDamaged
+        When the stored text no longer matches its hash; nothing is stored.
+    StudyInvalid
+        When the text is not a study this version of Baton reads, or ``key`` is not a
+        valid id (path ``$.study.id``); nothing is stored.
+    """
+    if snapshot.study is None:
+        raise PermissionDenied("The snapshot's study is gone; only an administrator can reach it.")
+    _require_editor(snapshot.study, user, "Restoring a snapshot")
+    if not snapshot_verify(snapshot):
+        raise SnapshotDamaged(
+            f"Snapshot {snapshot.sha256[:12]} no longer matches its hash; it was not restored."
+        )
+    data = json.loads(snapshot.canonical)
+    if key is not None:
+        data["study"]["id"] = key.strip()
+    row = study_import(data=data, owner=user)
+    audit.record(
+        study=row,
+        action="snapshot.restore",
+        target=f"snapshot {snapshot.sha256[:12]}",
+        after={
+            "sha256": snapshot.sha256,
+            "title": snapshot.title,
+            "from_study": snapshot.study_key,
+        },
+    )
+    return row
