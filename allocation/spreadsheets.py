@@ -37,6 +37,7 @@ from typing import Any
 from allocation.core import load_study
 from allocation.core.reading import parse_json_text
 from allocation.core.vocabulary import STAGES
+from allocation.spreadsheet_layout import ALLOCATION_COLUMNS, LINK_COLUMNS, TASK_COLUMNS
 
 __all__ = [
     "ALLOCATION_COLUMNS",
@@ -74,45 +75,6 @@ MAX_COLUMNS = 60
 #: The parts of a study a file can change, in the order they are read.
 PARTS = ("tasks", "links", "allocation")
 
-TASK_COLUMNS = (
-    "id",
-    "parent",
-    "title",
-    "occurs",
-    "duration_s",
-    "window_s",
-    "severity",
-    "demands",
-    "split",
-    "needs",
-    "notes",
-)
-LINK_COLUMNS = ("from", "to", "kind", "lag_s", "probability", "notes")
-ALLOCATION_COLUMNS = (
-    "task",
-    "goal",
-    "title",
-    "category",
-    "human",
-    "automation",
-    "levels",
-    "level_words",
-    "degree_acquisition",
-    "degree_analysis",
-    "degree_decision",
-    "degree_action",
-    "accountable",
-    "feedback",
-    "initiator",
-    "rationale",
-    "status",
-    "applies",
-    "occurrences_per_day",
-    "person_s_per_day",
-    "awareness",
-    "handovers",
-    "findings",
-)
 #: The columns of the allocation sheet the import reads; the others are figures Baton
 #: computes, and are ignored.
 ASSIGNMENT_COLUMNS = (

@@ -19,6 +19,7 @@ from allocation.core.cautions import CAUTIONS
 from allocation.core.scales import level_text
 from allocation.core.vocabulary import STAGES
 
+from ..spreadsheet_layout import ALLOCATION_COLUMNS, LINK_COLUMNS, SHEETS, TASK_COLUMNS
 from .source import ExportSource
 
 __all__ = [
@@ -37,45 +38,6 @@ __all__ = [
     "workload_table",
 ]
 
-ALLOCATION_COLUMNS = (
-    "task",
-    "goal",
-    "title",
-    "category",
-    "human",
-    "automation",
-    "levels",
-    "level_words",
-    "degree_acquisition",
-    "degree_analysis",
-    "degree_decision",
-    "degree_action",
-    "accountable",
-    "feedback",
-    "initiator",
-    "rationale",
-    "status",
-    "applies",
-    "occurrences_per_day",
-    "person_s_per_day",
-    "awareness",
-    "handovers",
-    "findings",
-)
-TASK_COLUMNS = (
-    "id",
-    "parent",
-    "title",
-    "occurs",
-    "duration_s",
-    "window_s",
-    "severity",
-    "demands",
-    "split",
-    "needs",
-    "notes",
-)
-LINK_COLUMNS = ("from", "to", "kind", "lag_s", "probability", "notes")
 HANDOVER_COLUMNS = (
     "source",
     "from_task",
@@ -108,20 +70,6 @@ WORKLOAD_TAIL = (
     "predicted_occurrences_per_day",
     "predicted_person_s_per_day",
     "predicted_awareness",
-)
-
-#: The workbook's sheets, in order (the ``about`` and ``cautions`` sheets included).
-SHEETS = (
-    "about",
-    "allocation",
-    "tasks",
-    "links",
-    "handovers",
-    "findings",
-    "workload",
-    "assumptions",
-    "methods",
-    "cautions",
 )
 
 
