@@ -10,6 +10,7 @@ policy bands in their own small palettes.
 
 from __future__ import annotations
 
+import html
 from collections.abc import Iterable
 from typing import Any
 
@@ -102,8 +103,15 @@ def agent_colours(study: Study) -> dict[str, str]:
     return colours
 
 
+def _text(value: object) -> str:
+    # plotly reads labels, legend names and hover texts as HTML: what a study's author
+    # typed is escaped so that it shows as typed (and never as markup).
+    return html.escape(str(value), quote=False)
+
+
 def _short(text: str, size: int = 42) -> str:
-    return text if len(text) <= size else text[: size - 1].rstrip() + "…"
+    """Author-typed text shortened to ``size`` characters, escaped for plotly."""
+    return _text(text if len(text) <= size else text[: size - 1].rstrip() + "…")
 
 
 def _task_label(study: Study, task_id: str) -> str:
@@ -132,7 +140,7 @@ def daily_figures_chart(analysis: PlanAnalysis) -> dict[str, Any]:
     colours = agent_colours(study)
     data = []
     for agent_id, person in analysis.people.items():
-        name = study.agent(agent_id).name
+        name = _text(study.agent(agent_id).name)
         for axis, timed in (("", True), ("2", False)):
             figures = [item for item in DAILY_FIGURES if item[2] is timed]
             values = [getattr(person, attribute) for attribute, _words, _timed in figures]
@@ -236,7 +244,7 @@ def goal_time_chart(analysis: PlanAnalysis) -> dict[str, Any]:
     ]
     data = []
     for agent_id in analysis.people:
-        name = study.agent(agent_id).name
+        name = _text(study.agent(agent_id).name)
         seconds = [row["seconds"].get(agent_id, 0.0) for row in rows]
         data.append(
             {
@@ -465,8 +473,7 @@ FIGURE_COLOURS = (
 
 
 def _shift_label(shift) -> str:
-    title = shift.title if len(shift.title) <= 48 else shift.title[:47] + "…"
-    return f"{shift.task_id} {title}"
+    return f"{shift.task_id} {_short(shift.title, 48)}"
 
 
 def burden_moved_figure(delta: PlanDelta, top: int = 30) -> dict[str, Any]:

@@ -44,6 +44,9 @@ class Study(models.Model):
     )
     created_at = models.DateTimeField(auto_now_add=True)
     updated_at = models.DateTimeField(auto_now=True)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         verbose_name_plural = "studies"
@@ -89,6 +92,9 @@ class Agent(models.Model):
     response_s = models.JSONField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         ordering = ["position", "pk"]
@@ -119,6 +125,9 @@ class Event(models.Model):
     every_days = models.FloatField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         ordering = ["position", "pk"]
@@ -161,6 +170,9 @@ class Task(models.Model):
     needs = models.JSONField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         ordering = ["position", "pk"]
@@ -190,6 +202,9 @@ class Link(models.Model):
     probability = models.FloatField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         ordering = ["position", "pk"]
@@ -217,6 +232,9 @@ class Plan(models.Model):
     # The mode map's initial mode; empty when the plan has no mode map.
     initial_mode = models.CharField(max_length=64, blank=True)
     position = models.PositiveIntegerField(default=0)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         ordering = ["position", "pk"]
@@ -253,6 +271,9 @@ class AssignmentFields(models.Model):
     # False when the task is not done at all under the plan; then no agent is named.
     applies = models.BooleanField(default=True)
     position = models.PositiveIntegerField(default=0)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         abstract = True
@@ -289,6 +310,9 @@ class ModeState(models.Model):
     lists_overrides = models.BooleanField(default=False)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         ordering = ["position", "pk"]
@@ -321,6 +345,9 @@ class ModeTransition(models.Model):
     per_day = models.FloatField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         ordering = ["position", "pk"]
@@ -619,6 +646,9 @@ class Decision(models.Model):
     decided_by_name = models.CharField(max_length=150)
     created_at = models.DateTimeField(auto_now_add=True)
     updated_at = models.DateTimeField(auto_now=True)
+    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # version it started from and is refused when the row has moved on since.
+    version = models.PositiveIntegerField(default=1)
 
     class Meta:
         ordering = ["-created_at", "-pk"]

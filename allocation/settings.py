@@ -58,6 +58,7 @@ INSTALLED_APPS = [
 
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
+    "allocation.security.ContentSecurityPolicyMiddleware",  # issue 8, security
     "whitenoise.middleware.WhiteNoiseMiddleware",
     "django.contrib.sessions.middleware.SessionMiddleware",
     "django.middleware.common.CommonMiddleware",
@@ -67,6 +68,7 @@ MIDDLEWARE = [
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "django_htmx.middleware.HtmxMiddleware",
     "allocation.middleware.AuditActorMiddleware",
+    "allocation.faults.DatabaseUnavailableMiddleware",  # issue 8, faults: the 503 page
 ]
 
 # Background work (simulation runs) goes through Django's tasks API; the database backend
@@ -146,11 +148,35 @@ STORAGES = {
 BATON_MAX_UPLOAD_BYTES = 5 * 1024 * 1024
 DATA_UPLOAD_MAX_MEMORY_SIZE = BATON_MAX_UPLOAD_BYTES + 64 * 1024
 FILE_UPLOAD_MAX_MEMORY_SIZE = BATON_MAX_UPLOAD_BYTES + 64 * 1024
+# Issue 8, bad input: a request declaring more than this has its files skipped as they
+# arrive (never kept in memory or on disk); the upload views then refuse it with a
+# message (allocation/uploads.py).
+BATON_MAX_REQUEST_BYTES = BATON_MAX_UPLOAD_BYTES + 64 * 1024
+FILE_UPLOAD_HANDLERS = [
+    "allocation.uploads.SizeLimitedUploadHandler",
+    "django.core.files.uploadhandler.MemoryFileUploadHandler",
+    "django.core.files.uploadhandler.TemporaryFileUploadHandler",
+]
 
 SESSION_COOKIE_HTTPONLY = True
 SECURE_CONTENT_TYPE_NOSNIFF = True
 SECURE_REFERRER_POLICY = "same-origin"
 X_FRAME_OPTIONS = "DENY"
+
+# Issue 8, security: the content security policy (allocation/security.py) is set by its
+# middleware; Cross-Origin-Opener-Policy "same-origin" is Django's default, named here so
+# it stays. Sign-in attempts are throttled: after 5 failures for a user name or from an
+# address within 15 minutes, sign-in is refused for 15 minutes (counts in the default
+# cache; the backend refuses while locked, whichever sign-in form asks).
+SECURE_CROSS_ORIGIN_OPENER_POLICY = "same-origin"
+AUTHENTICATION_BACKENDS = ["allocation.security.ThrottledModelBackend"]
+BATON_SIGN_IN_LIMIT = 5
+BATON_SIGN_IN_WINDOW_S = 15 * 60
+BATON_SIGN_IN_LOCKOUT_S = 15 * 60
+# Behind proxies (gunicorn on 127.0.0.1 behind a TLS proxy), every request comes from the
+# proxy: BATON_PROXY_HOPS=1 counts attempts by the address the proxy puts last in
+# X-Forwarded-For instead.
+BATON_PROXY_HOPS = int(os.environ.get("BATON_PROXY_HOPS", "0"))
 
 if not DEBUG:
     _secure = _flag("BATON_SECURE_SSL", True)

@@ -56,6 +56,11 @@ HOURS = {
 }
 
 
+def _escaped(names: dict[str, str]) -> dict[str, str]:
+    # People's names become axis labels and legend names, which plotly reads as HTML.
+    return {key: html.escape(name, quote=False) for key, name in names.items()}
+
+
 def _clock(seconds: float) -> str:
     seconds = int(round(seconds)) % 86400
     return f"{seconds // 3600:02d}:{seconds // 60 % 60:02d}:{seconds % 60:02d}"
@@ -100,6 +105,7 @@ def day_chart(day: dict[str, Any], names: dict[str, str], titles: dict[str, str]
     """Each person's day as a lane of bars, one bar per stretch of work, coloured by what
     it is (a stage of the task, supervision or monitoring); the sleep window shaded; the
     device's modes, if it has a mode map, as a band on top."""
+    names = _escaped(names)
     people = list(day["people"])
     data = []
     for kind, colour in KIND_COLOURS.items():
@@ -206,6 +212,7 @@ def day_chart(day: dict[str, Any], names: dict[str, str], titles: dict[str, str]
 def occupancy_chart(day: dict[str, Any], names: dict[str, str]) -> dict[str, Any]:
     """Each person's occupancy per bin (time required over time available) as steps, the
     limit as a line, the sleep window shaded."""
+    names = _escaped(names)
     bin_s = float(day["bin_s"])
     limit = float(day["limits"]["occupancy"])
     data = []
@@ -309,7 +316,7 @@ def histogram_chart(series: list[tuple[str, list[float]]], figure: str) -> dict[
             {
                 "type": "histogram",
                 "x": array.tolist(),
-                "name": name,
+                "name": html.escape(name, quote=False),  # a plan's name, read as HTML
                 "opacity": 0.75,
                 "marker": {"color": colour},
                 "xbins": {"start": low, "end": high + size, "size": size},

@@ -1,6 +1,13 @@
 from django.contrib import admin
-from django.urls import include, path
+from django.contrib.auth.views import (
+    LoginView,
+    LogoutView,
+    PasswordChangeDoneView,
+    PasswordChangeView,
+)
+from django.urls import path
 
+from allocation.security import SignInForm
 from allocation.views import (
     assumptions,
     compare,
@@ -122,6 +129,11 @@ urlpatterns = [
         name="plan-simulation-cancel",
     ),
     path(
+        "studies/<int:pk>/plans/<str:plan>/simulation/restart",
+        simulation.plan_simulation_restart,
+        name="plan-simulation-restart",
+    ),
+    path(
         "studies/<int:pk>/simulation",
         simulation.study_simulation_compare,
         name="study-simulation-compare",
@@ -233,6 +245,22 @@ urlpatterns = [
         spreadsheet_import.plan_import_discard,
         name="plan-import-discard",
     ),
-    path("accounts/", include("django.contrib.auth.urls")),
+    # The sign-in with its attempt limit (allocation/security.py), before Django's own.
+    path(
+        "accounts/login/",
+        LoginView.as_view(authentication_form=SignInForm),
+        name="login",
+    ),
+    # Sign-out and password change only: no mail is configured for password resets.
+    path("accounts/logout/", LogoutView.as_view(), name="logout"),
+    path("accounts/password_change/", PasswordChangeView.as_view(), name="password_change"),
+    path(
+        "accounts/password_change/done/",
+        PasswordChangeDoneView.as_view(),
+        name="password_change_done",
+    ),
     path("admin/", admin.site.urls),
 ]
+
+# A database that went away gets its own page (issue 8, faults); anything else the 500 page.
+handler500 = "allocation.views.errors.server_error"

@@ -57,6 +57,10 @@ _MISSING = object()
 #: The most often anything may happen: a million times a day (about twelve a second).
 #: Rates, and ``every_days``, beyond it are surely typing mistakes.
 MAX_PER_DAY = 1_000_000
+#: The longest names and titles (of the study, agents, events, plans, modes), and the
+#: longest task titles and triggers: what a stored study keeps (the database columns).
+LABEL_LENGTH = 200
+PHRASE_LENGTH = 300
 
 
 def child_path(path: str, key: str | int) -> str:
@@ -175,6 +179,20 @@ class StudyReader:
             return None
         if not value.strip():
             self.error(path, "must not be blank (leave an optional key out instead)")
+            return None
+        return value
+
+    def label(self, value: Any, path: str) -> str | None:
+        """A name or title: text of at most :data:`LABEL_LENGTH` characters."""
+        return self._short(self.text(value, path), path, LABEL_LENGTH)
+
+    def phrase(self, value: Any, path: str) -> str | None:
+        """A task title or a trigger: text of at most :data:`PHRASE_LENGTH` characters."""
+        return self._short(self.text(value, path), path, PHRASE_LENGTH)
+
+    def _short(self, value: str | None, path: str, limit: int) -> str | None:
+        if value is not None and len(value) > limit:
+            self.error(path, f"is {len(value):,} characters long; at most {limit} are kept")
             return None
         return value
 
@@ -342,7 +360,7 @@ class StudyReader:
             header = {}  # already reported; read the rest so that every error is found
         path = "$.study"
         study_id = self.identifier(header.get("id", "study"), child_path(path, "id"))
-        title = self.text(header.get("title", "?"), child_path(path, "title"))
+        title = self.label(header.get("title", "?"), child_path(path, "title"))
         scale = self.choice(header.get("scale", "sv10"), child_path(path, "scale"), SCALES)
         description = self.optional(header, "description", path, self.text)
         bin_s = self.optional(header, "bin_s", path, lambda v, p: self.number(v, p, positive=True))
@@ -413,7 +431,7 @@ class StudyReader:
         kind = self.optional(data, "kind", path, lambda v, p: self.choice(v, p, AGENT_KINDS))
         return Agent(
             id=agent_id,
-            name=self.optional(data, "name", path, self.text) or agent_id,
+            name=self.optional(data, "name", path, self.label) or agent_id,
             kind=kind or "human",
             capabilities=self.optional(data, "capabilities", path, self.strings),
             asleep=self.optional(data, "asleep", path, self.asleep),
@@ -501,7 +519,7 @@ class StudyReader:
             self.error(path, "must occur in one way: times, per_day or every_days")
         return Event(
             id=event_id,
-            name=self.optional(data, "name", path, self.text) or event_id,
+            name=self.optional(data, "name", path, self.label) or event_id,
             notes=self.optional(data, "notes", path, self.text),
             **fields,
         )
@@ -575,7 +593,7 @@ class StudyReader:
             return None
         return Task(
             id=task_id,
-            title=self.optional(data, "title", path, self.text) or task_id,
+            title=self.optional(data, "title", path, self.phrase) or task_id,
             parent=self.optional(data, "parent", path, self.identifier),
             occurs=self.optional(data, "occurs", path, self.occurs),
             duration_s=self.optional(data, "duration_s", path, self.range_),
@@ -714,7 +732,7 @@ class StudyReader:
             return None
         return Plan(
             id=plan_id,
-            name=self.optional(data, "name", path, self.text) or plan_id,
+            name=self.optional(data, "name", path, self.label) or plan_id,
             description=self.optional(data, "description", path, self.text),
             assignments=self.optional(data, "assignments", path, self.assignment_map) or {},
             modes=self.optional(data, "modes", path, self.mode_map),
@@ -740,7 +758,7 @@ class StudyReader:
             return None
         return Mode(
             id=mode_id,
-            name=self.optional(data, "name", path, self.text) or mode_id,
+            name=self.optional(data, "name", path, self.label) or mode_id,
             indication=self.optional(data, "indication", path, self.text),
             overrides=self.optional(data, "overrides", path, self.assignment_map),
             notes=self.optional(data, "notes", path, self.text),
@@ -757,7 +775,7 @@ class StudyReader:
         return Transition(
             source=source,
             target=target,
-            trigger=self.optional(data, "trigger", path, self.text) or "",
+            trigger=self.optional(data, "trigger", path, self.phrase) or "",
             by=self.optional(data, "by", path, lambda v, p: self.choice(v, p, TRANSITION_CAUSES))
             or "human",
             cue=self.optional(data, "cue", path, lambda v, p: self.choice(v, p, CUES)) or "none",

@@ -23,6 +23,8 @@ from allocation.core import Problem, StudyInvalid, load_study
 from allocation.core.assumptions import ASSUMPTIONS, check_assumptions
 from allocation.core.reading import child_path, parse_json_text
 
+from .conflicts import version_check
+
 __all__ = [
     "study_assumption_reset",
     "study_assumption_set",
@@ -79,8 +81,24 @@ def _new_errors(row: m.Study, part: str, value: Any) -> list[Problem]:
     return [problem for problem in load_study(changed).errors if problem not in before]
 
 
-def _locked(study: m.Study) -> m.Study:
-    return m.Study.objects.select_for_update().get(pk=study.pk)
+def _locked(study: m.Study, expected: int | None, part: str, key: str | None = None) -> m.Study:
+    """The study row, locked; refused with :class:`~.conflicts.EditConflict` when
+    ``expected`` is given and the study's assumptions and policy have moved on from it.
+    The conflict carries the current value of ``part`` (one assumption ``key``, or the
+    risk policy)."""
+    row = m.Study.objects.select_for_update().get(pk=study.pk)
+    if key is not None:
+        path, what, current = (
+            child_path(ASSUMPTIONS_PATH, key),
+            f"assumption {key}",
+            {key: (row.assumptions or {}).get(key)},
+        )
+    else:
+        path, what, current = POLICY_PATH, "risk policy", dict(row.risk_policy or {})
+    version_check(
+        study=row, stored=row.version, expected=expected, path=path, what=what, current=current
+    )
+    return row
 
 
 def _save(row: m.Study, field: str, value: Any, action: str, target: str) -> m.Study:
@@ -89,8 +107,9 @@ def _save(row: m.Study, field: str, value: Any, action: str, target: str) -> m.S
     if value not in (None, ""):
         header[field] = value
     setattr(row, field, value)
+    row.version += 1
     row.full_clean()
-    row.save(update_fields=[field, "updated_at"])
+    row.save(update_fields=[field, "version", "updated_at"])
     audit.record_change(
         study=row, action=action, target=target, before=before, after={**before, "study": header}
     )
@@ -98,7 +117,12 @@ def _save(row: m.Study, field: str, value: Any, action: str, target: str) -> m.S
 
 
 def study_assumption_set(
-    *, study: m.Study, key: str, value: Any, user: AbstractBaseUser
+    *,
+    study: m.Study,
+    key: str,
+    value: Any,
+    user: AbstractBaseUser,
+    expected_version: int | None = None,
 ) -> m.Study:
     """Set the study's own value of one assumption.
 
@@ -108,6 +132,8 @@ def study_assumption_set(
         When the value is wrong on its own or makes the study invalid; nothing is stored.
     PermissionDenied
         When ``user`` is not an editor or owner of the study.
+    EditConflict
+        When ``expected_version`` is given and the study is no longer at that version.
     """
     _require_editor(study, user)
     path = child_path(ASSUMPTIONS_PATH, key)
@@ -115,7 +141,7 @@ def study_assumption_set(
     if problems:
         raise StudyInvalid(problems)
     with transaction.atomic():
-        row = _locked(study)
+        row = _locked(study, expected_version, "assumptions", key)
         assumptions = {**(row.assumptions or {}), key: value}
         problems = _new_errors(row, "assumptions", assumptions)
         if problems:
@@ -123,11 +149,14 @@ def study_assumption_set(
         return _save(row, "assumptions", assumptions, "assumption.set", f"assumption {key}")
 
 
-def study_assumption_reset(*, study: m.Study, key: str, user: AbstractBaseUser) -> m.Study:
-    """Drop the study's own value of one assumption, so that the default applies again."""
+def study_assumption_reset(
+    *, study: m.Study, key: str, user: AbstractBaseUser, expected_version: int | None = None
+) -> m.Study:
+    """Drop the study's own value of one assumption, so that the default applies again
+    (refused as :func:`study_assumption_set` is when the version moved on)."""
     _require_editor(study, user)
     with transaction.atomic():
-        row = _locked(study)
+        row = _locked(study, expected_version, "assumptions", key)
         if key not in (row.assumptions or {}):
             return row
         assumptions = {name: v for name, v in row.assumptions.items() if name != key}
@@ -138,7 +167,11 @@ def study_assumption_reset(*, study: m.Study, key: str, user: AbstractBaseUser) 
 
 
 def study_risk_policy_set(
-    *, study: m.Study, policy: dict[str, Any], user: AbstractBaseUser
+    *,
+    study: m.Study,
+    policy: dict[str, Any],
+    user: AbstractBaseUser,
+    expected_version: int | None = None,
 ) -> m.Study:
     """Set the study's risk policy (``likelihood_bands``, ``review``, ``unacceptable``,
     ``note``), checked by the study reader's rules.
@@ -149,6 +182,8 @@ def study_risk_policy_set(
         With each problem at its path under ``$.study.risk_policy``; nothing is stored.
     PermissionDenied
         When ``user`` is not an editor or owner of the study.
+    EditConflict
+        When ``expected_version`` is given and the study is no longer at that version.
     """
     _require_editor(study, user)
     unknown = [key for key in policy if key not in POLICY_KEYS]
@@ -160,18 +195,20 @@ def study_risk_policy_set(
             ]
         )
     with transaction.atomic():
-        row = _locked(study)
+        row = _locked(study, expected_version, "risk_policy")
         problems = _new_errors(row, "risk_policy", policy)
         if problems:
             raise StudyInvalid(problems)
         return _save(row, "risk_policy", policy, "risk_policy.set", "risk policy")
 
 
-def study_risk_policy_reset(*, study: m.Study, user: AbstractBaseUser) -> m.Study:
+def study_risk_policy_reset(
+    *, study: m.Study, user: AbstractBaseUser, expected_version: int | None = None
+) -> m.Study:
     """Drop the study's risk policy: Baton's example policy applies again (and says so)."""
     _require_editor(study, user)
     with transaction.atomic():
-        row = _locked(study)
+        row = _locked(study, expected_version, "risk_policy")
         if not row.risk_policy:
             return row
         return _save(row, "risk_policy", {}, "risk_policy.reset", "risk policy")

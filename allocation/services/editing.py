@@ -16,7 +16,7 @@ from typing import Any
 
 from django.contrib.auth.models import AbstractBaseUser
 from django.db import transaction
-from django.db.models import Max
+from django.db.models import F, Max
 
 from allocation import audit, selectors
 from allocation import models as m
@@ -24,10 +24,12 @@ from allocation.core import Problem, StudyInvalid, load_study
 from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
 
 from . import rows
+from .conflicts import EditConflict, version_check
 from .studies import plan_create, study_create
 
 __all__ = [
     "Consequence",
+    "EditConflict",
     "agent_delete",
     "agent_delete_consequences",
     "agent_save",
@@ -135,6 +137,47 @@ def _upsert(related, key: str | None, values: dict[str, Any], **create: Any):
     return row
 
 
+def _bump(row) -> None:
+    """One more version for a row about to be saved (a new row keeps its 1); the study
+    row is locked, so no other edit of the study reads the version in between."""
+    if row.pk is not None:
+        row.version += 1
+
+
+#: For queryset updates of rows changed along with another (renames, deletions).
+BUMPED = F("version") + 1
+
+
+def _item_of(items: list[dict[str, Any]], key: str) -> dict[str, Any] | None:
+    return next((item for item in items if item.get("id") == key), None)
+
+
+def _check_item(
+    study: m.Study,
+    related,
+    kind: str,
+    key: str | None,
+    item: dict[str, Any],
+    expected: int | None,
+) -> None:
+    """Refuse an edit of ``kind`` ``key`` (``None``: a new one, with ``item``'s id) that
+    started from a version the row no longer has (see :mod:`.conflicts`)."""
+    if expected is None:
+        return
+    looked_up = item["id"] if key is None else key
+    row = related.filter(key=looked_up).only("version").first()
+    items = selectors.study_document(study)[f"{kind}s"]
+    index = next((i for i, x in enumerate(items) if x.get("id") == looked_up), len(items))
+    version_check(
+        study=study,
+        stored=0 if row is None else row.version,
+        expected=expected,
+        path=f"$.{kind}s[{index}]",
+        what=f"{kind} {looked_up}",
+        current=_item_of(items, looked_up),
+    )
+
+
 def _index(items: list[dict[str, Any]], key: str, name: str = "id") -> int:
     for index, item in enumerate(items):
         if item.get(name) == key:
@@ -190,9 +233,21 @@ def study_new(*, owner: AbstractBaseUser, key: str, title: str, scale: str) -> m
 
 
 @transaction.atomic
-def study_header_save(*, study: m.Study, item: dict[str, Any]) -> m.Study:
+def study_header_save(
+    *, study: m.Study, item: dict[str, Any], expected_version: int | None = None
+) -> m.Study:
     """Change the study's id, title, description, scale or bin width."""
     study = _locked(study)
+    header = selectors.study_document(study)["study"]
+    version_check(
+        study=study,
+        stored=study.version,
+        expected=expected_version,
+        path="$.study",
+        what="the study's header",
+        current={k: v for k, v in header.items() if k not in ("assumptions", "risk_policy")},
+        target="study header",
+    )
 
     def mutate(document: Document) -> None:
         header = document["study"]
@@ -205,6 +260,7 @@ def study_header_save(*, study: m.Study, item: dict[str, Any]) -> m.Study:
     document = _checked(study, mutate)
     for name, value in rows.header_values(document["study"]).items():
         setattr(study, name, value)
+    study.version += 1
     study.save()
     _recorded(study, "study.save", "study header")
     selectors.study_remember(study, *study._checked_after)
@@ -215,9 +271,19 @@ def study_header_save(*, study: m.Study, item: dict[str, Any]) -> m.Study:
 
 
 @transaction.atomic
-def agent_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Agent:
-    """Add an agent (``key`` None) or change one; a new id is followed everywhere."""
+def agent_save(
+    *,
+    study: m.Study,
+    key: str | None,
+    item: dict[str, Any],
+    expected_version: int | None = None,
+) -> m.Agent:
+    """Add an agent (``key`` None) or change one; a new id is followed everywhere.
+
+    Raises :class:`EditConflict` when ``expected_version`` is given and the agent is not
+    at that version (0: the agent did not exist)."""
     study = _locked(study)
+    _check_item(study, study.agents, "agent", key, item, expected_version)
 
     def mutate(document: Document) -> None:
         if key is None:
@@ -233,6 +299,7 @@ def agent_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Ag
 
     _checked(study, mutate)
     agent = _upsert(study.agents, key, rows.agent_values(item), study=study)
+    _bump(agent)
     agent.save()
     _recorded(study, "agent.save", _named("agent", key, item["id"]))
     _touch(study)
@@ -287,11 +354,11 @@ def agent_delete(*, study: m.Study, key: str) -> None:
     agent = study.agents.get(key=key)
     for model, where in ((m.Assignment, "plan__study"), (m.ModeOverride, "state__plan__study")):
         scope = model.objects.filter(**{where: study})
-        scope.filter(accountable=agent).update(accountable=None)
+        scope.filter(accountable=agent).update(accountable=None, version=BUMPED)
         scope.filter(human=agent, automation__isnull=True).delete()
         scope.filter(automation=agent, human__isnull=True).delete()
-        scope.filter(human=agent).update(human=None, levels=None)
-        scope.filter(automation=agent).update(automation=None, levels=None)
+        scope.filter(human=agent).update(human=None, levels=None, version=BUMPED)
+        scope.filter(automation=agent).update(automation=None, levels=None, version=BUMPED)
     agent.delete()
     _recorded(study, "agent.delete", f"agent {key}")
     _touch(study)
@@ -301,9 +368,18 @@ def agent_delete(*, study: m.Study, key: str) -> None:
 
 
 @transaction.atomic
-def event_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Event:
-    """Add an event (``key`` None) or change one; a new id is followed by its tasks."""
+def event_save(
+    *,
+    study: m.Study,
+    key: str | None,
+    item: dict[str, Any],
+    expected_version: int | None = None,
+) -> m.Event:
+    """Add an event (``key`` None) or change one; a new id is followed by its tasks.
+
+    Raises :class:`EditConflict` as :func:`agent_save` does."""
     study = _locked(study)
+    _check_item(study, study.events, "event", key, item, expected_version)
 
     def mutate(document: Document) -> None:
         if key is None:
@@ -319,7 +395,9 @@ def event_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Ev
     if key is not None and item["id"] != key:
         for task in study.tasks.filter(occurs__event=key):
             task.occurs = {**task.occurs, "event": item["id"]}
-            task.save(update_fields=["occurs"])
+            task.version += 1
+            task.save(update_fields=["occurs", "version"])
+    _bump(event)
     event.save()
     _recorded(study, "event.save", _named("event", key, item["id"]))
     _touch(study)
@@ -349,7 +427,7 @@ def event_delete(*, study: m.Study, key: str) -> None:
                 del task["occurs"]
 
     _checked(study, mutate)
-    study.tasks.filter(occurs__event=key).update(occurs=None)
+    study.tasks.filter(occurs__event=key).update(occurs=None, version=BUMPED)
     study.events.filter(key=key).delete()
     _recorded(study, "event.delete", f"event {key}")
     _touch(study)
@@ -371,10 +449,19 @@ def _subtree(document: Document, key: str) -> list[str]:
 
 
 @transaction.atomic
-def task_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Task:
+def task_save(
+    *,
+    study: m.Study,
+    key: str | None,
+    item: dict[str, Any],
+    expected_version: int | None = None,
+) -> m.Task:
     """Add a task (``key`` None) or change one, moving it when its parent changes; a new
-    id is followed by its children, links and assignments."""
+    id is followed by its children, links and assignments.
+
+    Raises :class:`EditConflict` as :func:`agent_save` does."""
     study = _locked(study)
+    _check_item(study, study.tasks, "task", key, item, expected_version)
 
     def mutate(document: Document) -> None:
         if key is None:
@@ -401,6 +488,7 @@ def task_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Tas
     _checked(study, mutate)
     task = _upsert(study.tasks, key, rows.task_values(item), study=study)
     task.parent = study.tasks.get(key=item["parent"]) if "parent" in item else None
+    _bump(task)
     task.save()
     _recorded(study, "task.save", _named("task", key, item["id"]))
     _touch(study)
@@ -464,11 +552,30 @@ def _link_rows(study: m.Study) -> list[m.Link]:
 
 
 @transaction.atomic
-def link_save(*, study: m.Study, pk: int | None, item: dict[str, Any]) -> m.Link:
-    """Add a link (``pk`` None) or change one."""
+def link_save(
+    *,
+    study: m.Study,
+    pk: int | None,
+    item: dict[str, Any],
+    expected_version: int | None = None,
+) -> m.Link:
+    """Add a link (``pk`` None) or change one.
+
+    Raises :class:`EditConflict` when ``expected_version`` is given and the link is not
+    at that version (deleted meanwhile: version 0)."""
     study = _locked(study)
     links = _link_rows(study)
     index = next((i for i, link in enumerate(links) if link.pk == pk), None)
+    if pk is not None and expected_version is not None:
+        items = selectors.study_document(study)["links"]
+        version_check(
+            study=study,
+            stored=0 if index is None else links[index].version,
+            expected=expected_version,
+            path=f"$.links[{len(items) if index is None else index}]",
+            what=_link_named(item if index is None else items[index]),
+            current=None if index is None else items[index],
+        )
     if pk is not None and index is None:
         raise StudyInvalid([Problem("$.links", "the link is no longer in the study")])
 
@@ -486,6 +593,7 @@ def link_save(*, study: m.Study, pk: int | None, item: dict[str, Any]) -> m.Link
         link = links[index]
         for name, value in values.items():
             setattr(link, name, value)
+    _bump(link)
     link.save()
     _recorded(study, "link.save", _link_named(item))
     _touch(study)
@@ -510,9 +618,32 @@ def link_delete(*, study: m.Study, pk: int) -> None:
 
 
 @transaction.atomic
-def plan_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Plan:
-    """Add an empty plan (``key`` None) or change a plan's id, name or description."""
+def plan_save(
+    *,
+    study: m.Study,
+    key: str | None,
+    item: dict[str, Any],
+    expected_version: int | None = None,
+) -> m.Plan:
+    """Add an empty plan (``key`` None) or change a plan's id, name or description.
+
+    Raises :class:`EditConflict` as :func:`agent_save` does."""
     study = _locked(study)
+    if expected_version is not None:
+        looked_up = item["id"] if key is None else key
+        row = study.plans.filter(key=looked_up).first()
+        plans = selectors.study_document(study)["plans"]
+        current = _item_of(plans, looked_up)
+        version_check(
+            study=study,
+            stored=0 if row is None else row.version,
+            expected=expected_version,
+            path=f"$.plans[{len(plans) if current is None else plans.index(current)}]",
+            what=f"plan {looked_up}",
+            current=None
+            if current is None
+            else {k: current[k] for k in ("id", "name", "description") if k in current},
+        )
 
     def mutate(document: Document) -> None:
         if key is None:
@@ -538,6 +669,7 @@ def plan_save(*, study: m.Study, key: str | None, item: dict[str, Any]) -> m.Pla
         plan = study.plans.get(key=key)
         plan.key, plan.name = item["id"], item["name"]
         plan.description = item.get("description", "")
+        plan.version += 1
     plan.save()
     _recorded(study, "plan.save", _named("plan", key, item["id"]))
     _touch(study)
@@ -581,12 +713,46 @@ def plan_delete(*, study: m.Study, key: str) -> None:
     _touch(study)
 
 
+def _check_assignment(
+    study: m.Study, plan_key: str, task_key: str, expected: int | None, stored: int | None
+) -> None:
+    """Refuse a change of a plan's assignment of a task that started from another version
+    (``stored``: the row's version now, ``None`` when there is no row)."""
+    if expected is None:
+        return
+    plans = selectors.study_document(study)["plans"]
+    index = _index(plans, plan_key)
+    version_check(
+        study=study,
+        stored=stored or 0,
+        expected=expected,
+        path=f"$.plans[{index}].assignments.{task_key}",
+        what=f"plan {plan_key} / task {task_key}",
+        current=plans[index]["assignments"].get(task_key),
+    )
+
+
 @transaction.atomic
 def assignment_set(
-    *, study: m.Study, plan_key: str, task_key: str, item: dict[str, Any] | None
+    *,
+    study: m.Study,
+    plan_key: str,
+    task_key: str,
+    item: dict[str, Any] | None,
+    expected_version: int | None = None,
 ) -> m.Assignment | None:
-    """Set (or with ``item`` None, remove) a plan's assignment of one leaf task."""
+    """Set (or with ``item`` None, remove) a plan's assignment of one leaf task.
+
+    Raises :class:`EditConflict` when ``expected_version`` is given and the assignment is
+    not at that version (0: the task was not allocated in the plan)."""
     study = _locked(study)
+    if expected_version is not None:
+        stored = (
+            m.Assignment.objects.filter(plan__study=study, plan__key=plan_key, task__key=task_key)
+            .values_list("version", flat=True)
+            .first()
+        )
+        _check_assignment(study, plan_key, task_key, expected_version, stored)
 
     def mutate(document: Document) -> None:
         plan = document["plans"][_index(document["plans"], plan_key)]
@@ -611,6 +777,7 @@ def assignment_set(
         existing = m.Assignment(plan=plan, task=task, position=_next_position(plan.assignments))
     for name, value in values.items():
         setattr(existing, name, value)
+    _bump(existing)
     existing.save()
     _recorded(study, "assignment.set", target)
     _touch(study)
@@ -619,14 +786,34 @@ def assignment_set(
 
 @transaction.atomic
 def assignments_bulk_set(
-    *, study: m.Study, plan_key: str, task_keys: list[str], changes: dict[str, Any]
+    *,
+    study: m.Study,
+    plan_key: str,
+    task_keys: list[str],
+    changes: dict[str, Any],
+    expected_versions: dict[str, int] | None = None,
 ) -> list[str]:
     """Apply the same change (a level, a status …) to several assignments of a plan.
 
     Levels go only to shared assignments (others take none); tasks not yet allocated are
     left as they are. Returns the tasks changed.
+
+    ``expected_versions`` maps tasks to the versions of their assignments the page
+    showed (0: not allocated); the first that differs raises :class:`EditConflict` and
+    nothing is changed.
     """
     study = _locked(study)
+    if expected_versions:
+        stored = dict(
+            m.Assignment.objects.filter(
+                plan__study=study, plan__key=plan_key, task__key__in=task_keys
+            ).values_list("task__key", "version")
+        )
+        for task_id in task_keys:
+            if task_id in expected_versions:
+                _check_assignment(
+                    study, plan_key, task_id, expected_versions[task_id], stored.get(task_id)
+                )
     changed: list[str] = []
 
     def mutate(document: Document) -> None:
@@ -650,6 +837,7 @@ def assignments_bulk_set(
             plan_item["assignments"][row.task.key], agents
         ).items():
             setattr(row, name, value)
+        _bump(row)
         row.save()
     _recorded(study, "assignment.bulk_set", f"plan {plan_key} / tasks {', '.join(changed)}")
     _touch(study)

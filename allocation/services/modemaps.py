@@ -5,7 +5,9 @@ it checks an import (see :mod:`.editing`); an edit that would add an error is re
 with those errors and nothing is written. Then the plan's mode rows are written anew
 from the checked document, inside the same transaction, with the study row locked.
 A mode map is small (modes and transitions by the dozen), so rewriting it whole keeps
-the rows exactly what the checked document says.
+the rows exactly what the checked document says; the rewritten rows carry their versions
+on (one more for each row whose values changed), so that optimistic versioning
+(:mod:`.conflicts`) sees through the rewrite.
 """
 
 from __future__ import annotations
@@ -20,6 +22,7 @@ from allocation import models as m
 from allocation import selectors
 from allocation.core import Problem, StudyInvalid
 
+from .conflicts import version_check
 from .editing import (
     Consequence,
     Document,
@@ -51,17 +54,95 @@ def _plan_path(document: Document, plan_key: str) -> str:
     return f"$.plans[{_index(document['plans'], plan_key)}].modes"
 
 
+Versions = tuple[dict[str, int], dict[tuple[str, str], int], list[int]]
+
+
+def _versions(plan_row: m.Plan) -> Versions:
+    """The versions of a plan's mode rows: by mode, by (mode, task), by position."""
+    states = dict(plan_row.mode_states.values_list("key", "version"))
+    overrides = {
+        (state, task): version
+        for state, task, version in m.ModeOverride.objects.filter(
+            state__plan=plan_row
+        ).values_list("state__key", "task__key", "version")
+    }
+    transitions = list(plan_row.mode_transitions.values_list("version", flat=True))
+    return states, overrides, transitions
+
+
+def _bare(mode: dict[str, Any] | None) -> dict[str, Any] | None:
+    return None if mode is None else {k: v for k, v in mode.items() if k != "overrides"}
+
+
+def _carry_versions(
+    plan_row: m.Plan,
+    old: Versions,
+    before: Modes | None,
+    after: Modes,
+    renamed: dict[str, str],
+) -> None:
+    """Give the rewritten mode rows their versions: the old one where the values are the
+    same, one more where they changed, 1 for a new row. ``renamed`` maps a mode's new id
+    to its old one."""
+    old_states, old_overrides, old_transitions = old
+    before_states = {mode["id"]: mode for mode in (before or {}).get("states", [])}
+    after_states = {mode["id"]: mode for mode in after["states"]}
+    states = list(plan_row.mode_states.all())
+    for row in states:
+        was = renamed.get(row.key, row.key)
+        if was in old_states:
+            same = was == row.key and _bare(before_states.get(was)) == _bare(after_states[row.key])
+            row.version = old_states[was] + (0 if same else 1)
+    m.ModeState.objects.bulk_update(states, ["version"])
+    overrides = list(
+        m.ModeOverride.objects.filter(state__plan=plan_row).select_related("state", "task")
+    )
+    for row in overrides:
+        was = renamed.get(row.state.key, row.state.key)
+        if (was, row.task.key) in old_overrides:
+            then = before_states[was].get("overrides", {}).get(row.task.key)
+            now = after_states[row.state.key]["overrides"][row.task.key]
+            row.version = old_overrides[was, row.task.key] + (0 if then == now else 1)
+    m.ModeOverride.objects.bulk_update(overrides, ["version"])
+    # Transitions have no id: match them by position, skipping the ones deleted.
+    transitions = list(plan_row.mode_transitions.all())
+    then_items = (before or {}).get("transitions", [])
+    now_items = after["transitions"]
+    deleted = len(now_items) < len(then_items)
+    j = 0
+    for row, item in zip(transitions, now_items, strict=False):
+        while deleted and j < len(then_items) and then_items[j] != item:
+            j += 1
+        if j < len(then_items):
+            row.version = old_transitions[j] + (0 if then_items[j] == item else 1)
+            j += 1
+    m.ModeTransition.objects.bulk_update(transitions, ["version"])
+
+
 def _edit(
     study: m.Study,
     plan_key: str,
     change: Callable[[Modes | None, str], Modes | None],
     action: str,
     target: str,
+    *,
+    check: Callable[[m.Study, m.Plan, Modes | None, str], None] | None = None,
+    renamed: dict[str, str] | None = None,
 ):
     """Apply ``change`` to a plan's mode map (``None`` when it has none; the JSON path of
     the map is passed for messages) and write the result, if it adds no error; the audit
-    trail records it as ``action`` on ``target`` (words after the plan's)."""
+    trail records it as ``action`` on ``target`` (words after the plan's).
+
+    ``check`` runs first, under the lock, with the plan's row, mode map and its path: it
+    refuses a stale edit (:class:`~.conflicts.EditConflict`). ``renamed`` maps a mode's
+    new id to its old one, so that its version carries on."""
     study = _locked(study)
+    if check is not None:
+        plan_row = study.plans.filter(key=plan_key).first()
+        if plan_row is not None:
+            document = selectors.study_document(study)
+            plan = document["plans"][_index(document["plans"], plan_key)]
+            check(study, plan_row, plan.get("modes"), _plan_path(document, plan_key))
 
     def mutate(document: Document) -> None:
         plan = document["plans"][_index(document["plans"], plan_key)]
@@ -74,14 +155,21 @@ def _edit(
     document = _checked(study, mutate)
     plan_item = document["plans"][_index(document["plans"], plan_key)]
     plan_row = study.plans.get(key=plan_key)
+    old = _versions(plan_row)
+    before_plans = study._audit_change[0]["plans"]
+    before = before_plans[_index(before_plans, plan_key)].get("modes")
     # Transitions go with their modes (cascade); overrides with their modes too.
     plan_row.mode_transitions.all().delete()
     plan_row.mode_states.all().delete()
     modes = plan_item.get("modes")
-    plan_row.initial_mode = modes["initial"] if modes else ""
-    plan_row.save(update_fields=["initial_mode"])
+    initial = modes["initial"] if modes else ""
+    if plan_row.initial_mode != initial:
+        plan_row.initial_mode = initial
+        plan_row.version += 1
+        plan_row.save(update_fields=["initial_mode", "version"])
     if modes:
         modes_create(plan_row=plan_row, modes=modes, agents=_agents(study), tasks=_tasks(study))
+        _carry_versions(plan_row, old, before, modes, renamed or {})
     _recorded(study, action, f"plan {plan_key} / {target}")
     _touch(study)
 
@@ -98,12 +186,36 @@ def _mode_index(modes: Modes | None, key: str, path: str) -> int:
 
 
 @transaction.atomic
-def mode_save(*, study: m.Study, plan_key: str, key: str | None, item: dict[str, Any]) -> None:
+def mode_save(
+    *,
+    study: m.Study,
+    plan_key: str,
+    key: str | None,
+    item: dict[str, Any],
+    expected_version: int | None = None,
+) -> None:
     """Add a mode (``key`` None) or change a mode's id, name, indication or notes.
 
     The first mode of a plan starts its mode map and is its initial mode. A new id is
     followed by the transitions and by the initial mode; the mode's overrides stay.
+    With ``expected_version`` (0 for a new mode) a mode changed, added or deleted
+    meanwhile raises :class:`~.conflicts.EditConflict`.
     """
+    looked_up = item["id"] if key is None else key
+
+    def check(row: m.Study, plan_row: m.Plan, modes: Modes | None, path: str) -> None:
+        states = (modes or {}).get("states", [])
+        index = next((i for i, s in enumerate(states) if s["id"] == looked_up), len(states))
+        stored = plan_row.mode_states.filter(key=looked_up).values_list("version", flat=True)
+        version_check(
+            study=row,
+            stored=stored.first() or 0,
+            expected=expected_version,
+            path=f"{path}.states[{index}]",
+            what=f"mode {looked_up}",
+            current=_bare(states[index]) if index < len(states) else None,
+            target=f"plan {plan_key} / mode {looked_up}",
+        )
 
     def change(modes: Modes | None, path: str) -> Modes:
         if modes is None:
@@ -130,7 +242,15 @@ def mode_save(*, study: m.Study, plan_key: str, key: str | None, item: dict[str,
                         t[end] = new
         return modes
 
-    _edit(study, plan_key, change, "mode.save", f"mode {key or item['id']}")
+    _edit(
+        study,
+        plan_key,
+        change,
+        "mode.save",
+        f"mode {key or item['id']}",
+        check=None if expected_version is None else check,
+        renamed={item["id"]: key} if key is not None and key != item["id"] else None,
+    )
 
 
 def mode_delete_consequences(*, study: m.Study, plan_key: str, key: str) -> list[Consequence]:
@@ -200,9 +320,29 @@ def mode_override_set(
     mode_key: str,
     task_key: str,
     item: dict[str, Any] | None,
+    expected_version: int | None = None,
 ) -> None:
     """Set (or with ``item`` None, remove) who holds a task while in one mode; the
-    override replaces the plan's assignment of that task in that mode."""
+    override replaces the plan's assignment of that task in that mode. With
+    ``expected_version`` (0: no override yet) an override changed meanwhile raises
+    :class:`~.conflicts.EditConflict`."""
+
+    def check(row: m.Study, plan_row: m.Plan, modes: Modes | None, path: str) -> None:
+        states = (modes or {}).get("states", [])
+        index = next((i for i, s in enumerate(states) if s["id"] == mode_key), None)
+        current = None if index is None else states[index].get("overrides", {}).get(task_key)
+        stored = m.ModeOverride.objects.filter(
+            state__plan=plan_row, state__key=mode_key, task__key=task_key
+        ).values_list("version", flat=True)
+        version_check(
+            study=row,
+            stored=stored.first() or 0,
+            expected=expected_version,
+            path=f"{path}.states[{index or 0}].overrides.{task_key}",
+            what=f"who holds {task_key} in mode {mode_key}",
+            current=current,
+            target=f"plan {plan_key} / mode {mode_key} / task {task_key}",
+        )
 
     def change(modes: Modes | None, path: str) -> Modes:
         index = _mode_index(modes, mode_key, path)
@@ -215,7 +355,14 @@ def mode_override_set(
         return modes
 
     action = "override.delete" if item is None else "override.set"
-    _edit(study, plan_key, change, action, f"mode {mode_key} / task {task_key}")
+    _edit(
+        study,
+        plan_key,
+        change,
+        action,
+        f"mode {mode_key} / task {task_key}",
+        check=None if expected_version is None else check,
+    )
 
 
 def _transition_index(modes: Modes | None, index: int, expected: dict | None, path: str) -> int:
@@ -241,10 +388,29 @@ def transition_save(
     index: int | None,
     item: dict[str, Any],
     expected: dict[str, Any] | None = None,
+    expected_version: int | None = None,
 ) -> None:
     """Add a transition (``index`` None, placed last) or change transition ``index``;
     ``expected`` (its from, to and trigger as the editor showed them) guards against
-    changing a transition someone else has meanwhile moved or deleted."""
+    changing a transition someone else has meanwhile moved or deleted, and
+    ``expected_version`` against one changed meanwhile
+    (:class:`~.conflicts.EditConflict`)."""
+
+    def check(row: m.Study, plan_row: m.Plan, modes: Modes | None, path: str) -> None:
+        if index is None:
+            return
+        transitions = (modes or {}).get("transitions", [])
+        versions = list(plan_row.mode_transitions.values_list("version", flat=True))
+        there = 0 <= index < len(transitions)
+        version_check(
+            study=row,
+            stored=versions[index] if there else 0,
+            expected=expected_version,
+            path=f"{path}.transitions[{index}]",
+            what=f"transition number {index + 1}",
+            current=transitions[index] if there else None,
+            target=f"plan {plan_key} / transition",
+        )
 
     def change(modes: Modes | None, path: str) -> Modes:
         if modes is None:
@@ -257,7 +423,14 @@ def transition_save(
         return modes
 
     target = f"transition {item.get('from')} → {item.get('to')} on {item.get('trigger')!r}"
-    _edit(study, plan_key, change, "transition.save", target)
+    _edit(
+        study,
+        plan_key,
+        change,
+        "transition.save",
+        target,
+        check=None if expected_version is None else check,
+    )
 
 
 @transaction.atomic

@@ -23,6 +23,8 @@ from allocation import audit, selectors
 from allocation import models as m
 from allocation.review_items import finding_key, handover_key
 
+from .conflicts import version_check
+
 __all__ = [
     "ReviewRefused",
     "comment_post",
@@ -306,11 +308,18 @@ def decision_save(
 
 
 def decision_status_set(
-    *, study: m.Study, user: AbstractBaseUser, decision: int | str, status: object
+    *,
+    study: m.Study,
+    user: AbstractBaseUser,
+    decision: int | str,
+    status: object,
+    expected_version: int | None = None,
 ) -> m.Decision:
     """Change a decision's status (editors and above); the audit trail keeps the history.
 
-    The decision's ``decided_by`` becomes whoever changed it last.
+    The decision's ``decided_by`` becomes whoever changed it last. With
+    ``expected_version``, a decision changed meanwhile raises
+    :class:`~.conflicts.EditConflict` carrying its current values; nothing is written.
     """
     _require(study, user, m.Role.EDITOR, "Changing a decision")
     status = _status(status)
@@ -323,11 +332,23 @@ def decision_status_set(
             ) from None
         if row.status == status:
             return row
+        version_check(
+            study=study,
+            stored=row.version,
+            expected=expected_version,
+            path="$.decisions",
+            what=f"the decision on {_target_words(row.target_kind, row.plan_key, row.target_key)}",
+            current=_decision_json(row),
+            target=_target_words(row.target_kind, row.plan_key, row.target_key),
+        )
         before = _decision_json(row)
+        row.version += 1
         row.status = status
         row.decided_by = user
         row.decided_by_name = user.get_username()
-        row.save(update_fields=["status", "decided_by", "decided_by_name", "updated_at"])
+        row.save(
+            update_fields=["status", "decided_by", "decided_by_name", "version", "updated_at"]
+        )
         audit.record(
             study=study,
             action="decision.status",

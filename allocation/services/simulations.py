@@ -1,4 +1,5 @@
-"""Simulation runs: ask for N simulated days of a plan, or stop a run.
+"""Simulation runs: ask for N simulated days of a plan, stop a run, or restart one whose
+worker died.
 
 A request is answered by a stored run when one exists for the same question — the
 study at its current version, the plan, N and the seed — that is done or still going;
@@ -27,7 +28,9 @@ __all__ = [
     "SimulationRefused",
     "simulation_cancel",
     "simulation_check",
+    "simulation_may_restart",
     "simulation_request",
+    "simulation_restart",
 ]
 
 #: The most days one request may ask for (the database allows up to
@@ -167,3 +170,100 @@ def simulation_cancel(*, run: m.SimulationRun) -> m.SimulationRun:
             locked.chunks.all().delete()
     run.refresh_from_db()
     return run
+
+
+# -- restarting a run whose worker died (issue 8, faults) ------------------------------
+
+
+def simulation_may_restart(*, run: m.SimulationRun, user: AbstractBaseUser) -> bool:
+    """Whether ``user`` may restart ``run``: the member who asked for it, or an editor or
+    owner of its study (a restart only re-asks the same question, but it throws away the
+    work a live worker may still be doing, so not every viewer may)."""
+    role = (
+        m.Membership.objects.filter(study_id=run.study_id, user=user)
+        .values_list("role", flat=True)
+        .first()
+    )
+    if role is None:
+        return False
+    return run.requested_by_id == user.pk or m.Role.rank(role) >= m.Role.rank(m.Role.EDITOR)
+
+
+def simulation_restart(*, run: m.SimulationRun, user: AbstractBaseUser) -> m.SimulationRun:
+    """Restart a queued or running run whose worker stopped (killed, or its machine gone):
+    the old run becomes *failed* ("restarted") and a new run asks the same question.
+
+    A run stays *running* forever when the worker simulating it dies, and a request for
+    the same question joins it; a restart is the way out. The chunks the old run already
+    stored are moved to the new run when the study still has the version they were
+    simulated for (a chunk depends only on the study, the seed and its number, so it is
+    the chunk the new run would simulate); only the missing chunks are enqueued, and at
+    least one, since the task that stores the last chunk is the one that combines the
+    run. A worker of the old run that is still alive finds its run failed and drops its
+    work. Returns the new run (or the run that already answers the question for the
+    study's current version); a run that has already ended is returned unchanged.
+
+    Raises ``PermissionDenied`` unless :func:`simulation_may_restart`, and
+    :class:`SimulationRefused` when the study now has errors or lost the plan (the old
+    run is left as it is then).
+    """
+    if not simulation_may_restart(run=run, user=user):
+        raise PermissionDenied(
+            "Only the member who asked for a run, or an editor or owner, can restart it."
+        )
+    if run.finished:
+        return run
+    _check_plan(run.study, run.plan_key)
+    with transaction.atomic():
+        # The study row first, as a request takes it: the two take turns, and the
+        # version cannot move while the chunks are handed over.
+        version = (
+            m.Study.objects.select_for_update()
+            .values_list("updated_at", flat=True)
+            .get(pk=run.study_id)
+        )
+        old = m.SimulationRun.objects.select_for_update().get(pk=run.pk)
+        if old.status not in m.SimulationStatus.active():
+            return old
+        name = user.get_username()
+        old.status = m.SimulationStatus.FAILED
+        old.error = f"restarted by {name} after {old.chunks_done} of {old.chunks_total} parts"
+        old.finished_at = timezone.now()
+        old.save(update_fields=["status", "error", "finished_at"])
+        existing = m.SimulationRun.objects.filter(
+            study_id=old.study_id,
+            study_version=version,
+            plan_key=old.plan_key,
+            days=old.days,
+            seed=old.seed,
+            status__in=m.SimulationStatus.reusable(),
+        ).first()
+        if existing is not None:
+            old.chunks.all().delete()
+            return existing
+        new = m.SimulationRun(
+            study_id=old.study_id,
+            plan_key=old.plan_key,
+            days=old.days,
+            seed=old.seed,
+            study_version=version,
+            chunks_total=chunk_count(old.days),
+            requested_by=user,
+        )
+        new.full_clean()
+        new.save()
+        kept: list[int] = []
+        if old.study_version == version and new.chunks_total == old.chunks_total:
+            kept = sorted(old.chunks.values_list("index", flat=True))
+            # Leave one chunk to simulate again: its task combines the run.
+            kept = kept[: new.chunks_total - 1]
+            old.chunks.filter(index__in=kept).update(run=new)
+            new.chunks_done = len(kept)
+            new.save(update_fields=["chunks_done"])
+        old.chunks.all().delete()
+        kept_set = set(kept)
+        for index in range(new.chunks_total):
+            if index not in kept_set:
+                simulate_run_chunk.enqueue(run_id=new.pk, chunk=index)
+    new.refresh_from_db()
+    return new

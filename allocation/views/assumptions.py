@@ -28,7 +28,9 @@ from allocation.services.assumptions import (
     POLICY_PATH,
     assumption_value_parse,
 )
+from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
+from allocation.views.conflicts import conflict_context, posted_version
 
 POLICY = "risk_policy"
 #: The headline figures the box shows after an edit: key, words, decimals.
@@ -124,8 +126,10 @@ def _row(
     editing: bool = False,
     text: str | None = None,
     problems: list[Problem] | None = None,
+    conflict: dict[str, Any] | None = None,
 ) -> dict[str, Any]:
-    """One assumption as the table shows it, or as its form when ``editing``."""
+    """One assumption as the table shows it, or as its form when ``editing`` (with the
+    study's version it was opened at, or after a ``conflict`` the newer one)."""
     table = {item["key"]: item for item in assumption_table(page.row.assumptions, page.row.scale)}
     item = table[key]
     override = (page.row.assumptions or {}).get(key)
@@ -147,6 +151,8 @@ def _row(
         "multiline": is_table or isinstance(item["default"], list),
         "problems": problems if editing else [],
         "path": child_path(ASSUMPTIONS_PATH, key),
+        "version": conflict["version"] if conflict else page.row.version,
+        "conflict": conflict if editing else None,
     }
 
 
@@ -284,8 +290,18 @@ def _refused(
     problems: list[Problem],
     text: str | None = None,
     policy_form: dict[str, str] | None = None,
+    conflict: dict[str, Any] | None = None,
 ) -> HttpResponse:
-    """The form again with the problems beside it; nothing was stored."""
+    """The form again with the problems (or the conflict) beside it; nothing was stored."""
+    if conflict is not None:
+        context = {
+            "row": _row(page, part, editing=True, text=text, conflict=conflict),
+            **_base(page),
+        }
+        page_context = page.context("study-assumptions", **context)
+        if request.htmx:
+            return render(request, "htmx/assumption_row.html", page_context)
+        return render(request, "assumptions/conflict_page.html", page_context, status=409)
     if request.htmx:
         if part == POLICY:
             context = _policy(page, editing=True, form=policy_form, problems=problems)
@@ -319,7 +335,16 @@ def assumption_set(request: HttpRequest, pk: int) -> HttpResponse:
     before = _headline_values(page)
     if not problems:
         try:
-            services.study_assumption_set(study=page.row, key=key, value=value, user=request.user)
+            services.study_assumption_set(
+                study=page.row,
+                key=key,
+                value=value,
+                user=request.user,
+                expected_version=posted_version(request.POST),
+            )
+        except EditConflict as error:
+            conflict = conflict_context(error, {key: value})
+            return _refused(request, page, part=key, problems=[], text=text, conflict=conflict)
         except StudyInvalid as error:
             problems = error.errors
     if problems:
@@ -337,7 +362,12 @@ def assumption_reset(request: HttpRequest, pk: int) -> HttpResponse:
         return HttpResponseBadRequest("No such assumption.")
     before = _headline_values(page)
     try:
-        services.study_assumption_reset(study=page.row, key=key, user=request.user)
+        services.study_assumption_reset(
+            study=page.row,
+            key=key,
+            user=request.user,
+            expected_version=posted_version(request.POST),
+        )
     except StudyInvalid as error:
         return _refused(request, page, part=key, problems=error.errors)
     return _saved(request, pk, before=before, part=key, message=f"{key} is back to its default.")
@@ -395,7 +425,12 @@ def risk_policy_set(request: HttpRequest, pk: int) -> HttpResponse:
     before = _headline_values(page)
     if not problems:
         try:
-            services.study_risk_policy_set(study=page.row, policy=policy, user=request.user)
+            services.study_risk_policy_set(
+                study=page.row,
+                policy=policy,
+                user=request.user,
+                expected_version=posted_version(request.POST),
+            )
         except StudyInvalid as error:
             problems = error.errors
     if problems:

@@ -25,7 +25,9 @@ from allocation import selectors, services
 from allocation.core import Problem, StudyInvalid
 from allocation.core.describe import duration_text, occurs_text, severity_text, task_outline
 from allocation.forms import AgentForm, EventForm, ItemForm, LinkForm, StudyForm, TaskForm
+from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
+from allocation.views.conflicts import conflict_context, posted_version
 
 
 @dataclass(frozen=True)
@@ -97,6 +99,16 @@ def _existing(page: StudyPage, kind: Kind, key: str) -> dict[str, Any] | None:
         if item["id"] == key:
             return item
     raise Http404(f"No such {kind.singular}.")
+
+
+def _stored_version(page: StudyPage, kind: Kind, key: str) -> int:
+    """The version of the row the form shows (0 for a new item: a row made meanwhile
+    with the same id is then a conflict too)."""
+    if key == "new":
+        return 0
+    related = getattr(page.row, kind.name)
+    row = related.filter(pk=int(key)) if kind.name == "links" else related.filter(key=key)
+    return row.values_list("version", flat=True).first() or 0
 
 
 def _form(
@@ -173,17 +185,24 @@ def item_edit(request: HttpRequest, pk: int, kind: str, key: str) -> HttpRespons
     if request.method == "GET":
         initial = spec.form.initial_for(existing) if existing else {}
         form = _form(spec, page, key, initial=initial)
-        return _form_response(request, page, spec, key, form, {}, [])
+        version = _stored_version(page, spec, key)
+        return _form_response(request, page, spec, key, form, {}, [], version=version)
     form = _form(spec, page, key, data=request.POST)
     by_key: dict[str, list[str]] = {}
     general: list[Problem] = []
+    version = posted_version(request.POST)
+    conflict = None
     if form.is_valid():
         item = form.item()
     if form.is_valid():  # item() may add errors (a half-given range)
         target = None if key == "new" else (int(key) if spec.name == "links" else key)
         arguments = {"pk" if spec.name == "links" else "key": target}
         try:
-            spec.save(study=page.row, item=item, **arguments)
+            spec.save(study=page.row, item=item, expected_version=version, **arguments)
+        except EditConflict as error:
+            # The form comes back with the values typed and their version: saving it
+            # again ("Use mine") overwrites knowingly.
+            conflict, version = conflict_context(error, item), error.version
         except StudyInvalid as error:
             by_key, general = problems_by_key(error.errors, spec)
         else:
@@ -192,11 +211,22 @@ def item_edit(request: HttpRequest, pk: int, kind: str, key: str) -> HttpRespons
                 return _section_response(request, page, spec)
             return redirect(reverse("study-inventory", args=[pk]) + f"#section-{spec.name}")
     return _form_response(
-        request, page, spec, key, form, by_key, general, status=400 if not request.htmx else 200
+        request,
+        page,
+        spec,
+        key,
+        form,
+        by_key,
+        general,
+        status=200 if request.htmx else (409 if conflict else 400),
+        version=version,
+        conflict=conflict,
     )
 
 
-def _form_response(request, page, spec, key, form, by_key, general, status=200):
+def _form_response(
+    request, page, spec, key, form, by_key, general, status=200, version=None, conflict=None
+):
     context = page.context(
         "study-inventory",
         kind=spec,
@@ -206,6 +236,8 @@ def _form_response(request, page, spec, key, form, by_key, general, status=200):
         core_errors=by_key,
         general=general,
         action=reverse("inventory-item", args=[page.row.pk, spec.name, key]),
+        hidden=[] if version is None else [("version", version)],
+        conflict=conflict,
     )
     template = "htmx/inventory_form.html" if request.htmx else "inventory/form_page.html"
     return render(request, template, context, status=status)

@@ -27,7 +27,9 @@ from allocation.core.model import Assignment, Plan, Study
 from allocation.core.writing import assignment_to_json
 from allocation.forms import AssignmentForm, ItemForm, ModeForm, TransitionForm
 from allocation.mode_figures import CAUSE_WORDS, CUE_LINES, mode_map_figure
+from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
+from allocation.views.conflicts import conflict_context, posted_version
 
 #: Each kind of mode-map finding in a few words, for the findings list.
 KIND_WORDS = {
@@ -272,6 +274,7 @@ def _form_response(
     action: str,
     problems: list[Problem] = (),
     hidden: dict[str, str] | None = None,
+    conflict: dict[str, Any] | None = None,
 ) -> HttpResponse:
     by_key, general = _problems_by_key(list(problems))
     context = page.context(
@@ -286,9 +289,12 @@ def _form_response(
         action=action,
         cancel_url=reverse("plan-modes", args=[page.row.pk, plan.id]),
         hidden=sorted((hidden or {}).items()),
+        conflict=conflict,
     )
     template = "htmx/inventory_form.html" if request.htmx else "modes/form_page.html"
     status = 400 if problems and not request.htmx else 200
+    if conflict is not None and not request.htmx:
+        status = 409
     return render(request, template, context, status=status)
 
 
@@ -309,19 +315,34 @@ def _item_edit(
     initial: dict[str, Any],
     save,
     hidden: dict[str, str],
+    version: int,
 ) -> HttpResponse:
-    """The form of a mode or a transition (GET), and saving it with ``save(item)``."""
+    """The form of a mode or a transition (GET), and saving it with ``save(item,
+    expected_version)``; ``version`` is the stored row's (0 for a new one), which the
+    form carries back."""
     action = request.path
     if request.method == "GET":
         form = make_form(initial=initial)
         return _form_response(
-            request, page, plan, form, what=what, key=key, action=action, hidden=hidden
+            request,
+            page,
+            plan,
+            form,
+            what=what,
+            key=key,
+            action=action,
+            hidden={**hidden, "version": str(version)},
         )
     form = make_form(data=request.POST)
     error = None
+    conflict = None
+    expected = posted_version(request.POST)
     if form.is_valid():
+        item = form.item()
         try:
-            save(form.item())
+            save(item, expected)
+        except EditConflict as caught:
+            conflict, expected = conflict_context(caught, item), caught.version
         except StudyInvalid as caught:
             error = caught
         else:
@@ -335,8 +356,9 @@ def _item_edit(
         what=what,
         key=key,
         action=action,
-        problems=_problems_of(form, error),
-        hidden=hidden,
+        problems=[] if conflict else _problems_of(form, error),
+        hidden=hidden if expected is None else {**hidden, "version": str(expected)},
+        conflict=conflict,
     )
 
 
@@ -356,10 +378,17 @@ def mode_edit(request: HttpRequest, pk: int, plan: str, mode: str) -> HttpRespon
         key=mode,
         make_form=lambda data=None, initial=None: ModeForm(data, initial=initial),
         initial={} if mode == "new" else ModeForm.initial_for(_mode_item(page, chosen, mode)),
-        save=lambda item: services.mode_save(
-            study=page.row, plan_key=plan, key=None if mode == "new" else mode, item=item
+        save=lambda item, version: services.mode_save(
+            study=page.row,
+            plan_key=plan,
+            key=None if mode == "new" else mode,
+            item=item,
+            expected_version=version,
         ),
         hidden={},
+        version=0
+        if mode == "new"
+        else m.ModeState.objects.get(plan__study=page.row, plan__key=plan, key=mode).version,
     )
 
 
@@ -448,6 +477,8 @@ def mode_override(request: HttpRequest, pk: int, plan: str, mode: str, task: str
         return _region_response(request, pk, plan)
     form = AssignmentForm(request.POST, study=page.study, existing=existing)
     error = None
+    conflict = None
+    version = posted_version(request.POST)
     if form.is_valid():
         item = form.item()
         if item is None:
@@ -455,15 +486,30 @@ def mode_override(request: HttpRequest, pk: int, plan: str, mode: str, task: str
         else:
             try:
                 services.mode_override_set(
-                    study=page.row, plan_key=plan, mode_key=mode, task_key=task, item=item
+                    study=page.row,
+                    plan_key=plan,
+                    mode_key=mode,
+                    task_key=task,
+                    item=item,
+                    expected_version=version,
                 )
+            except EditConflict as caught:
+                conflict, version = conflict_context(caught, item), caught.version
             except StudyInvalid as caught:
                 error = caught
             else:
                 messages.success(request, f"Saved who does {task} in this mode.")
                 return _region_response(request, pk, plan)
     return _override_response(
-        request, page, chosen, mode, task, form=form, problems=_problems_of(form, error)
+        request,
+        page,
+        chosen,
+        mode,
+        task,
+        form=form,
+        problems=[] if conflict else _problems_of(form, error),
+        conflict=conflict,
+        version=version,
     )
 
 
@@ -494,9 +540,16 @@ def _override_response(
     task: str,
     form: AssignmentForm | None = None,
     problems: list[Problem] = (),
+    conflict: dict[str, Any] | None = None,
+    version: int | None = None,
 ) -> HttpResponse:
     study = page.study
     current = _override_target(page, plan, mode, task)
+    if version is None:
+        stored = m.ModeOverride.objects.filter(
+            state__plan__study=page.row, state__plan__key=plan.id, state__key=mode, task__key=task
+        )
+        version = stored.values_list("version", flat=True).first() or 0
     if form is None:
         # A new override starts from the plan's own assignment of the task.
         start = current if current is not None else plan.assignments.get(task)
@@ -515,9 +568,13 @@ def _override_response(
         general=[p for p in general if not p.path.startswith("$.form")],
         action=reverse("mode-override", args=[page.row.pk, plan.id, mode, task]),
         cancel_url=reverse("plan-modes", args=[page.row.pk, plan.id]),
+        conflict=conflict,
+        version=version,
     )
     template = "htmx/mode_override_form.html" if request.htmx else "modes/override_page.html"
     status = 400 if problems and not request.htmx else 200
+    if conflict is not None and not request.htmx:
+        status = 409
     return render(request, template, context, status=status)
 
 
@@ -567,15 +624,22 @@ def transition_edit(request: HttpRequest, pk: int, plan: str, transition: str) -
         key=transition,
         make_form=lambda data=None, initial=None: _transition_form(chosen, data, initial),
         initial={} if item is None else TransitionForm.initial_for(item),
-        save=lambda new: services.transition_save(
+        save=lambda new, version: services.transition_save(
             study=page.row,
             plan_key=plan,
             index=index,
             item=new,
             expected=_expected(request),
+            expected_version=version,
         ),
         hidden={f"expected_{key}": value for key, value in expected.items()},
+        version=0 if index is None else _transition_version(page, plan, index),
     )
+
+
+def _transition_version(page: StudyPage, plan: str, index: int) -> int:
+    versions = m.ModeTransition.objects.filter(plan__study=page.row, plan__key=plan)
+    return list(versions.values_list("version", flat=True))[index]
 
 
 def _transition_item(page: StudyPage, plan: Plan, index: int) -> dict[str, Any]:

@@ -9,7 +9,7 @@ from django.contrib.auth.decorators import login_required
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
-from django.views.decorators.http import require_GET, require_POST
+from django.views.decorators.http import require_GET, require_http_methods, require_POST
 from django_htmx.http import HttpResponseClientRedirect, HttpResponseClientRefresh
 
 from allocation import models as m
@@ -21,7 +21,9 @@ from allocation.core.scales import level_text
 from allocation.core.vocabulary import ASSIGNMENT_STATUSES, CUES, INITIATORS, STAGES
 from allocation.core.writing import assignment_to_json
 from allocation.forms import WHO_CHOICES, AssignmentForm, BulkForm, PlanForm, level_choices
+from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
+from allocation.views.conflicts import conflict_context, posted_version
 
 
 def _choices(study: Study) -> dict[str, Any]:
@@ -40,6 +42,15 @@ def _choices(study: Study) -> dict[str, Any]:
     }
 
 
+def _versions(page: StudyPage, plan_id: str) -> dict[str, int]:
+    """The version of each allocated task's assignment row (absent: not allocated, 0)."""
+    return dict(
+        m.Assignment.objects.filter(plan__study=page.row, plan__key=plan_id).values_list(
+            "task__key", "version"
+        )
+    )
+
+
 def _row(
     study: Study,
     plan_id: str,
@@ -48,8 +59,10 @@ def _row(
     analysis: PlanAnalysis | None,
     problems: list[Problem] = (),
     initial: dict[str, Any] | None = None,
+    version: int = 0,
 ) -> dict[str, Any]:
-    """Everything one editor row shows: the assignment's values, its figures, errors."""
+    """Everything one editor row shows: the assignment's values, its figures, errors, and
+    the version of the assignment the row was rendered from (0: not allocated)."""
     plan = study.plans_by_id[plan_id]
     assignment = plan.assignments.get(task_id)
     item = None if assignment is None else assignment_to_json(assignment)
@@ -60,9 +73,11 @@ def _row(
         "values": values,
         "problems": list(problems),
         "figures": None,
+        "version": version,
     }
-    level = values.get("level")
-    if level:
+    level = str(values.get("level") or "")
+    # A refused post is shown back as typed: only a level the scale has gets its words.
+    if level.isdecimal() and 1 <= int(level) <= 10:
         row["level_words"] = level_text(study.scale, int(level))
     if analysis is not None:
         figures = analysis.tasks[task_id]
@@ -107,6 +122,7 @@ def plan_editor(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     analysis = _analysis(page, plan)
     goal = _goal_shown(study, request.GET.get("goal", ""))
     goal_ids = {task.id for task in study.goals}
+    versions = _versions(page, plan)
     rows = []
     for task, depth in task_outline(study):
         if goal and not _under(study, task.id, goal):
@@ -114,7 +130,9 @@ def plan_editor(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         if task.id in goal_ids:
             rows.append({"goal": task, "depth": depth})
         else:
-            rows.append(_row(study, plan, task.id, depth, analysis))
+            rows.append(
+                _row(study, plan, task.id, depth, analysis, version=versions.get(task.id, 0))
+            )
     context = page.context(
         "plan-editor",
         plan=study.plans_by_id[plan],
@@ -156,10 +174,17 @@ def _under(study: Study, task_id: str, goal: str) -> bool:
     return False
 
 
-@require_POST
+@require_http_methods(["GET", "POST"])
 @login_required
 def plan_row_save(request: HttpRequest, pk: int, plan: str, task: str) -> HttpResponse:
-    """Save one row; answer with the row and, out of band, the plan's headline figures."""
+    """Save one row; answer with the row and, out of band, the plan's headline figures.
+
+    GET answers with the row as stored (htmx; "Keep theirs" after a conflict), or the
+    whole editor. A save from a row rendered at an older version of the assignment is
+    refused: the row comes back with the submitted values, the stored version, and
+    theirs beside yours."""
+    if request.method == "GET":
+        return _row_as_stored(request, pk, plan, task)
     page = study_page(request, pk, role=m.Role.EDITOR)
     page.plan_or_404(plan)
     study = page.study
@@ -172,15 +197,28 @@ def plan_row_save(request: HttpRequest, pk: int, plan: str, task: str) -> HttpRe
         existing=None if existing is None else assignment_to_json(existing),
     )
     problems: list[Problem] = []
+    conflict = None
+    version = posted_version(request.POST)
     if form.is_valid():
+        item = form.item()
         try:
-            services.assignment_set(study=page.row, plan_key=plan, task_key=task, item=form.item())
+            services.assignment_set(
+                study=page.row, plan_key=plan, task_key=task, item=item, expected_version=version
+            )
+        except EditConflict as error:
+            conflict = conflict_context(error, item)
+            version = error.version
         except StudyInvalid as error:
             problems = error.errors
     else:
         problems = [Problem(f"{field}", " ".join(errors)) for field, errors in form.errors.items()]
     if not request.htmx:
-        if problems:
+        if conflict is not None:
+            messages.error(
+                request,
+                f"{task} was not saved: {conflict['message']}; the row shows their values now.",
+            )
+        elif problems:
             messages.error(
                 request,
                 f"{task} was not saved: " + "; ".join(str(problem) for problem in problems),
@@ -193,10 +231,36 @@ def plan_row_save(request: HttpRequest, pk: int, plan: str, task: str) -> HttpRe
     # yet (a device picked before "shared"), so that nothing picked is lost.
     initial = dict(request.POST.items())
     initial["per_stage"] = "per_stage" in request.POST
+    if conflict is None:
+        version = _versions(page, plan).get(task, 0)
     context = page.context(
         "plan-editor",
         plan=page.study.plans_by_id[plan],
-        row=_row(page.study, plan, task, depth, analysis, problems, initial),
+        row=_row(page.study, plan, task, depth, analysis, problems, initial, version),
+        choices=_choices(page.study),
+        headline=_headline(page.study, analysis),
+        oob=True,
+        conflict=conflict,
+    )
+    return render(request, "htmx/plan_row_saved.html", context)
+
+
+def _row_as_stored(request: HttpRequest, pk: int, plan: str, task: str) -> HttpResponse:
+    """One editor row as stored (htmx), or the editor page around it."""
+    if not request.htmx:
+        return plan_editor(request, pk, plan)
+    page = study_page(request, pk)
+    page.plan_or_404(plan)
+    if task not in {leaf.id for leaf in page.study.leaves}:
+        return HttpResponse("No such leaf task.", status=404)
+    analysis = _analysis(page, plan)
+    depth = {t.id: d for t, d in task_outline(page.study)}[task]
+    context = page.context(
+        "plan-editor",
+        plan=page.study.plans_by_id[plan],
+        row=_row(
+            page.study, plan, task, depth, analysis, version=_versions(page, plan).get(task, 0)
+        ),
         choices=_choices(page.study),
         headline=_headline(page.study, analysis),
         oob=True,
@@ -213,17 +277,33 @@ def plan_bulk(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     form = BulkForm(request.POST, study=page.study)
     if form.is_valid():
         try:
+            tasks = form.cleaned_data["tasks"]
             changed = services.assignments_bulk_set(
                 study=page.row,
                 plan_key=plan,
-                task_keys=form.cleaned_data["tasks"],
+                task_keys=tasks,
                 changes=form.changes(),
+                expected_versions={
+                    task: version
+                    for task in tasks
+                    if (version := posted_version(request.POST, f"version-{task}")) is not None
+                },
             )
             messages.success(
                 request,
                 f"Changed {len(changed)} task(s): {', '.join(changed)}."
                 if changed
                 else "No selected task could take that change (levels go to shared tasks only).",
+            )
+        except EditConflict as error:
+            fields = conflict_context(error, None)["fields"]
+            theirs = ", ".join(f"{field.name} {field.theirs}" for field in fields)
+            yours = ", ".join(f"{name} {value}" for name, value in form.changes().items())
+            messages.error(
+                request,
+                f"Nothing was changed: {error.message}. Theirs: {theirs or 'not allocated'}; "
+                f"yours: {yours}. The page now shows their values: select the tasks again "
+                "to apply yours.",
             )
         except StudyInvalid as error:
             messages.error(
@@ -264,7 +344,10 @@ def plan_new(request: HttpRequest, pk: int) -> HttpResponse:
             return HttpResponseClientRedirect(url) if request.htmx else redirect(url)
     else:
         messages.error(request, "The plan was not created: give it an id and a name.")
+    # Back to the plan copied from only when it exists: copy_of is as posted (it may be
+    # anything, even text no URL can hold).
+    known = source in page.study.plans_by_id
     back = (
-        reverse("plan-editor", args=[pk, source]) if source else reverse("study-detail", args=[pk])
+        reverse("plan-editor", args=[pk, source]) if known else reverse("study-detail", args=[pk])
     )
     return HttpResponseClientRedirect(back) if request.htmx else redirect(back)

@@ -15,8 +15,10 @@ from allocation import models as m
 from allocation import services
 from allocation.core.analysis.report import METHODS
 from allocation.review_items import ReviewItem, review_items, review_summary
+from allocation.services.conflicts import EditConflict
 from allocation.services.reviews import PLAN_KINDS
 from allocation.views.common import StudyPage, study_page
+from allocation.views.conflicts import posted_version
 
 #: The methods behind the figures the review shows beside each item.
 REVIEW_METHODS = (
@@ -320,6 +322,19 @@ def review_decision_status(request: HttpRequest, pk: int, plan: str) -> HttpResp
             user=request.user,
             decision=request.POST.get("decision", ""),
             status=request.POST.get("status", ""),
+            expected_version=posted_version(request.POST),
+        )
+    except EditConflict as conflict:
+        # The page comes back with their status (and version): choosing again applies
+        # yours knowingly.
+        theirs = (conflict.current or {}).get("status", "deleted")
+        return _refused(
+            request,
+            pk,
+            plan,
+            f"{conflict.message}: theirs is {theirs}, yours was "
+            f"{request.POST.get('status', '')}. Nothing was changed; the page shows theirs "
+            "now, choose again to apply yours.",
         )
     except services.ReviewRefused as refused:
         return _refused(request, pk, plan, str(refused))

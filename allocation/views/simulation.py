@@ -2,8 +2,9 @@
 distributions, and the distributions of several plans side by side.
 
 A run is asked for with N days and a seed; it runs in the background (one task per
-chunk of days) while the page shows its progress and can cancel it. Its result is kept
-with its N and seed and shown again until the study changes.
+chunk of days) while the page shows its progress and can cancel it (or restart it, when
+its worker died). Its result is kept with its N and seed and shown again until the study
+changes.
 """
 
 from __future__ import annotations
@@ -12,6 +13,7 @@ from typing import Any
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
+from django.core.exceptions import PermissionDenied
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
@@ -171,6 +173,9 @@ def _region_context(page: StudyPage, plan: Plan, request: HttpRequest) -> dict[s
         "compare_url": f"{reverse('study-simulation-compare', args=[page.row.pk])}?"
         + urlencode({"days": days, "seed": seed}),
         "channels": CHANNELS,
+        "can_restart": run is not None
+        and not run.finished
+        and services.simulation_may_restart(run=run, user=request.user),
     }
     if run is not None and run.status == m.SimulationStatus.DONE and run.result:
         context.update(_result_context(page, plan, run, which))
@@ -234,9 +239,41 @@ def plan_simulation_cancel(request: HttpRequest, pk: int, plan: str) -> HttpResp
         messages.error(request, "There is no such run to cancel.")
     elif run.finished:
         messages.info(request, f"The run had already ended ({run.get_status_display().lower()}).")
+    elif not services.simulation_may_restart(run=run, user=request.user):
+        # As for a restart: the member who asked for the run, or an editor or owner.
+        raise PermissionDenied("Only who asked for the run, or an editor, may cancel it.")
     else:
         services.simulation_cancel(run=run)
         messages.success(request, "The run was cancelled.")
+    url = _page_url(pk, plan, days, seed)
+    return HttpResponseClientRedirect(url) if request.htmx else redirect(url)
+
+
+@require_POST
+@login_required
+def plan_simulation_restart(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
+    """Restart the run of these days and seed (its worker stopped): the member who asked
+    for it, or an editor; the parts already simulated are kept."""
+    page = study_page(request, pk)
+    page.plan_or_404(plan)
+    days, seed = _question(request)
+    checked = _checked(days, seed)
+    run = selectors.simulation_run_for(page.row, plan, *checked) if checked else None
+    if run is None:
+        messages.error(request, "There is no such run to restart.")
+    elif run.finished:
+        messages.info(request, f"The run had already ended ({run.get_status_display().lower()}).")
+    else:
+        try:
+            new = services.simulation_restart(run=run, user=request.user)
+        except services.SimulationRefused as refused:
+            messages.error(request, f"The run was not restarted: {refused}")
+        else:
+            messages.success(
+                request,
+                f"The run was restarted; {new.chunks_done} of {new.chunks_total} "
+                f"part{'s' if new.chunks_total != 1 else ''} already simulated were kept.",
+            )
     url = _page_url(pk, plan, days, seed)
     return HttpResponseClientRedirect(url) if request.htmx else redirect(url)
 

@@ -23,6 +23,7 @@ from django_htmx.http import HttpResponseClientRedirect
 from allocation import models as m
 from allocation import services, spreadsheets
 from allocation.spreadsheets import SpreadsheetInvalid, Upload
+from allocation.uploads import upload_refusal
 from allocation.views.common import StudyPage, study_page
 
 
@@ -106,18 +107,23 @@ def plan_import_upload(request: HttpRequest, pk: int, plan: str) -> HttpResponse
     read."""
     page = study_page(request, pk, role=m.Role.EDITOR)
     page.plan_or_404(plan)
-    upload = request.FILES.get("file")
-    problem = None
-    if upload is None:
-        problem = "choose a CSV or XLSX file to upload"
-    elif upload.size > spreadsheets.MAX_BYTES:
-        limit = spreadsheets.MAX_BYTES // (1024 * 1024)
-        problem = f"{upload.name} is larger than {limit} MiB; the import reads smaller files"
-    elif upload.size == 0:
-        problem = f"{upload.name} is empty"
+    # The size is judged from the declared length before request.FILES is read: 413
+    # (Content Too Large) then; a file found too large once read is a 400 like the rest.
+    problem = upload_refusal(request, spreadsheets.MAX_BYTES, "the spreadsheet")
+    status = 413
+    upload = None if problem else request.FILES.get("file")
+    if problem is None:
+        if upload is None:
+            problem, status = "choose a CSV or XLSX file to upload", 400
+        elif upload.size > spreadsheets.MAX_BYTES:
+            limit = spreadsheets.MAX_BYTES // (1024 * 1024)
+            problem = f"{upload.name} is larger than {limit} MiB; the import reads smaller files"
+            status = 400
+        elif upload.size == 0:
+            problem, status = f"{upload.name} is empty", 400
     if problem is not None:
         context = _context(page, plan, _pending(request, pk, plan), [problem])
-        return _render(request, context, status=200 if request.htmx else 400)
+        return _render(request, context, status=200 if request.htmx else status)
     data = upload.read(spreadsheets.MAX_BYTES + 1)
     # One file waits per study: a file uploaded for another plan is forgotten.
     for key in [key for key, _ in request.session.items() if key.startswith(_key(pk, ""))]:

@@ -24,6 +24,7 @@ from allocation.core.describe import (
     task_outline,
 )
 from allocation.core.reading import parse_json_text
+from allocation.uploads import upload_refusal
 from allocation.views.common import study_page
 
 
@@ -37,8 +38,10 @@ def study_list(request: HttpRequest) -> HttpResponse:
 @require_POST
 @login_required
 def study_upload(request: HttpRequest) -> HttpResponse:
-    upload = request.FILES.get("file")
-    problems = _upload_problems(upload)
+    # The size is judged from the declared length before request.FILES is read.
+    too_large = upload_refusal(request, settings.BATON_MAX_UPLOAD_BYTES, "the study file")
+    upload = None if too_large else request.FILES.get("file")
+    problems = [Problem("upload", too_large)] if too_large else _upload_problems(upload)
     if not problems:
         data, problems = parse_json_text(upload.read())
     if not problems:
@@ -52,7 +55,9 @@ def study_upload(request: HttpRequest) -> HttpResponse:
         template = "htmx/upload_form.html" if request.htmx else "studies/list.html"
         if not request.htmx:
             context["studies"] = selectors.studies_for_user(user=request.user)
-        return render(request, template, context, status=400 if not request.htmx else 200)
+        # 413 (Content Too Large) when refused by its declared length, unread.
+        status = 413 if too_large else 400
+        return render(request, template, context, status=status if not request.htmx else 200)
     url = reverse("study-detail", args=[study.pk])
     return HttpResponseClientRedirect(url) if request.htmx else redirect(url)
 

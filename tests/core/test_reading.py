@@ -1017,3 +1017,25 @@ def test_the_example_with_any_part_replaced_gives_problems_never_an_exception(ma
 def test_any_text_gives_problems_never_an_exception(text):
     result = load_study_text(text)
     assert isinstance(result, LoadResult)
+
+
+@pytest.mark.parametrize(
+    ("path", "mutate", "limit"),
+    [
+        ("$.study.title", lambda d: d["study"].update(title="x" * 201), 200),
+        ("$.agents[0].name", lambda d: d["agents"][0].update(name="x" * 201), 200),
+        ("$.tasks[1].title", lambda d: d["tasks"][1].update(title="x" * 301), 300),
+        ("$.plans[0].name", lambda d: d["plans"][0].update(name="x" * 201), 200),
+    ],
+)
+def test_names_and_titles_longer_than_a_stored_study_keeps_are_refused(
+    make_study, path, mutate, limit
+):
+    # The database columns keep 200 characters of a name or title (300 of a task title
+    # or a trigger); the reader says so with the path instead of failing later.
+    document = make_study()
+    mutate(document)
+    problems = [p for p in load_study(document).errors if p.path == path]
+    assert [p.message for p in problems] == [
+        f"is {limit + 1:,} characters long; at most {limit} are kept"
+    ]

@@ -147,7 +147,10 @@ def test_user_text_is_escaped_in_tables_and_chart_data(client, owner, heating_do
     page = client.get(dashboard(study)).content.decode()
     assert "<script>alert(1)</script>" not in page and "<b>bold</b>" not in page
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in page
-    assert "\\u003Cscript\\u003Ealert(1)" in page  # json_script's escaping inside chart data
+    # Chart data holds the text HTML-escaped (plotly reads it as HTML), then json_script's
+    # escaping of & and < on top: the raw form never reaches plotly.
+    assert "\\u0026lt;script\\u0026gt;alert(1)" in page
+    assert "\\u003Cscript\\u003Ealert(1)" not in page
 
 
 def test_templates_use_json_script_and_never_safe():
