@@ -180,6 +180,10 @@ class StudyReader:
         if not value.strip():
             self.error(path, "must not be blank (leave an optional key out instead)")
             return None
+        if "\x00" in value:
+            # No database stores it in text (PostgreSQL refuses it outright).
+            self.error(path, "contains the NUL character (\\u0000), which text may not hold")
+            return None
         return value
 
     def label(self, value: Any, path: str) -> str | None:

@@ -74,6 +74,10 @@ def _require(study: m.Study, user: AbstractBaseUser, role: str, doing: str) -> s
 
 def _text(value: object, field: str, what: str, *, required: bool) -> str:
     text = (value if isinstance(value, str) else "").strip()
+    if "\x00" in text:
+        raise ReviewRefused(
+            field, f"The {what} contains the NUL character, which text may not hold."
+        )
     if required and not text:
         raise ReviewRefused(field, f"The {what} is empty; write something first.")
     if len(text) > TEXT_LIMIT:

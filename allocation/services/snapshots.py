@@ -68,6 +68,10 @@ def snapshot_create(*, study: m.Study, title: str, user: AbstractBaseUser) -> m.
     """
     _require_editor(study, user, "Freezing a study")
     title = " ".join(title.split())
+    if "\x00" in title:
+        raise StudyInvalid(
+            [Problem("title", "contains the NUL character, which text may not hold")]
+        )
     if not title:
         raise StudyInvalid([Problem("title", "is empty; say what this snapshot is")])
     limit = m.Snapshot._meta.get_field("title").max_length

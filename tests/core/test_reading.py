@@ -1039,3 +1039,14 @@ def test_names_and_titles_longer_than_a_stored_study_keeps_are_refused(
     assert [p.message for p in problems] == [
         f"is {limit + 1:,} characters long; at most {limit} are kept"
     ]
+
+
+def test_text_with_a_nul_character_is_refused_with_its_path(make_study):
+    # PostgreSQL refuses NUL in text columns (found by fuzzing the snapshot title on
+    # PostgreSQL); the reader refuses it first, with the path.
+    document = make_study()
+    document["tasks"][1]["title"] = "Notice\x00"
+    problems = [p for p in load_study(document).errors if p.path == "$.tasks[1].title"]
+    assert [p.message for p in problems] == [
+        "contains the NUL character (\\u0000), which text may not hold"
+    ]
