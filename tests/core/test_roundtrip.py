@@ -31,7 +31,8 @@ from allocation.examples import example_paths
 # -- building blocks ------------------------------------------------------------------
 
 IDS = st.from_regex(r"[A-Za-z0-9][A-Za-z0-9._-]{0,11}", fullmatch=True)
-TEXT = st.text(min_size=1, max_size=12).filter(str.strip)
+# Text a study may hold: not blank, no NUL character (see reading.text).
+TEXT = st.text(min_size=1, max_size=12).filter(lambda t: t.strip() and "\x00" not in t)
 SMALL = st.integers(0, 10**6) | st.floats(0, 1e6, allow_nan=False)
 POSITIVE = st.integers(1, 10**6) | st.floats(0, 1e6, exclude_min=True, allow_nan=False)
 SHARE = st.floats(0, 1, exclude_min=True)  # a probability in (0, 1]
