@@ -153,13 +153,19 @@ def _enqueue_chunks(run: m.SimulationRun) -> None:
         simulate_run_chunk.enqueue(run_id=run.pk, chunk=index)
 
 
-def simulation_cancel(*, run: m.SimulationRun) -> m.SimulationRun:
+def simulation_cancel(
+    *, run: m.SimulationRun, user: AbstractBaseUser | None = None
+) -> m.SimulationRun:
     """Stop ``run``: it becomes *cancelled* at once, keeps no chunks and gets no result.
 
     Chunks already being simulated are dropped when they finish; tasks not yet started
     see the run cancelled and do nothing. A run that has already finished (done, failed
-    or cancelled) is left as it is.
+    or cancelled) is left as it is. With ``user`` (a person on a screen), only who may
+    restart the run may cancel it (``PermissionDenied`` otherwise); commands and tasks
+    give none.
     """
+    if user is not None and not simulation_may_restart(run=run, user=user):
+        raise PermissionDenied("Only who asked for the run, or an editor, may cancel it.")
     with transaction.atomic():
         locked = m.SimulationRun.objects.select_for_update().get(pk=run.pk)
         if locked.status in m.SimulationStatus.active():

@@ -13,7 +13,6 @@ from typing import Any
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
-from django.core.exceptions import PermissionDenied
 from django.http import HttpRequest, HttpResponse
 from django.shortcuts import redirect, render
 from django.urls import reverse
@@ -229,21 +228,10 @@ def plan_simulation_status(request: HttpRequest, pk: int, plan: str) -> HttpResp
 @require_POST
 @login_required
 def plan_simulation_cancel(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
-    """Stop the run of these days and seed."""
-    page = study_page(request, pk)
-    page.plan_or_404(plan)
-    days, seed = _question(request)
-    checked = _checked(days, seed)
-    run = selectors.simulation_run_for(page.row, plan, *checked) if checked else None
-    if run is None:
-        messages.error(request, "There is no such run to cancel.")
-    elif run.finished:
-        messages.info(request, f"The run had already ended ({run.get_status_display().lower()}).")
-    elif not services.simulation_may_restart(run=run, user=request.user):
-        # As for a restart: the member who asked for the run, or an editor or owner.
-        raise PermissionDenied("Only who asked for the run, or an editor, may cancel it.")
-    else:
-        services.simulation_cancel(run=run)
+    """Stop the run of these days and seed (who asked for it, or an editor)."""
+    _page, days, seed, run = _live_run(request, pk, plan, "cancel")
+    if run is not None:
+        services.simulation_cancel(run=run, user=request.user)
         messages.success(request, "The run was cancelled.")
     url = _page_url(pk, plan, days, seed)
     return HttpResponseClientRedirect(url) if request.htmx else redirect(url)
@@ -254,16 +242,8 @@ def plan_simulation_cancel(request: HttpRequest, pk: int, plan: str) -> HttpResp
 def plan_simulation_restart(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     """Restart the run of these days and seed (its worker stopped): the member who asked
     for it, or an editor; the parts already simulated are kept."""
-    page = study_page(request, pk)
-    page.plan_or_404(plan)
-    days, seed = _question(request)
-    checked = _checked(days, seed)
-    run = selectors.simulation_run_for(page.row, plan, *checked) if checked else None
-    if run is None:
-        messages.error(request, "There is no such run to restart.")
-    elif run.finished:
-        messages.info(request, f"The run had already ended ({run.get_status_display().lower()}).")
-    else:
+    _page, days, seed, run = _live_run(request, pk, plan, "restart")
+    if run is not None:
         try:
             new = services.simulation_restart(run=run, user=request.user)
         except services.SimulationRefused as refused:
@@ -276,6 +256,22 @@ def plan_simulation_restart(request: HttpRequest, pk: int, plan: str) -> HttpRes
             )
     url = _page_url(pk, plan, days, seed)
     return HttpResponseClientRedirect(url) if request.htmx else redirect(url)
+
+
+def _live_run(request: HttpRequest, pk: int, plan: str, verb: str):
+    """The page, the days and seed asked about, and their run if it is still going
+    (``None``, with a message saying why, when there is none to ``verb``)."""
+    page = study_page(request, pk)
+    page.plan_or_404(plan)
+    days, seed = _question(request)
+    checked = _checked(days, seed)
+    run = selectors.simulation_run_for(page.row, plan, *checked) if checked else None
+    if run is None:
+        messages.error(request, f"There is no such run to {verb}.")
+    elif run.finished:
+        messages.info(request, f"The run had already ended ({run.get_status_display().lower()}).")
+        run = None
+    return page, days, seed, run
 
 
 # -- several plans ---------------------------------------------------------------------
