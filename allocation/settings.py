@@ -58,7 +58,7 @@ INSTALLED_APPS = [
 
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
-    "allocation.security.ContentSecurityPolicyMiddleware",  # issue 8, security
+    "allocation.web.security.ContentSecurityPolicyMiddleware",  # issue 8, security
     "whitenoise.middleware.WhiteNoiseMiddleware",
     "django.contrib.sessions.middleware.SessionMiddleware",
     "django.middleware.common.CommonMiddleware",
@@ -67,8 +67,8 @@ MIDDLEWARE = [
     "django.contrib.messages.middleware.MessageMiddleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "django_htmx.middleware.HtmxMiddleware",
-    "allocation.middleware.AuditActorMiddleware",
-    "allocation.faults.DatabaseUnavailableMiddleware",  # issue 8, faults: the 503 page
+    "allocation.web.middleware.AuditActorMiddleware",
+    "allocation.web.faults.DatabaseUnavailableMiddleware",  # issue 8, faults: the 503 page
 ]
 
 # Background work (simulation runs) goes through Django's tasks API; the database backend
@@ -89,7 +89,7 @@ TEMPLATES = [
                 "django.template.context_processors.request",
                 "django.contrib.auth.context_processors.auth",
                 "django.contrib.messages.context_processors.messages",
-                "allocation.context_processors.baton",
+                "allocation.web.context_processors.baton",
             ],
         },
     },
@@ -153,7 +153,7 @@ FILE_UPLOAD_MAX_MEMORY_SIZE = BATON_MAX_UPLOAD_BYTES + 64 * 1024
 # message (allocation/uploads.py).
 BATON_MAX_REQUEST_BYTES = BATON_MAX_UPLOAD_BYTES + 64 * 1024
 FILE_UPLOAD_HANDLERS = [
-    "allocation.uploads.SizeLimitedUploadHandler",
+    "allocation.web.uploads.SizeLimitedUploadHandler",
     "django.core.files.uploadhandler.MemoryFileUploadHandler",
     "django.core.files.uploadhandler.TemporaryFileUploadHandler",
 ]
@@ -169,7 +169,7 @@ X_FRAME_OPTIONS = "DENY"
 # address within 15 minutes, sign-in is refused for 15 minutes (counts in the default
 # cache; the backend refuses while locked, whichever sign-in form asks).
 SECURE_CROSS_ORIGIN_OPENER_POLICY = "same-origin"
-AUTHENTICATION_BACKENDS = ["allocation.security.ThrottledModelBackend"]
+AUTHENTICATION_BACKENDS = ["allocation.web.security.ThrottledModelBackend"]
 BATON_SIGN_IN_LIMIT = 5
 BATON_SIGN_IN_WINDOW_S = 15 * 60
 BATON_SIGN_IN_LOCKOUT_S = 15 * 60

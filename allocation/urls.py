@@ -7,7 +7,6 @@ from django.contrib.auth.views import (
 )
 from django.urls import path
 
-from allocation.security import SignInForm
 from allocation.views import (
     assumptions,
     compare,
@@ -22,9 +21,10 @@ from allocation.views import (
     reviews,
     simulation,
     snapshots,
-    spreadsheet_import,
+    spreadsheets,
     studies,
 )
+from allocation.web.security import SignInForm
 
 urlpatterns = [
     path("", studies.study_list, name="study-list"),
@@ -227,22 +227,22 @@ urlpatterns = [
     ),
     path(
         "studies/<int:pk>/plans/<str:plan>/import",
-        spreadsheet_import.plan_import,
+        spreadsheets.plan_import,
         name="plan-import",
     ),
     path(
         "studies/<int:pk>/plans/<str:plan>/import/upload",
-        spreadsheet_import.plan_import_upload,
+        spreadsheets.plan_import_upload,
         name="plan-import-upload",
     ),
     path(
         "studies/<int:pk>/plans/<str:plan>/import/apply",
-        spreadsheet_import.plan_import_apply,
+        spreadsheets.plan_import_apply,
         name="plan-import-apply",
     ),
     path(
         "studies/<int:pk>/plans/<str:plan>/import/discard",
-        spreadsheet_import.plan_import_discard,
+        spreadsheets.plan_import_discard,
         name="plan-import-discard",
     ),
     # The sign-in with its attempt limit (allocation/security.py), before Django's own.
@@ -263,4 +263,4 @@ urlpatterns = [
 ]
 
 # A database that went away gets its own page (issue 8, faults); anything else the 500 page.
-handler500 = "allocation.views.errors.server_error"
+handler500 = "allocation.web.errors.server_error"

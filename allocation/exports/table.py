@@ -17,9 +17,14 @@ from allocation.core.analysis.report import METHODS
 from allocation.core.assumptions import assumption_table
 from allocation.core.cautions import CAUTIONS
 from allocation.core.scales import level_text
+from allocation.core.spreadsheets.layout import (
+    ALLOCATION_COLUMNS,
+    LINK_COLUMNS,
+    SHEETS,
+    TASK_COLUMNS,
+)
 from allocation.core.vocabulary import STAGES
 
-from ..spreadsheet_layout import ALLOCATION_COLUMNS, LINK_COLUMNS, SHEETS, TASK_COLUMNS
 from .source import ExportSource
 
 __all__ = [

@@ -8,18 +8,18 @@ from .assumptions import *  # noqa: F403 - listed in assumptions.__all__
 from .assumptions import __all__ as _assumptions
 from .editing import *  # noqa: F403 - every edit, listed in editing.__all__
 from .editing import __all__ as _editing
-from .modemaps import *  # noqa: F403 - every mode-map edit, listed in modemaps.__all__
-from .modemaps import __all__ as _modemaps
+from .modes import *  # noqa: F403 - every mode-map edit, listed in modes.__all__
+from .modes import __all__ as _modes
 from .ratings import *  # noqa: F403 - workload ratings, listed in ratings.__all__
 from .ratings import __all__ as _ratings
 from .reviews import *  # noqa: F403 - comments and decisions, listed in reviews.__all__
 from .reviews import __all__ as _reviews
-from .simulations import *  # noqa: F403 - runs and their limits, in simulations.__all__
-from .simulations import __all__ as _simulations
+from .simulation import *  # noqa: F403 - runs and their limits, in simulation.__all__
+from .simulation import __all__ as _simulation
 from .snapshots import *  # noqa: F403 - freeze, restore, verify, in snapshots.__all__
 from .snapshots import __all__ as _snapshots
-from .spreadsheet_import import *  # noqa: F403 - preview and apply, in spreadsheet_import.__all__
-from .spreadsheet_import import __all__ as _spreadsheet_import
+from .spreadsheets import *  # noqa: F403 - preview and apply, in spreadsheets.__all__
+from .spreadsheets import __all__ as _spreadsheets
 from .studies import (
     LOCAL_USERNAME,
     examples_load,
@@ -31,12 +31,12 @@ from .studies import (
 __all__ = [
     *_assumptions,
     *_editing,
-    *_modemaps,
+    *_modes,
     *_ratings,
     *_reviews,
-    *_simulations,
+    *_simulation,
     *_snapshots,
-    *_spreadsheet_import,
+    *_spreadsheets,
     "LOCAL_USERNAME",
     "examples_load",
     "local_user_ensure",

@@ -5,7 +5,7 @@ change a decision's status; a comment is resolved or reopened by an editor or ab
 by its author. The views check the role too; these services do not rely on them.
 
 A comment or decision is about one thing of the study, named in the study's words (see
-:mod:`allocation.review_items` for the keys). The thing must exist when the remark is
+:mod:`allocation.selectors.reviews` for the keys). The thing must exist when the remark is
 made: a comment on a task the study does not have is refused with
 :class:`ReviewRefused` saying which field is wrong, and nothing is stored. Every write
 records an audit entry in the same transaction.
@@ -21,7 +21,7 @@ from django.db import transaction
 
 from allocation import audit, selectors
 from allocation import models as m
-from allocation.review_items import finding_key, handover_key
+from allocation.selectors.reviews import finding_key, handover_key
 
 from .conflicts import version_check
 

@@ -16,12 +16,13 @@ from django.urls import reverse
 from django.views.decorators.http import require_GET, require_POST
 from django_htmx.http import trigger_client_event
 
-from allocation import charts, services
 from allocation import models as m
+from allocation import services
 from allocation.core import Problem, StudyInvalid
 from allocation.core.analysis.risk import resolve_policy
 from allocation.core.assumptions import METHOD_NOTES, assumption_table
 from allocation.core.reading import child_path
+from allocation.figures import dashboards as dashboard_figures
 from allocation.services.assumptions import (
     ASSUMPTION_KEYS,
     ASSUMPTIONS_PATH,
@@ -79,12 +80,10 @@ def study_assumptions(request: HttpRequest, pk: int) -> HttpResponse:
         # A viewer asking for a form gets the row as shown: no edit controls for them.
         key = request.GET.get("edit") or request.GET.get("row", "")
         if key == POLICY:
-            return render(
-                request, "htmx/assumption_policy.html", _policy(page, editing=bool(edit))
-            )
+            return render(request, "assumptions/_policy.html", _policy(page, editing=bool(edit)))
         if key in ASSUMPTION_KEYS:
             context = {"row": _row(page, key, editing=bool(edit)), **_base(page)}
-            return render(request, "htmx/assumption_row.html", context)
+            return render(request, "assumptions/_row.html", context)
     return _page(request, page, edit=edit)
 
 
@@ -191,7 +190,7 @@ def _policy(
         )
         by_field[field].append(problem)
     try:
-        figure = charts.risk_matrix_chart(policy, compact=True)
+        figure = dashboard_figures.risk_matrix_chart(policy, compact=True)
     except (TypeError, ValueError, KeyError, IndexError):
         figure = None  # a stored policy the checks reject: its problems show above
     return {
@@ -274,10 +273,10 @@ def _saved(
     }
     if part == POLICY:
         context.update(_policy(page))
-        template = "htmx/assumption_policy_saved.html"
+        template = "assumptions/_policy_saved.html"
     else:
         context["row"] = _row(page, part)
-        template = "htmx/assumption_row_saved.html"
+        template = "assumptions/_row_saved.html"
     response = render(request, template, context)
     return trigger_client_event(response, "assumptions-changed", {"key": part})
 
@@ -300,17 +299,17 @@ def _refused(
         }
         page_context = page.context("study-assumptions", **context)
         if request.htmx:
-            return render(request, "htmx/assumption_row.html", page_context)
+            return render(request, "assumptions/_row.html", page_context)
         return render(request, "assumptions/conflict_page.html", page_context, status=409)
     if request.htmx:
         if part == POLICY:
             context = _policy(page, editing=True, form=policy_form, problems=problems)
-            return render(request, "htmx/assumption_policy.html", context)
+            return render(request, "assumptions/_policy.html", context)
         context = {
             "row": _row(page, part, editing=True, text=text, problems=problems),
             **_base(page),
         }
-        return render(request, "htmx/assumption_row.html", context)
+        return render(request, "assumptions/_row.html", context)
     return _page(
         request,
         page,

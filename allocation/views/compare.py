@@ -20,7 +20,6 @@ from django.views.decorators.http import require_GET, require_POST
 
 from allocation import models as m
 from allocation import services
-from allocation.charts import burden_moved_figure, objective_figure
 from allocation.core import StudyInvalid
 from allocation.core.analysis.compare import (
     FIGURES,
@@ -32,6 +31,7 @@ from allocation.core.analysis.compare import (
 )
 from allocation.core.assumptions import OBJECTIVE_WEIGHTS
 from allocation.core.describe import seconds_text
+from allocation.figures.compare import burden_moved_figure, objective_figure
 from allocation.views.common import StudyPage, study_page
 
 #: Tasks shown per plan in the burden-moved table and chart.
@@ -305,7 +305,7 @@ def study_compare(request: HttpRequest, pk: int) -> HttpResponse:
     context = page.context("study-compare", **_compare_context(page, request.GET))
     # A boosted request or a history restore wants the whole page, like a plain visit.
     if request.htmx and not (request.htmx.boosted or request.htmx.history_restore_request):
-        return render(request, "htmx/compare_results.html", context)
+        return render(request, "compare/_results.html", context)
     return render(request, "compare/compare.html", context)
 
 
@@ -372,7 +372,7 @@ def study_compare_weights(request: HttpRequest, pk: int) -> HttpResponse:
     if form.errors:
         context = page.context("study-compare", **_compare_context(page, QueryDict(query), form))
         if request.htmx:
-            return render(request, "htmx/compare_objective.html", context)
+            return render(request, "compare/_objective.html", context)
         return render(request, "compare/compare.html", context, status=400)
     if not request.htmx:
         url = reverse("study-compare", args=[pk])
@@ -381,4 +381,4 @@ def study_compare_weights(request: HttpRequest, pk: int) -> HttpResponse:
     context = page.context("study-compare", **_compare_context(page, QueryDict(query)))
     if context["comparison"] is not None:
         context["form"].saved = True
-    return render(request, "htmx/compare_objective.html", context)
+    return render(request, "compare/_objective.html", context)

@@ -12,12 +12,12 @@ from django.shortcuts import render
 from django.urls import NoReverseMatch, reverse
 from django.views.decorators.http import require_GET
 
-from allocation import charts
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.analysis.modecheck import MODE_FINDING_KINDS
 from allocation.core.analysis.report import METHODS
 from allocation.core.assumptions import AWARENESS_FACTORS
 from allocation.core.describe import seconds_text, severity_text
+from allocation.figures import dashboards as dashboard_figures
 from allocation.views.common import StudyPage, study_page
 
 #: Handovers shown before "show all".
@@ -65,8 +65,8 @@ def plan_dashboard(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         context.update(_dashboard(page, analysis, show_all))
     if request.htmx and not request.htmx.boosted:
         if request.htmx.target == "dashboard-handovers" and "handovers" in context:
-            return render(request, "htmx/dashboard_handovers.html", context)
-        return render(request, "htmx/dashboard_region.html", context)
+            return render(request, "dashboards/_handovers.html", context)
+        return render(request, "dashboards/_region.html", context)
     return render(request, "dashboards/plan.html", context)
 
 
@@ -134,7 +134,7 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
             ],
             "total": seconds_text(sum(row["seconds"].values())),
         }
-        for row in charts.goal_person_time(analysis)
+        for row in dashboard_figures.goal_person_time(analysis)
     ]
     handovers = [_handover_row(page, handover, plan_id) for handover in analysis.handovers]
     awareness = [
@@ -143,14 +143,14 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
             "link": _task_links(page, [row["task"]], plan_id)[0],
             "parts": [
                 {
-                    "words": charts.AWARENESS_WORDS[factor],
+                    "words": dashboard_figures.AWARENESS_WORDS[factor],
                     "factor": row["factors"][factor],
                     "contribution": row["contributions"][factor],
                 }
                 for factor in AWARENESS_FACTORS
             ],
         }
-        for row in charts.awareness_rows(analysis, AWARENESS_SHOWN)
+        for row in dashboard_figures.awareness_rows(analysis, AWARENESS_SHOWN)
     ]
     mode_numbers = {
         id(finding): number
@@ -184,7 +184,7 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
             for mode in analysis.plan.modes.states
         ]
     kinds = Counter(finding.kind.replace("_", " ") for finding in analysis.findings)
-    counts = charts.risk_matrix_counts(analysis)
+    counts = dashboard_figures.risk_matrix_counts(analysis)
     return {
         "analysis": analysis,
         "headline": analysis.headline(),
@@ -195,22 +195,22 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
         "handover_count": len(handovers),
         "handovers_shown": HANDOVERS_SHOWN,
         "awareness": awareness,
-        "awareness_count": len(charts.awareness_rows(analysis, None)),
+        "awareness_count": len(dashboard_figures.awareness_rows(analysis, None)),
         "awareness_shown": AWARENESS_SHOWN,
         "findings": findings,
         "finding_kinds": sorted(kinds.items(), key=lambda kv: (-kv[1], kv[0])),
         "modes": modes,
         "policy": analysis.policy,
-        "band_labels": charts.likelihood_band_labels(analysis.policy),
+        "band_labels": dashboard_figures.likelihood_band_labels(analysis.policy),
         "coherence": analysis.coherence,
         "figures": {
-            "daily": charts.daily_figures_chart(analysis),
-            "goals": charts.goal_time_chart(analysis),
-            "risk": charts.risk_matrix_chart(analysis.policy, counts),
-            "awareness": charts.awareness_chart(analysis, AWARENESS_SHOWN),
-            "modes": charts.mode_share_chart(analysis) if modes else None,
+            "daily": dashboard_figures.daily_figures_chart(analysis),
+            "goals": dashboard_figures.goal_time_chart(analysis),
+            "risk": dashboard_figures.risk_matrix_chart(analysis.policy, counts),
+            "awareness": dashboard_figures.awareness_chart(analysis, AWARENESS_SHOWN),
+            "modes": dashboard_figures.mode_share_chart(analysis) if modes else None,
         },
-        "band_colours": charts.BAND_COLOURS,
+        "band_colours": dashboard_figures.BAND_COLOURS,
     }
 
 

@@ -13,7 +13,6 @@ from django.shortcuts import render
 from django.urls import reverse
 from django.views.decorators.http import require_GET
 
-from allocation import graph_figures
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.analysis.report import levels_with_words
 from allocation.core.describe import (
@@ -26,6 +25,7 @@ from allocation.core.describe import (
 from allocation.core.layout import goal_leaves, layered_layout, select_tasks
 from allocation.core.model import Study
 from allocation.core.vocabulary import CHANNELS, SEVERITIES, STAGE_NAMES, STAGES, VACP_ANCHORS
+from allocation.figures import graph as graph_figures
 from allocation.views.common import StudyPage, study_page
 
 #: Above this many leaf tasks the graph opens on one goal (tool assumption: a few hundred
@@ -125,7 +125,7 @@ def study_graph(request: HttpRequest, pk: int) -> HttpResponse:
     context = page.context("study-graph")
     if page.result.ok:
         context.update(_graph_region(request, page))
-    template = "htmx/graph_region.html" if _fragment(request) else "graph/graph.html"
+    template = "graph/_region.html" if _fragment(request) else "graph/graph.html"
     return render(request, template, context)
 
 
@@ -216,7 +216,7 @@ def graph_task(request: HttpRequest, pk: int, task: str) -> HttpResponse:
     analysis = page.analysis(plan) if plan else None
     context = page.context("study-graph", details=task_details(page, analysis, task))
     if _fragment(request):
-        return render(request, "htmx/graph_task.html", context)
+        return render(request, "graph/_task.html", context)
     return render(request, "graph/task.html", context)
 
 

@@ -15,7 +15,6 @@ from dataclasses import dataclass
 from typing import Any
 from urllib.parse import urlencode
 
-from django import forms
 from django.contrib.auth.decorators import login_required
 from django.core.paginator import Paginator
 from django.http import HttpRequest, HttpResponse
@@ -25,9 +24,11 @@ from django.utils import timezone
 from django.utils.text import slugify
 from django.views.decorators.http import require_GET
 
-from allocation import __version__, audit
+from allocation import __version__
 from allocation import models as m
 from allocation.core.cautions import CAUTIONS
+from allocation.forms.history import HistoryForm
+from allocation.selectors import history as trail
 from allocation.views.common import study_page
 
 #: Entries per page.
@@ -38,61 +39,12 @@ MAX_CHANGES = 200
 MAX_JSON_CHARS = 20_000
 
 
-class HistoryForm(forms.Form):
-    """The filters, as typed in the query string; each one is optional."""
-
-    who = forms.CharField(required=False, max_length=150)
-    action = forms.CharField(required=False, max_length=64)
-    source = forms.ChoiceField(
-        required=False, choices=[("", "any source"), *m.AuditSource.choices]
-    )
-    since = forms.DateField(
-        required=False,
-        label="From",
-        error_messages={"invalid": "is not a date; write it as YYYY-MM-DD"},
-    )
-    until = forms.DateField(
-        required=False,
-        label="To",
-        error_messages={"invalid": "is not a date; write it as YYYY-MM-DD"},
-    )
-    text = forms.CharField(required=False, max_length=300, label="Target contains")
-    entry = forms.IntegerField(required=False, min_value=1, widget=forms.HiddenInput)
-
-    def clean(self) -> dict[str, Any]:
-        data = super().clean()
-        since, until = data.get("since"), data.get("until")
-        if since and until and since > until:
-            self.add_error("until", "is before the From date")
-        return data
-
-    def chosen(self) -> audit.HistoryFilter:
-        """The filter the valid fields describe (a field in error does not filter)."""
-        self.is_valid()
-        valid = {name: v for name, v in self.cleaned_data.items() if name not in self.errors}
-        return audit.HistoryFilter(
-            who=(valid.get("who") or "").strip(),
-            action=(valid.get("action") or "").strip(),
-            source=valid.get("source") or "",
-            since=valid.get("since"),
-            until=valid.get("until"),
-            text=(valid.get("text") or "").strip(),
-        )
-
-    def problems(self) -> list[str]:
-        """Each error as "field: message", for the page and for the exports."""
-        return [
-            f"{self.fields[name].label or name.capitalize()}: {' '.join(messages)}"
-            for name, messages in self.errors.items()
-        ]
-
-
 def _filtered(request: HttpRequest, study: m.Study):
     """The entries the query string asks for, with the form that read it."""
     form = HistoryForm(request.GET)
     form.is_valid()
     chosen = form.chosen()
-    entries = audit.history(study, chosen)
+    entries = trail.history(study, chosen)
     entry = form.cleaned_data.get("entry") if "entry" not in form.errors else None
     if entry:
         entries = entries.filter(pk=entry)
@@ -104,7 +56,7 @@ def _json_text(value: Any, indent: int | None = 2) -> str:
 
 
 def _cell(value: Any) -> str:
-    if value is audit.MISSING:
+    if value is trail.MISSING:
         return "—"
     return _json_text(value, indent=None)
 
@@ -135,7 +87,7 @@ def _summary(value: Any) -> str:
 
 def _entry_view(entry: m.AuditEntry) -> EntryView:
     whole = entry.before is None or entry.after is None
-    lines = [] if whole else audit.changes(entry.before, entry.after)
+    lines = [] if whole else trail.changes(entry.before, entry.after)
     before_text = "" if entry.before is None else _json_text(entry.before)
     after_text = "" if entry.after is None else _json_text(entry.after)
     too_long = max(len(before_text), len(after_text)) > MAX_JSON_CHARS
@@ -180,7 +132,7 @@ def study_history(request: HttpRequest, pk: int) -> HttpResponse:
         form=form,
         filter_problems=form.problems(),
         filtered=bool(chosen.as_pairs()) or bool(form.data.get("entry")),
-        choices=audit.history_choices(page.row),
+        choices=trail.history_choices(page.row),
         sources=m.AuditSource.choices,
         shown=shown,
         views=[_entry_view(entry) for entry in shown.object_list],
@@ -188,14 +140,14 @@ def study_history(request: HttpRequest, pk: int) -> HttpResponse:
         history_url=url,
         csv_url=reverse("study-history-csv", args=[pk]) + (f"?{query}" if query else ""),
         json_url=reverse("study-history-json", args=[pk]) + (f"?{query}" if query else ""),
-        nobody=audit.NOBODY,
+        nobody=trail.NOBODY,
     )
     if request.htmx and not request.htmx.boosted:
-        return render(request, "htmx/history_entries.html", context)
+        return render(request, "history/_entries.html", context)
     return render(request, "history/page.html", context)
 
 
-def _export_header(page, form: HistoryForm, chosen: audit.HistoryFilter) -> dict[str, Any]:
+def _export_header(page, form: HistoryForm, chosen: trail.HistoryFilter) -> dict[str, Any]:
     filters = dict(chosen.as_pairs())
     if form.data.get("entry") and "entry" not in form.errors:
         filters["entry"] = str(form.cleaned_data["entry"])
@@ -249,7 +201,7 @@ def study_history_csv(request: HttpRequest, pk: int) -> HttpResponse:
         writer.writerow([_safe_cell(f"# {line}")])
     writer.writerow(["id", "at", "who", "source", "action", "target", "before", "after"])
     for entry in entries.iterator():
-        row = audit.entry_json(entry)
+        row = trail.entry_json(entry)
         writer.writerow(
             [
                 row["id"],
@@ -275,7 +227,7 @@ def study_history_json(request: HttpRequest, pk: int) -> HttpResponse:
     payload = {
         "format": "baton-audit-trail",
         **_export_header(page, form, chosen),
-        "entries": [audit.entry_json(entry) for entry in entries.iterator()],
+        "entries": [trail.entry_json(entry) for entry in entries.iterator()],
     }
     filename = f"{slugify(page.row.key) or 'study'}.history.json"
     return _attachment(_json_text(payload) + "\n", "application/json; charset=utf-8", filename)

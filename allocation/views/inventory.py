@@ -24,7 +24,8 @@ from allocation import models as m
 from allocation import selectors, services
 from allocation.core import Problem, StudyInvalid
 from allocation.core.describe import duration_text, occurs_text, severity_text, task_outline
-from allocation.forms import AgentForm, EventForm, ItemForm, LinkForm, StudyForm, TaskForm
+from allocation.forms.base import ItemForm
+from allocation.forms.inventory import AgentForm, EventForm, LinkForm, StudyForm, TaskForm
 from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import conflict_context, posted_version
@@ -239,7 +240,7 @@ def _form_response(
         hidden=[] if version is None else [("version", version)],
         conflict=conflict,
     )
-    template = "htmx/inventory_form.html" if request.htmx else "inventory/form_page.html"
+    template = "inventory/_form.html" if request.htmx else "inventory/form_page.html"
     return render(request, template, context, status=status)
 
 
@@ -264,7 +265,7 @@ def item_delete(request: HttpRequest, pk: int, kind: str, key: str) -> HttpRespo
             consequences=consequences,
             action=reverse("inventory-delete", args=[pk, kind, key]),
         )
-        template = "htmx/inventory_delete.html" if request.htmx else "inventory/delete_page.html"
+        template = "inventory/_delete.html" if request.htmx else "inventory/delete_page.html"
         return render(request, template, context)
     try:
         spec.delete(study=page.row, **arguments)

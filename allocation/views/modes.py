@@ -25,8 +25,10 @@ from allocation.core.analysis.report import METHODS
 from allocation.core.describe import severity_text
 from allocation.core.model import Assignment, Plan, Study
 from allocation.core.writing import assignment_to_json
-from allocation.forms import AssignmentForm, ItemForm, ModeForm, TransitionForm
-from allocation.mode_figures import CAUSE_WORDS, CUE_LINES, mode_map_figure
+from allocation.figures.modes import CAUSE_WORDS, CUE_LINES, mode_map_figure
+from allocation.forms.base import ItemForm
+from allocation.forms.modes import ModeForm, TransitionForm
+from allocation.forms.plans import AssignmentForm
 from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import conflict_context, posted_version
@@ -232,7 +234,7 @@ def plan_modes(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     page, chosen = _plan_page(request, pk, plan)
     context = page.context("plan-modes", **_region_context(page, chosen))
     if request.htmx and request.htmx.target == "modes-region":
-        return render(request, "htmx/modes_region.html", context)
+        return render(request, "modes/_region.html", context)
     return render(request, "modes/page.html", context)
 
 
@@ -242,7 +244,7 @@ def _region_response(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         return redirect("plan-modes", pk, plan)
     page, chosen = _plan_page(request, pk, plan)
     context = page.context("plan-modes", **_region_context(page, chosen))
-    response = render(request, "htmx/modes_region.html", context)
+    response = render(request, "modes/_region.html", context)
     return reswap(retarget(response, "#modes-region"), "outerHTML")
 
 
@@ -291,7 +293,7 @@ def _form_response(
         hidden=sorted((hidden or {}).items()),
         conflict=conflict,
     )
-    template = "htmx/inventory_form.html" if request.htmx else "modes/form_page.html"
+    template = "inventory/_form.html" if request.htmx else "modes/form_page.html"
     status = 400 if problems and not request.htmx else 200
     if conflict is not None and not request.htmx:
         status = 409
@@ -571,7 +573,7 @@ def _override_response(
         conflict=conflict,
         version=version,
     )
-    template = "htmx/mode_override_form.html" if request.htmx else "modes/override_page.html"
+    template = "modes/_override_form.html" if request.htmx else "modes/override_page.html"
     status = 400 if problems and not request.htmx else 200
     if conflict is not None and not request.htmx:
         status = 409
@@ -768,5 +770,5 @@ def mode_finding(request: HttpRequest, pk: int, plan: str, finding: int) -> Http
         back_url=reverse("plan-modes", args=[pk, plan]),
     )
     if request.htmx and request.htmx.target == "walkthrough":
-        return render(request, "htmx/mode_walkthrough.html", context)
+        return render(request, "modes/_walkthrough.html", context)
     return render(request, "modes/finding.html", context)

@@ -20,7 +20,7 @@ from allocation.core.describe import task_outline
 from allocation.core.scales import level_text
 from allocation.core.vocabulary import ASSIGNMENT_STATUSES, CUES, INITIATORS, STAGES
 from allocation.core.writing import assignment_to_json
-from allocation.forms import WHO_CHOICES, AssignmentForm, BulkForm, PlanForm, level_choices
+from allocation.forms.plans import WHO_CHOICES, AssignmentForm, BulkForm, PlanForm, level_choices
 from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import conflict_context, posted_version
@@ -242,7 +242,7 @@ def plan_row_save(request: HttpRequest, pk: int, plan: str, task: str) -> HttpRe
         oob=True,
         conflict=conflict,
     )
-    return render(request, "htmx/plan_row_saved.html", context)
+    return render(request, "plans/_row_saved.html", context)
 
 
 def _row_as_stored(request: HttpRequest, pk: int, plan: str, task: str) -> HttpResponse:
@@ -265,7 +265,7 @@ def _row_as_stored(request: HttpRequest, pk: int, plan: str, task: str) -> HttpR
         headline=_headline(page.study, analysis),
         oob=True,
     )
-    return render(request, "htmx/plan_row_saved.html", context)
+    return render(request, "plans/_row_saved.html", context)
 
 
 @require_POST

@@ -13,13 +13,14 @@ from django.urls import reverse
 from django.views.decorators.http import require_GET, require_POST
 
 from allocation import models as m
-from allocation import rating_selectors, services
+from allocation import services
 from allocation.core.describe import seconds_text
 from allocation.core.simulation import FIGURE_WORDS
 from allocation.core.tlx import PAIRS, SUBSCALE_NAMES, SUBSCALES, check_ratings
 from allocation.core.vocabulary import CHANNELS
-from allocation.rating_figures import task_rows, tlx_scatter_chart
-from allocation.rating_forms import RatingForm
+from allocation.figures.ratings import task_rows, tlx_scatter_chart
+from allocation.forms.ratings import RatingForm
+from allocation.selectors import ratings as rating_selectors
 from allocation.views.common import StudyPage, study_page
 
 REGION = "ratings"
@@ -150,7 +151,7 @@ def _respond(
 ) -> HttpResponse:
     full = page.context("plan-ratings", **context)
     if request.htmx and not request.htmx.boosted:
-        return render(request, "htmx/ratings_region.html", full, status=status)
+        return render(request, "ratings/_region.html", full, status=status)
     return render(request, "ratings/page.html", full, status=status)
 
 

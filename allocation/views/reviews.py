@@ -14,7 +14,7 @@ from django_htmx.http import HttpResponseClientRedirect
 from allocation import models as m
 from allocation import services
 from allocation.core.analysis.report import METHODS
-from allocation.review_items import ReviewItem, review_items, review_summary
+from allocation.selectors.reviews import ReviewItem, review_items, review_summary
 from allocation.services.conflicts import EditConflict
 from allocation.services.reviews import PLAN_KINDS
 from allocation.views.common import StudyPage, study_page
@@ -84,7 +84,7 @@ def plan_review(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         targets=_targets(page),
     )
     if request.htmx and not request.htmx.boosted:
-        return render(request, "htmx/review_region.html", context)
+        return render(request, "reviews/_region.html", context)
     return render(request, "reviews/plan.html", context)
 
 
@@ -114,7 +114,7 @@ def plan_workshop(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     items = _items(page, plan, show_all)
     context = _workshop_context(page, plan, items, _number(request.GET.get("item")), show_all)
     if request.htmx and not request.htmx.boosted:
-        return render(request, "htmx/workshop_item.html", context)
+        return render(request, "reviews/_workshop_item.html", context)
     return render(request, "reviews/workshop.html", context)
 
 
@@ -200,7 +200,7 @@ def _answer(
         context = _workshop_context(
             page, plan, items, number, show_all, error=error, done=done, swapped=True
         )
-        return render(request, "htmx/workshop_item.html", context)
+        return render(request, "reviews/_workshop_item.html", context)
     all_items = _items(page, plan, show_all=True)
     item = next(
         (i for i in all_items if (i.kind, i.plan_key, i.key) == (kind, plan_key, key)), None
@@ -218,7 +218,7 @@ def _answer(
         page, "plan-review", plan, item=item, view="review", show_all=show_all, error=error
     )
     context["done"] = done
-    return render(request, "htmx/review_item.html", context)
+    return render(request, "reviews/_item.html", context)
 
 
 @require_POST

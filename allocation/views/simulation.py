@@ -26,7 +26,7 @@ from allocation.core.describe import seconds_text
 from allocation.core.model import Plan
 from allocation.core.simulation import FIGURES
 from allocation.core.vocabulary import CHANNELS
-from allocation.sim_figures import (
+from allocation.figures.simulation import (
     FIGURE_WORDS,
     channel_chart,
     day_chart,
@@ -189,7 +189,7 @@ def plan_simulation(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     chosen = page.plan_or_404(plan)
     context = page.context("plan-simulation", **_region_context(page, chosen, request))
     if request.htmx and request.htmx.target == "simulation-region":
-        return render(request, "htmx/simulation_region.html", context)
+        return render(request, "simulation/_region.html", context)
     return render(request, "simulation/page.html", context)
 
 
@@ -222,7 +222,7 @@ def plan_simulation_status(request: HttpRequest, pk: int, plan: str) -> HttpResp
     run = context["run"]
     if request.htmx and run is not None and run.finished:
         return HttpResponseClientRefresh()
-    return render(request, "htmx/simulation_status.html", context)
+    return render(request, "simulation/_status.html", context)
 
 
 @require_POST

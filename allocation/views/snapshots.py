@@ -22,10 +22,10 @@ from django.views.decorators.http import require_GET, require_POST
 
 from allocation import audit, services
 from allocation import models as m
-from allocation import snapshot_selectors as reads
 from allocation.core import StudyInvalid
 from allocation.core.analysis.compare import FIGURES
 from allocation.core.difference import KINDS, Change, Difference
+from allocation.selectors import snapshots as reads
 from allocation.views.common import StudyPage, study_page
 from allocation.views.compare import DIGITS
 
@@ -82,7 +82,7 @@ def _list(request: HttpRequest, page: StudyPage, status: int = 200, **extra: Any
     """The snapshot list: the whole page, or to htmx the region that holds it."""
     context = _list_context(page, **extra)
     if request.htmx and not (request.htmx.boosted or request.htmx.history_restore_request):
-        return render(request, "htmx/snapshot_region.html", context)
+        return render(request, "snapshots/_region.html", context)
     return render(request, "snapshots/list.html", context, status=status)
 
 
@@ -128,7 +128,7 @@ def snapshot_verify(request: HttpRequest, pk: int) -> HttpResponse:
         verified = {snapshot.pk: services.snapshot_verify(snapshot)}
         if request.htmx and not request.htmx.boosted:
             row = {"snapshot": snapshot, "verified": verified[snapshot.pk]}
-            return render(request, "htmx/snapshot_verified.html", page.context("", row=row))
+            return render(request, "snapshots/_verified.html", page.context("", row=row))
     else:
         verified = {
             snapshot.pk: services.snapshot_verify(snapshot)
@@ -299,5 +299,5 @@ def snapshot_difference(request: HttpRequest, pk: int) -> HttpResponse:
     page = study_page(request, pk)
     context = page.context("study-snapshots", **_difference_context(page, request.GET))
     if request.htmx and not (request.htmx.boosted or request.htmx.history_restore_request):
-        return render(request, "htmx/snapshot_difference.html", context)
+        return render(request, "snapshots/_difference.html", context)
     return render(request, "snapshots/difference.html", context)

@@ -24,8 +24,8 @@ from allocation.core.describe import (
     task_outline,
 )
 from allocation.core.reading import parse_json_text
-from allocation.uploads import upload_refusal
 from allocation.views.common import study_page
+from allocation.web.uploads import upload_refusal
 
 
 @require_GET

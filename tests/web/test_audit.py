@@ -24,6 +24,7 @@ from allocation import __version__, audit, selectors, services
 from allocation import models as m
 from allocation.core import StudyInvalid
 from allocation.core.cautions import CAUTIONS
+from allocation.selectors import history as trail
 
 from .conftest import make_user
 
@@ -199,10 +200,10 @@ def test_an_edit_keeps_only_the_item_before_and_after(study, owner, heating_docu
     }
     lines = {
         change.path: (change.before, change.after)
-        for change in audit.changes(entry.before, entry.after)
+        for change in trail.changes(entry.before, entry.after)
     }
     assert lines["plans[auto].assignments.T2.levels"] == (7, 5)
-    assert lines["plans[auto].assignments.T2.rationale"] == (old["rationale"], audit.MISSING)
+    assert lines["plans[auto].assignments.T2.rationale"] == (old["rationale"], trail.MISSING)
 
 
 def test_a_rename_records_what_followed_it(study, heating_document):

@@ -27,11 +27,12 @@ from django.core.management.sql import sql_flush
 from django.db import connection
 from django.test import override_settings
 
-from allocation import backup, selectors, services, tasks
 from allocation import models as m
+from allocation import selectors, services, tasks
 from allocation.core import load_study
 from allocation.core.canonical import canonical_text, digest
 from allocation.core.simulation import CHUNK_DAYS
+from allocation.ops import backup
 from tests.web.conftest import make_user
 
 IMMEDIATE = {"default": {"BACKEND": "django_tasks.backends.immediate.ImmediateBackend"}}
@@ -54,7 +55,7 @@ def total_rows() -> int:
 
 def study_hashes() -> dict[int, str]:
     """Each study's canonical text's SHA-256, rebuilt from its rows (not from a cache)."""
-    selectors._LOADED.clear()
+    selectors.study_cache_clear()
     return {
         row.pk: digest(canonical_text(load_study(selectors.study_document(row)).study))
         for row in m.Study.objects.all()
@@ -65,7 +66,7 @@ def empty_database() -> None:
     """Delete every backed-up row, children first (a new, migrated database)."""
     for model in reversed(backup.backed_up_models()):
         model._base_manager.all().delete()
-    selectors._LOADED.clear()
+    selectors.study_cache_clear()
     assert total_rows() == 0
 
 
@@ -163,7 +164,7 @@ def test_restore_into_an_empty_database_gives_back_every_row(settings, tmp_path,
     # A new database: every table empty and every sequence back at 1 (as `flush` does,
     # with the sequences reset), so new rows would clash unless restore moves them on.
     connection.ops.execute_sql_flush(sql_flush(no_style(), connection, reset_sequences=True))
-    selectors._LOADED.clear()
+    selectors.study_cache_clear()
     assert total_rows() == 0
     call_command("restore", str(path), verbosity=0)
 

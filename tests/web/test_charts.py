@@ -19,11 +19,11 @@ from collections import Counter
 
 import pytest
 
-from allocation import charts
 from allocation.core import load_study
 from allocation.core.analysis import analyse_plan
 from allocation.core.analysis.risk import DEFAULT_RISK_POLICY, resolve_policy
 from allocation.examples import example_documents
+from allocation.figures import dashboards as charts
 from tests.core.conftest import HOME_HEATING
 
 

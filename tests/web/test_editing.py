@@ -172,7 +172,7 @@ def test_the_remembered_document_is_what_the_rows_say(study):
     the rows: the rows were written exactly as checked."""
 
     def same() -> None:
-        assert selectors._document_from_rows(study) == selectors.study_document(study)
+        assert selectors.studies._document_from_rows(study) == selectors.study_document(study)
 
     services.agent_save(
         study=study, key=None, item={"id": "helper", "name": "Helper", "kind": "human"}

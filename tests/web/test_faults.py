@@ -30,10 +30,11 @@ from django.test import Client
 from django.urls import reverse
 from django.utils.http import urlencode
 
-from allocation import audit, faults, selectors, services, tasks
+from allocation import audit, selectors, services, tasks
 from allocation import models as m
 from allocation.core.simulation import CHUNK_DAYS, simulate
 from allocation.core.synthetic import synthetic_study
+from allocation.web import faults
 from tests.web.test_simulation_runs import (
     DAYS,
     SEED,

@@ -43,7 +43,7 @@ from tests.core.test_fuzz_reading import (
     raw_texts,
     to_text,
 )
-from tests.web.test_spreadsheet_import import (
+from tests.web.test_spreadsheets import (
     good_workbook,
 )
 
@@ -780,7 +780,7 @@ def test_the_handler_skips_a_file_without_a_declared_length():
     from django.core.files.uploadhandler import SkipFile
     from django.test import RequestFactory
 
-    from allocation.uploads import SizeLimitedUploadHandler, upload_refusal
+    from allocation.web.uploads import SizeLimitedUploadHandler, upload_refusal
 
     request = RequestFactory().post("/")
     request.META.pop("CONTENT_LENGTH", None)

@@ -17,7 +17,7 @@ from allocation import services
 from allocation.core.cautions import CAUTIONS
 from allocation.core.layout import goal_leaves
 from allocation.core.synthetic import synthetic_study
-from allocation.graph_figures import ACCENT, CATEGORY_BY_KEY
+from allocation.figures.graph import ACCENT, CATEGORY_BY_KEY
 
 HX = {"HX-Request": "true"}
 

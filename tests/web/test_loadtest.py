@@ -12,8 +12,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from allocation import models as m
-from allocation.forms import AssignmentForm
-from allocation.loadtest import (
+from allocation.forms.plans import AssignmentForm
+from loadtest.command import stored_for
+from loadtest.users import (
     Edit,
     Sample,
     classify_save,
@@ -24,7 +25,6 @@ from allocation.loadtest import (
     row_fields,
     summarise,
 )
-from allocation.management.commands.loadtest import stored_for
 
 HX = {"HX-Request": "true"}
 

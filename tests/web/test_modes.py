@@ -284,7 +284,7 @@ def test_the_rows_read_back_as_the_checked_document(signed_in, study):
         **HTMX,
     )
     cached = modes_of(study)
-    selectors._LOADED.clear()
+    selectors.study_cache_clear()
     assert modes_of(study) == cached
     assert cached["states"][-1] == {"id": "away", "name": "Away"}
     assert cached["transitions"][-1] == {

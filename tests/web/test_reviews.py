@@ -26,8 +26,8 @@ from django.urls import reverse
 
 from allocation import models as m
 from allocation import services
-from allocation.review_items import review_items
 from allocation.selectors import plan_analysis, study_load
+from allocation.selectors.reviews import review_items
 
 AUTO_OPEN = [
     ("assignment", "T2"),

@@ -23,7 +23,8 @@ from django.core.cache import cache
 from django.urls import reverse
 
 from allocation import models as m
-from allocation import security, services
+from allocation import services
+from allocation.web import security
 from tests.core.conftest import HOME_HEATING
 
 from .conftest import make_user

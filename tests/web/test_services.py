@@ -85,7 +85,7 @@ def test_examples_load_skips_what_the_owner_has(owner):
 def test_study_document_query_count_is_fixed(study, django_assert_num_queries):
     """Reading a study's rows costs the same few queries whatever its size; reading it
     again at the same version costs one (the version check)."""
-    selectors._LOADED.clear()
+    selectors.study_cache_clear()
     with django_assert_num_queries(11):
         selectors.study_document(study)
     with django_assert_num_queries(1):

@@ -18,9 +18,9 @@ from django.urls import reverse
 
 from allocation import models as m
 from allocation import selectors, services
-from allocation import snapshot_selectors as reads
 from allocation.core import StudyInvalid, read_study
 from allocation.core.canonical import canonical_json, canonical_text, digest
+from allocation.selectors import snapshots as reads
 
 HX = {"HX-Request": "true"}
 

@@ -1,7 +1,7 @@
 """``manage.py backup FILE`` writes every study, user and record to one file;
 ``manage.py backup --verify FILE`` checks a file's rows against its manifest.
 
-The file and its manifest are described in :mod:`allocation.backup`. It holds password
+The file and its manifest are described in :mod:`allocation.ops.backup`. It holds password
 hashes: keep it as you keep the database.
 """
 
@@ -13,7 +13,7 @@ from pathlib import Path
 from django.core.management.base import BaseCommand, CommandError
 from django.db import DEFAULT_DB_ALIAS
 
-from allocation import backup
+from allocation.ops import backup
 
 
 class Command(BaseCommand):

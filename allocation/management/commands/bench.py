@@ -213,7 +213,7 @@ class Command(BaseCommand):
                 client.get(trivial_url)
 
             def editor_cold():
-                selectors._LOADED.clear()
+                selectors.study_cache_clear()
                 client.get(editor_url)
 
             def editor_warm():

@@ -3,7 +3,7 @@
 Checks the whole file against its manifest first, refuses a database holding any row of
 the models backed up, writes everything in one transaction keeping primary keys, then
 reads it all back and compares counts and hashes; on any problem nothing is written.
-See :mod:`allocation.backup`.
+See :mod:`allocation.ops.backup`.
 """
 
 from __future__ import annotations
@@ -11,7 +11,7 @@ from __future__ import annotations
 from django.core.management.base import BaseCommand, CommandError
 from django.db import DEFAULT_DB_ALIAS
 
-from allocation import backup
+from allocation.ops import backup
 
 
 class Command(BaseCommand):

@@ -1,0 +1,106 @@
+"""Forms of a plan's mode map: one mode, one transition."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from django import forms
+
+from allocation.core.vocabulary import (
+    CUES,
+    TRANSITION_CAUSES,
+)
+from allocation.forms.base import ItemForm, file_number
+
+
+class ModeForm(ItemForm):
+    """One mode of a plan's mode map."""
+
+    id = forms.CharField(max_length=64)
+    name = forms.CharField(max_length=200)
+    indication = forms.CharField(
+        required=False,
+        max_length=500,
+        help_text="what the person sees in this mode; modes that look the same are flagged",
+    )
+    notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
+
+    groups = (
+        ("Id", "id", ("id",)),
+        ("Name", "name", ("name",)),
+        ("Indication", "indication", ("indication",)),
+        ("Notes", "notes", ("notes",)),
+    )
+
+    @staticmethod
+    def initial_for(item: dict[str, Any]) -> dict[str, Any]:
+        return {key: item.get(key, "") for key in ("id", "name", "indication", "notes")}
+
+    def item(self) -> dict[str, Any]:
+        item = {"id": self.cleaned_data["id"].strip(), "name": self.cleaned_data["name"].strip()}
+        self._text("indication", "indication", item)
+        self._text("notes", "notes", item)
+        return item
+
+
+class TransitionForm(ItemForm):
+    """One transition of a plan's mode map."""
+
+    source = forms.ChoiceField(label="from")
+    target = forms.ChoiceField(label="to")
+    trigger = forms.CharField(max_length=300, help_text="the event, in the study's words")
+    by = forms.ChoiceField(
+        label="caused by", choices=[(cause, cause) for cause in TRANSITION_CAUSES]
+    )
+    cue = forms.ChoiceField(
+        choices=[(cue, cue.replace("_", " ")) for cue in CUES],
+        help_text="how the person learns of the change",
+    )
+    per_day = forms.FloatField(
+        required=False,
+        label="rate per day",
+        help_text="while in the 'from' mode; blank: not counted in the day's mode shares",
+        widget=forms.NumberInput(attrs={"step": "any"}),
+    )
+    notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
+
+    groups = (
+        ("From", "from", ("source",)),
+        ("To", "to", ("target",)),
+        ("Trigger", "trigger", ("trigger",)),
+        ("Caused by", "by", ("by",)),
+        ("Cue", "cue", ("cue",)),
+        ("Rate per day", "per_day", ("per_day",)),
+        ("Notes", "notes", ("notes",)),
+    )
+
+    def __init__(self, *args: Any, modes: list[tuple[str, str]], **kwargs: Any):
+        super().__init__(*args, **kwargs)
+        self.fields["source"].choices = modes
+        self.fields["target"].choices = modes
+
+    @staticmethod
+    def initial_for(item: dict[str, Any]) -> dict[str, Any]:
+        return {
+            "source": item["from"],
+            "target": item["to"],
+            "trigger": item["trigger"],
+            "by": item["by"],
+            "cue": item["cue"],
+            "per_day": item.get("per_day", ""),
+            "notes": item.get("notes", ""),
+        }
+
+    def item(self) -> dict[str, Any]:
+        data = self.cleaned_data
+        item: dict[str, Any] = {
+            "from": data["source"],
+            "to": data["target"],
+            "trigger": data["trigger"].strip(),
+            "by": data["by"],
+            "cue": data["cue"],
+        }
+        if data["per_day"] is not None:
+            item["per_day"] = file_number(data["per_day"])
+        self._text("notes", "notes", item)
+        return item

@@ -1,0 +1,195 @@
+"""Forms of the plan editor: one row (who does a task and how), several rows at once, and
+a plan's own fields."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from django import forms
+
+from allocation.core import Study
+from allocation.core.scales import EK10_LEVELS, SV10_LEVELS
+from allocation.core.vocabulary import (
+    ASSIGNMENT_STATUSES,
+    CUES,
+    INITIATORS,
+    STAGE_NAMES,
+    STAGES,
+)
+from allocation.forms.base import optional_choices
+
+WHO_CHOICES = [
+    ("person", "person"),
+    ("device", "device"),
+    ("shared", "shared"),
+    ("not_applicable", "not done in this plan"),
+    ("unallocated", "not allocated yet"),
+]
+
+
+def level_choices(scale: str) -> list[tuple[str, str]]:
+    """Levels with their words, for a select."""
+    if scale == "ek10":
+        return [(str(n), f"{n} {name}") for n, (name, _roles) in EK10_LEVELS.items()]
+    return [(str(n), f"{n} — {text}") for n, text in SV10_LEVELS.items()]
+
+
+class AssignmentForm(forms.Form):
+    """One row of the plan editor: who does a leaf task and how."""
+
+    who = forms.ChoiceField(choices=WHO_CHOICES)
+    human = forms.ChoiceField(required=False)
+    automation = forms.ChoiceField(required=False)
+    per_stage = forms.BooleanField(required=False)
+    level = forms.ChoiceField(required=False)
+    accountable = forms.ChoiceField(required=False)
+    feedback = forms.ChoiceField(required=False, choices=optional_choices(CUES, "—"))
+    initiator = forms.ChoiceField(required=False, choices=optional_choices(INITIATORS, "—"))
+    status = forms.ChoiceField(required=False, choices=optional_choices(ASSIGNMENT_STATUSES, "—"))
+    rationale = forms.CharField(required=False, max_length=2000)
+
+    def __init__(
+        self, *args: Any, study: Study, existing: dict[str, Any] | None = None, **kwargs: Any
+    ):
+        super().__init__(*args, **kwargs)
+        self.study = study
+        self.existing = existing or {}
+        humans = [("", "—")] + [(a.id, a.name) for a in study.agents if a.is_human]
+        machines = [("", "—")] + [(a.id, a.name) for a in study.agents if not a.is_human]
+        self.fields["human"].choices = humans
+        self.fields["automation"].choices = machines
+        self.fields["accountable"].choices = [("", "default (the person doing it)")] + [
+            (a.id, a.name) for a in study.agents
+        ]
+        levels = [("", "—")] + level_choices(study.scale)
+        self.fields["level"].choices = levels
+        if study.scale == "sv10":
+            for stage in STAGES:
+                self.fields[f"level_{stage}"] = forms.ChoiceField(
+                    required=False, choices=levels, label=STAGE_NAMES[stage]
+                )
+
+    @staticmethod
+    def initial_for(item: dict[str, Any] | None) -> dict[str, Any]:
+        """The form's initial values for a study-file assignment (or none)."""
+        if item is None:
+            return {"who": "unallocated"}
+        if item.get("applies") is False:
+            who = "not_applicable"
+        elif "human" in item and "automation" in item:
+            who = "shared"
+        else:
+            who = "person" if "human" in item else "device"
+        initial: dict[str, Any] = {
+            "who": who,
+            **{
+                key: item.get(key, "")
+                for key in (
+                    "human",
+                    "automation",
+                    "accountable",
+                    "feedback",
+                    "initiator",
+                    "status",
+                    "rationale",
+                )
+            },
+        }
+        levels = item.get("levels")
+        if isinstance(levels, dict):
+            initial["per_stage"] = True
+            initial.update({f"level_{stage}": str(levels[stage]) for stage in STAGES})
+            initial["level"] = str(levels["decision"])
+        elif levels is not None:
+            initial["level"] = str(levels)
+        return initial
+
+    def clean(self) -> dict[str, Any]:
+        data = super().clean()
+        who = data.get("who")
+        if who in ("person", "shared") and not data.get("human"):
+            self.add_error("human", "Choose the person who does it.")
+        if who in ("device", "shared") and not data.get("automation"):
+            self.add_error("automation", "Choose the device that does it.")
+        return data
+
+    def item(self) -> dict[str, Any] | None:
+        """The study-file assignment the form describes (``None``: not allocated).
+
+        Keys the editor does not show (a duration override) are kept from before.
+        """
+        data = self.cleaned_data
+        who = data["who"]
+        if who == "unallocated":
+            return None
+        item: dict[str, Any] = {}
+        if who == "not_applicable":
+            item["applies"] = False
+        else:
+            if who in ("person", "shared") and data["human"]:
+                item["human"] = data["human"]
+            if who in ("device", "shared") and data["automation"]:
+                item["automation"] = data["automation"]
+            levels = self._levels() if who == "shared" else None
+            if levels is not None:
+                item["levels"] = levels
+            if "duration_s" in self.existing:
+                item["duration_s"] = self.existing["duration_s"]
+            for key in ("accountable", "feedback", "initiator"):
+                if data[key]:
+                    item[key] = data[key]
+        for key in ("status", "rationale"):
+            if data[key].strip():
+                item[key] = data[key].strip()
+        return item
+
+    def _levels(self) -> Any:
+        data = self.cleaned_data
+        if self.study.scale == "sv10" and data.get("per_stage"):
+            stages = {stage: data.get(f"level_{stage}") or data["level"] for stage in STAGES}
+            if all(stages.values()):
+                return {stage: int(value) for stage, value in stages.items()}
+        # A missing level stays missing: the core then says the task needs levels.
+        return int(data["level"]) if data["level"] else None
+
+
+class BulkForm(forms.Form):
+    """Apply a level or a status to the selected rows of a plan."""
+
+    tasks = forms.MultipleChoiceField()
+    level = forms.ChoiceField(required=False)
+    status = forms.ChoiceField(required=False, choices=optional_choices(ASSIGNMENT_STATUSES, "—"))
+
+    def __init__(self, *args: Any, study: Study, **kwargs: Any):
+        super().__init__(*args, **kwargs)
+        self.fields["tasks"].choices = [(task.id, task.id) for task in study.leaves]
+        self.fields["level"].choices = [("", "—")] + level_choices(study.scale)
+
+    def changes(self) -> dict[str, Any]:
+        data = self.cleaned_data
+        changes: dict[str, Any] = {}
+        if data["level"]:
+            changes["levels"] = int(data["level"])
+        if data["status"]:
+            changes["status"] = data["status"]
+        return changes
+
+    def clean(self) -> dict[str, Any]:
+        data = super().clean()
+        if not (data.get("level") or data.get("status")):
+            raise forms.ValidationError("Choose a level or a status to apply.")
+        return data
+
+
+class PlanForm(forms.Form):
+    """A plan's id and name (for a new plan, a copy or a rename)."""
+
+    id = forms.CharField(max_length=64, label="Id")
+    name = forms.CharField(max_length=200)
+    description = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
+
+    def item(self) -> dict[str, Any]:
+        item = {"id": self.cleaned_data["id"].strip(), "name": self.cleaned_data["name"].strip()}
+        if self.cleaned_data["description"].strip():
+            item["description"] = self.cleaned_data["description"].strip()
+        return item
