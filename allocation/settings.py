@@ -167,7 +167,7 @@ SECURE_CONTENT_TYPE_NOSNIFF = True
 SECURE_REFERRER_POLICY = "same-origin"
 X_FRAME_OPTIONS = "DENY"
 
-# Issue 8, security: the content security policy (allocation/security.py) is set by its
+# Security: the content security policy (allocation/security.py) is set by its
 # middleware; Cross-Origin-Opener-Policy "same-origin" is Django's default, named here so
 # it stays.
 SECURE_CROSS_ORIGIN_OPENER_POLICY = "same-origin"
