@@ -11,6 +11,7 @@ BATON_SECURE_SSL     "0" to switch off HTTPS redirects and secure cookies behind
 
 from __future__ import annotations
 
+import datetime as dt
 import os
 from pathlib import Path
 
@@ -53,6 +54,7 @@ INSTALLED_APPS = [
     "django_htmx",
     "django_tasks",
     "django_tasks_db",
+    "axes",
     "allocation",
 ]
 
@@ -69,6 +71,8 @@ MIDDLEWARE = [
     "django_htmx.middleware.HtmxMiddleware",
     "allocation.web.middleware.AuditActorMiddleware",
     "allocation.web.faults.DatabaseUnavailableMiddleware",  # issue 8, faults: the 503 page
+    # Last, as django-axes asks: turns a locked-out sign-in into Baton's sign-in page.
+    "axes.middleware.AxesMiddleware",
 ]
 
 # Background work (simulation runs) goes through Django's tasks API; the database backend
@@ -163,20 +167,48 @@ SECURE_CONTENT_TYPE_NOSNIFF = True
 SECURE_REFERRER_POLICY = "same-origin"
 X_FRAME_OPTIONS = "DENY"
 
-# Issue 8, security: the content security policy (allocation/security.py) is set by its
+# Security: the content security policy (allocation/web/security.py) is set by its
 # middleware; Cross-Origin-Opener-Policy "same-origin" is Django's default, named here so
-# it stays. Sign-in attempts are throttled: after 5 failures for a user name or from an
-# address within 15 minutes, sign-in is refused for 15 minutes (counts in the default
-# cache; the backend refuses while locked, whichever sign-in form asks).
+# it stays.
 SECURE_CROSS_ORIGIN_OPENER_POLICY = "same-origin"
-AUTHENTICATION_BACKENDS = ["allocation.web.security.ThrottledModelBackend"]
-BATON_SIGN_IN_LIMIT = 5
-BATON_SIGN_IN_WINDOW_S = 15 * 60
-BATON_SIGN_IN_LOCKOUT_S = 15 * 60
+
+# Sign-in attempts (django-axes): 5 failures for one user name from one address lock that
+# name from that address (the two together, so one person's mistakes lock out nobody else
+# behind the same address) until 15 minutes after the last failure; attempts while
+# locked neither count nor extend it, and a successful sign-in clears the failures. The
+# failures live in the database (the database handler), so every gunicorn worker and
+# machine sees the same count. Axes's backend comes first and refuses a locked sign-in
+# before the password is checked, whichever form asks; the lock shows Baton's sign-in
+# page with how long to wait (allocation/web/security.py).
+AUTHENTICATION_BACKENDS = [
+    "axes.backends.AxesStandaloneBackend",
+    "django.contrib.auth.backends.ModelBackend",
+]
+AXES_HANDLER = "axes.handlers.database.AxesDatabaseHandler"
+AXES_FAILURE_LIMIT = 5
+AXES_COOLOFF_TIME = dt.timedelta(minutes=15)
+AXES_LOCKOUT_PARAMETERS = [["username", "ip_address"]]
+AXES_RESET_ON_SUCCESS = True
+AXES_RESET_COOL_OFF_ON_FAILURE_DURING_LOCKOUT = False
+AXES_LOCKOUT_CALLABLE = "allocation.web.security.sign_in_refused"
 # Behind proxies (gunicorn on 127.0.0.1 behind a TLS proxy), every request comes from the
-# proxy: BATON_PROXY_HOPS=1 counts attempts by the address the proxy puts last in
-# X-Forwarded-For instead.
+# proxy: BATON_PROXY_HOPS=N takes the client's address from the N-th X-Forwarded-For
+# entry from the right, the one the outermost trusted proxy added; entries left of it are
+# whatever the client sent and are never used. In django-ipware's terms (which axes
+# uses): left-most order, N - 1 proxies in the header, and not strict, so extra entries
+# the client put in front are skipped rather than making the whole header distrusted.
+# Without the header a request counts by REMOTE_ADDR; with two or more hops, a header
+# shorter than that (a request that bypassed a proxy) counts with no address, so all
+# such attempts on one user name are counted together.
 BATON_PROXY_HOPS = int(os.environ.get("BATON_PROXY_HOPS", "0"))
+AXES_IPWARE_PROXY_ORDER = "left-most"
+if BATON_PROXY_HOPS > 0:
+    AXES_IPWARE_PROXY_COUNT = BATON_PROXY_HOPS - 1
+    AXES_IPWARE_META_PRECEDENCE_ORDER = ("HTTP_X_FORWARDED_FOR", "REMOTE_ADDR")
+else:
+    AXES_IPWARE_PROXY_COUNT = None
+    AXES_IPWARE_META_PRECEDENCE_ORDER = ("REMOTE_ADDR",)
+IPWARE_STRICT = False
 
 if not DEBUG:
     _secure = _flag("BATON_SECURE_SSL", True)

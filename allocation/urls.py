@@ -245,7 +245,8 @@ urlpatterns = [
         spreadsheets.plan_import_discard,
         name="plan-import-discard",
     ),
-    # The sign-in with its attempt limit (allocation/security.py), before Django's own.
+    # The sign-in with Baton's wording (allocation/web/security.py; django-axes limits the
+    # attempts), before Django's own.
     path(
         "accounts/login/",
         LoginView.as_view(authentication_form=SignInForm),

@@ -21,9 +21,10 @@ What is backed up: every model of the ``allocation`` app (studies with all their
 memberships, snapshots, comments, decisions, workload ratings, the audit trail,
 simulation runs with their chunks and results) and every user (username, password hash,
 names, e-mail, flags, dates). Left out: the users' Django groups and permissions
-(Baton's access is the study memberships), sessions, the admin's own log and the task
-queue (a run still queued or running at backup time comes back with its chunks so far
-and no queued work: request it again).
+(Baton's access is the study memberships), sessions, the admin's own log, django-axes's
+sign-in attempt records and access log (a restored Baton starts with no one locked out)
+and the task queue (a run still queued or running at backup time comes back with its
+chunks so far and no queued work: request it again).
 
 Reading the database for a backup happens in one read transaction (``REPEATABLE READ``
 on PostgreSQL; a deferred read transaction on SQLite, whose WAL keeps writers going), so

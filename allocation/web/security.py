@@ -5,40 +5,36 @@
   htmx, plotly.js and our scripts are served locally, and the figure data travels as
   ``<script type="application/json">`` (data, never executed). Styles allow inline
   ``style`` attributes, which plotly.js and a few swatches use.
-- Sign-in throttling: after ``BATON_SIGN_IN_LIMIT`` failed attempts for one user name, or
-  from one client address, within ``BATON_SIGN_IN_WINDOW_S`` seconds, further attempts
-  are refused for ``BATON_SIGN_IN_LOCKOUT_S`` seconds. Counts live in Django's default
-  cache (per process with the local-memory cache; share a cache between workers to make
-  the limit global). :class:`SignInForm` refuses a locked sign-in with a clear message
-  before checking the password; the ``user_login_failed`` signal counts every failure
-  (the admin's sign-in too) and :class:`ThrottledModelBackend` refuses authentication
-  while locked, whichever form asks.
+- Sign-in attempts are limited by django-axes (settings ``AXES_*``): its authentication
+  backend refuses a locked sign-in before the password is checked, whichever form asks
+  (Baton's or the admin's), and its database handler keeps the failures in the database,
+  so the limit holds across gunicorn workers and machines. What a locked-out person sees
+  is Baton's own sign-in page: :func:`sign_in_refused` is ``AXES_LOCKOUT_CALLABLE`` and
+  shows :class:`SignInForm` with a message saying how long to wait.
 """
 
 from __future__ import annotations
 
-import hashlib
+import datetime as dt
 import math
-import time
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 
+from axes.handlers.proxy import AxesProxyHandler
+from axes.helpers import get_cool_off, get_failure_limit
 from django.conf import settings
-from django.contrib.auth import user_logged_in, user_login_failed
-from django.contrib.auth.backends import ModelBackend
 from django.contrib.auth.forms import AuthenticationForm
-from django.core.cache import cache
 from django.core.exceptions import ValidationError
-from django.dispatch import receiver
 from django.http import HttpRequest, HttpResponse
+from django.shortcuts import render
+from django.utils import timezone
+from django.utils.http import url_has_allowed_host_and_scheme
 
 __all__ = [
     "CONTENT_SECURITY_POLICY",
     "ContentSecurityPolicyMiddleware",
     "SignInForm",
-    "ThrottledModelBackend",
-    "sign_in_failed",
-    "sign_in_locked",
-    "sign_in_succeeded",
+    "sign_in_refused",
+    "sign_in_wait",
 ]
 
 #: The policy every page is served with (``BATON_CONTENT_SECURITY_POLICY`` overrides it).
@@ -74,128 +70,97 @@ class ContentSecurityPolicyMiddleware:
         return response
 
 
-# -- sign-in throttling ------------------------------------------------------------------
+# -- sign-in attempts --------------------------------------------------------------------
 
 
-def _limit() -> int:
-    return getattr(settings, "BATON_SIGN_IN_LIMIT", 5)
-
-
-def _window_s() -> int:
-    return getattr(settings, "BATON_SIGN_IN_WINDOW_S", 15 * 60)
-
-
-def _lockout_s() -> int:
-    return getattr(settings, "BATON_SIGN_IN_LOCKOUT_S", 15 * 60)
-
-
-def _keys(username: str | None, address: str | None) -> list[str]:
-    # Hashed so that any user name (spaces, long, unicode) makes a valid cache key.
-    keys = []
-    if username:
-        digest = hashlib.sha256(username.strip().casefold().encode()).hexdigest()
-        keys.append(f"baton:sign-in:user:{digest}")
-    if address:
-        keys.append(f"baton:sign-in:addr:{hashlib.sha256(address.encode()).hexdigest()}")
-    return keys
-
-
-def client_address(request: HttpRequest | None) -> str | None:
-    """The address the request came from: ``REMOTE_ADDR``, or behind ``BATON_PROXY_HOPS``
-    trusted proxies the entry of ``X-Forwarded-For`` the outermost of them added (the
-    entries before it are whatever the client sent, so they are never trusted)."""
-    if request is None:
-        return None
-    hops = getattr(settings, "BATON_PROXY_HOPS", 0)
-    forwarded = [part.strip() for part in request.META.get("HTTP_X_FORWARDED_FOR", "").split(",")]
-    forwarded = [part for part in forwarded if part]
-    if hops and len(forwarded) >= hops:
-        return forwarded[-hops]
-    return request.META.get("REMOTE_ADDR") or None
-
-
-def sign_in_locked(username: str | None, address: str | None) -> int:
-    """Seconds until sign-in for this user name or from this address is allowed again
-    (0 when it is allowed now)."""
-    now = time.time()
-    until = [cache.get(f"{key}:locked") for key in _keys(username, address)]
-    left = max([u - now for u in until if u is not None], default=0)
-    return math.ceil(left) if left > 0 else 0
-
-
-def sign_in_failed(username: str | None, address: str | None) -> None:
-    """Count one failed attempt; the attempt that reaches the limit starts the lockout."""
-    for key in _keys(username, address):
-        cache.add(f"{key}:failures", 0, timeout=_window_s())
-        try:
-            failures = cache.incr(f"{key}:failures")
-        except ValueError:  # expired between add and incr: this is the first of a new window
-            cache.set(f"{key}:failures", 1, timeout=_window_s())
-            failures = 1
-        if failures >= _limit():
-            cache.set(f"{key}:locked", time.time() + _lockout_s(), timeout=_lockout_s())
-            cache.delete(f"{key}:failures")
-
-
-def sign_in_succeeded(username: str | None) -> None:
-    """Forget the user name's failures. The address's count is kept: otherwise one client
-    could try names without end by signing in to its own account between guesses."""
-    for key in _keys(username, None):
-        cache.delete_many([f"{key}:failures", f"{key}:locked"])
-
-
-def _minutes(seconds: int) -> str:
+def _minutes(seconds: float) -> str:
     minutes = max(1, math.ceil(seconds / 60))
     return "1 minute" if minutes == 1 else f"{minutes} minutes"
 
 
 class SignInForm(AuthenticationForm):
-    """Django's sign-in form, refusing at once (password unchecked) while locked out."""
+    """Django's sign-in form with Baton's wording. A locked sign-in never reaches its
+    password check: django-axes's backend refuses it first."""
 
     error_messages = {
         **AuthenticationForm.error_messages,
         "invalid_login": "Your user name and password did not match. Try again.",
         "locked": (
-            "Too many failed sign-in attempts for this user name or from this address. "
+            "Too many failed sign-in attempts for this user name from this address. "
             "Sign-in is refused for %(wait)s; try again after that."
         ),
     }
 
+
+class _RefusedSignInForm(SignInForm):
+    """The sign-in form as a refused attempt shows it: the posted user name kept, the
+    refusal as its error, and no authentication (which would count one more failure)."""
+
+    def __init__(self, *args, wait: str, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self.wait = wait
+
     def clean(self):
-        username = self.cleaned_data.get("username")
-        wait = sign_in_locked(username, client_address(self.request))
-        if wait:
-            raise ValidationError(
-                self.error_messages["locked"], code="locked", params={"wait": _minutes(wait)}
-            )
-        return super().clean()
+        raise ValidationError(
+            self.error_messages["locked"], code="locked", params={"wait": self.wait}
+        )
 
 
-class ThrottledModelBackend(ModelBackend):
-    """The model backend, refusing every sign-in while the name or address is locked."""
-
-    def authenticate(self, request, username=None, password=None, **kwargs):
-        if username is None:
-            username = kwargs.get(self.user_model_username_field())
-        if sign_in_locked(username, client_address(request)):
-            return None
-        return super().authenticate(request, username=username, password=password, **kwargs)
-
-    @staticmethod
-    def user_model_username_field() -> str:
-        from django.contrib.auth import get_user_model
-
-        return get_user_model().USERNAME_FIELD
-
-
-@receiver(user_login_failed, dispatch_uid="baton-sign-in-failed")
-def _count_failure(sender, credentials, request=None, **kwargs) -> None:
-    from django.contrib.auth import get_user_model
-
-    username = credentials.get(get_user_model().USERNAME_FIELD) or credentials.get("username")
-    sign_in_failed(username, client_address(request))
+def _lock_ends(
+    attempts: Iterable[tuple[dt.datetime, int]], limit: int, cool_off: dt.timedelta
+) -> dt.datetime | None:
+    """When the failures stop reaching the limit: django-axes counts the failures of the
+    records touched within the cool-off, so the oldest records fall out one by one."""
+    attempts = sorted(attempts)
+    total = sum(failures for _, failures in attempts)
+    ends = None
+    for touched, failures in attempts:
+        if total < limit:
+            break
+        ends = touched + cool_off
+        total -= failures
+    return ends
 
 
-@receiver(user_logged_in, dispatch_uid="baton-sign-in-succeeded")
-def _reset_failures(sender, request, user, **kwargs) -> None:
-    sign_in_succeeded(user.get_username())
+def sign_in_wait(request: HttpRequest, credentials: dict | None = None) -> dt.timedelta:
+    """How long sign-in stays refused for this request's user name and address, read from
+    django-axes's records in the database (the whole cool-off when none are found)."""
+    cool_off = get_cool_off(request) or dt.timedelta(0)
+    handler = AxesProxyHandler.get_implementation()
+    if not hasattr(handler, "get_user_attempts"):  # a handler without database records
+        return cool_off
+    AxesProxyHandler.update_request(request)
+    limit = get_failure_limit(request, credentials)
+    ends = [
+        _lock_ends(attempts.values_list("attempt_time", "failures_since_start"), limit, cool_off)
+        for attempts in handler.get_user_attempts(request, credentials)
+    ]
+    ends = [end for end in ends if end is not None]
+    if not ends:
+        return cool_off
+    return max(max(ends) - timezone.now(), dt.timedelta(0))
+
+
+def sign_in_refused(
+    request: HttpRequest,
+    original_response: HttpResponse | None = None,
+    credentials: dict | None = None,
+) -> HttpResponse:
+    """``AXES_LOCKOUT_CALLABLE``: Baton's sign-in page saying how long to wait, with
+    ``Retry-After`` (the admin's sign-in shows the same page)."""
+    seconds = sign_in_wait(request, credentials).total_seconds()
+    form = _RefusedSignInForm(request, data=request.POST, wait=_minutes(seconds))
+    form.is_valid()  # fills in the refusal
+    next_url = request.POST.get("next") or request.GET.get("next") or ""
+    if not url_has_allowed_host_and_scheme(
+        next_url, allowed_hosts={request.get_host()}, require_https=request.is_secure()
+    ):
+        next_url = ""
+    response = render(
+        request,
+        "registration/login.html",
+        {"form": form, "next": next_url},
+        status=getattr(settings, "AXES_HTTP_RESPONSE_CODE", 429),
+    )
+    response["Retry-After"] = str(max(1, math.ceil(seconds)))
+    return response

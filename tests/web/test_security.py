@@ -9,6 +9,8 @@ attributes and JavaScript data), OWASP CSV Injection, OWASP Authentication Cheat
 from __future__ import annotations
 
 import copy
+import datetime as dt
+import importlib.util
 import io
 import json
 import os
@@ -18,13 +20,17 @@ import sys
 from pathlib import Path
 
 import pytest
-from django.contrib.auth import authenticate
+from axes.helpers import get_client_ip_address
+from axes.models import AccessAttempt
+from django.contrib.auth import authenticate, get_user_model
 from django.core.cache import cache
+from django.core.management import call_command
+from django.db.models import F
+from django.test import Client
 from django.urls import reverse
 
 from allocation import models as m
 from allocation import services
-from allocation.web import security
 from tests.core.conftest import HOME_HEATING
 
 from .conftest import make_user
@@ -368,95 +374,261 @@ def test_production_settings_send_every_header(tmp_path):
 
 
 # -- sign-in attempts ------------------------------------------------------------------
+# The limit (OWASP Authentication Cheat Sheet, login throttling): 5 failed attempts for
+# one user name from one address lock that name from that address for 15 minutes. The
+# failures are django-axes's records in the database.
+
+WAIT_MESSAGE = "Too many failed sign-in attempts"
 
 
-@pytest.fixture
-def clean_cache():
-    cache.clear()
-    yield
-    cache.clear()
-
-
-def _sign_in(client, username: str, password: str, address: str = "10.0.0.1"):
+def _sign_in(client, username: str, password: str, address: str = "10.0.0.1", **extra):
     return client.post(
-        reverse("login"), {"username": username, "password": password}, REMOTE_ADDR=address
+        reverse("login"),
+        {"username": username, "password": password},
+        REMOTE_ADDR=address,
+        **extra,
     )
 
 
-def test_five_failures_lock_the_user_name_for_fifteen_minutes(client, db, clean_cache):
+def _lock(client, username: str, address: str = "10.0.0.1"):
+    """Fail five times; the fifth answer is the refusal."""
+    for attempt in range(1, 6):
+        response = _sign_in(client, username, "wrong", address)
+        if attempt < 5:
+            assert "did not match" in response.content.decode(), attempt
+    return response
+
+
+def _age_attempts(**delta) -> None:
+    """Move every recorded failure back in time, as if that much time had passed."""
+    AccessAttempt.objects.update(attempt_time=F("attempt_time") - dt.timedelta(**delta))
+
+
+def _signed_in(response, client) -> bool:
+    return response.status_code == 302 and "_auth_user_id" in client.session
+
+
+def test_five_failures_lock_the_user_name_from_that_address(client, db):
     make_user("alice")
-    for _ in range(5):
-        response = _sign_in(client, "alice", "wrong")
-        assert "did not match" in response.content.decode()
-    # Locked: even the right password is refused, with a clear message.
+    response = _lock(client, "alice")
+    # The fifth failure already answers with Baton's sign-in page and the wait.
+    page = response.content.decode()
+    assert response.status_code == 429 and WAIT_MESSAGE in page and "15 minutes" in page
+    assert 'action="/accounts/login/"' in page and 'value="alice"' in page
+    assert 14 * 60 < int(response["Retry-After"]) <= 15 * 60
+    # Locked: even the right password is refused, with the same clear message.
     response = _sign_in(client, "alice", "correct horse battery")
     page = response.content.decode()
-    assert response.status_code == 200 and "_auth_user_id" not in client.session
-    assert "Too many failed sign-in attempts" in page and "15 minutes" in page
-    # From another address too: the lock is on the name.
-    assert "Too many" in _sign_in(client, "alice", "x", address="10.9.9.9").content.decode()
+    assert response.status_code == 429 and "_auth_user_id" not in client.session
+    assert WAIT_MESSAGE in page and "15 minutes" in page
 
 
-def test_the_lock_ends_after_fifteen_minutes(client, db, clean_cache, monkeypatch):
-    import time
+def test_another_user_from_the_same_address_is_not_locked(client, db):
+    make_user("alice"), make_user("bob")
+    _lock(client, "alice", "10.0.0.1")
+    assert _signed_in(_sign_in(client, "bob", "correct horse battery", "10.0.0.1"), client)
 
+
+def test_the_same_user_from_another_address_is_not_locked(client, db):
+    """Name and address are locked together: one person's mistakes lock out nobody else,
+    and a guesser at one address does not lock the owner of the name out."""
     make_user("alice")
-    for _ in range(5):
-        _sign_in(client, "alice", "wrong")
-    now = time.time()
-    monkeypatch.setattr(security.time, "time", lambda: now + 15 * 60 + 1)
-    assert security.sign_in_locked("alice", "10.0.0.1") == 0
-    response = _sign_in(client, "alice", "correct horse battery")
-    assert response.status_code == 302 and "_auth_user_id" in client.session
+    _lock(client, "alice", "10.0.0.1")
+    assert _signed_in(_sign_in(client, "alice", "correct horse battery", "10.0.0.2"), client)
 
 
-def test_four_failures_then_success_resets_the_count(client, db, clean_cache):
+def test_the_lock_ends_fifteen_minutes_after_the_fifth_failure(client, db):
+    make_user("alice")
+    _lock(client, "alice")
+    _age_attempts(minutes=14)
+    page = _sign_in(client, "alice", "correct horse battery").content.decode()
+    assert WAIT_MESSAGE in page and "1 minute;" in page
+    _age_attempts(minutes=1, seconds=1)
+    assert _signed_in(_sign_in(client, "alice", "correct horse battery"), client)
+
+
+def test_attempts_while_locked_neither_count_nor_extend_the_lock(client, db):
+    make_user("alice")
+    _lock(client, "alice")
+    _age_attempts(minutes=10)
+    for _ in range(3):
+        page = _sign_in(client, "alice", "wrong").content.decode()
+        assert WAIT_MESSAGE in page and "5 minutes" in page
+    assert AccessAttempt.objects.get().failures_since_start == 5
+    _age_attempts(minutes=5, seconds=1)
+    assert _signed_in(_sign_in(client, "alice", "correct horse battery"), client)
+
+
+def test_four_failures_then_success_resets_the_count(client, db):
     make_user("alice")
     for _ in range(4):
         _sign_in(client, "alice", "wrong")
-    assert (
-        _sign_in(client, "alice", "correct horse battery", address="10.0.0.2").status_code == 302
-    )
+    assert _signed_in(_sign_in(client, "alice", "correct horse battery"), client)
+    assert not AccessAttempt.objects.exists()
     client.logout()
     for _ in range(4):  # four more: still not locked, the count started again
-        _sign_in(client, "alice", "wrong", address="10.0.0.3")
-    assert (
-        _sign_in(client, "alice", "correct horse battery", address="10.0.0.4").status_code == 302
-    )
+        assert "did not match" in _sign_in(client, "alice", "wrong").content.decode()
+    assert _signed_in(_sign_in(client, "alice", "correct horse battery"), client)
 
 
-def test_five_failures_from_one_address_lock_that_address(client, db, clean_cache):
-    make_user("bob")
-    for name in ("a1", "a2", "a3", "a4", "a5"):
-        _sign_in(client, name, "guess")
-    page = _sign_in(client, "bob", "correct horse battery").content.decode()
-    assert "Too many failed sign-in attempts" in page
-    # Another address is not affected.
-    assert _sign_in(client, "bob", "correct horse battery", address="10.0.0.7").status_code == 302
+def test_the_lock_is_in_the_database(client, db):
+    """Another browser, another process's empty cache: the lock still holds."""
+    make_user("alice")
+    _lock(client, "alice", "10.0.0.9")
+    attempt = AccessAttempt.objects.get()
+    assert (attempt.username, attempt.ip_address) == ("alice", "10.0.0.9")
+    assert attempt.failures_since_start == 5
+    cache.clear()
+    other = Client()
+    response = _sign_in(other, "alice", "correct horse battery", "10.0.0.9")
+    assert response.status_code == 429 and WAIT_MESSAGE in response.content.decode()
+    assert "_auth_user_id" not in other.session
 
 
-def test_the_backend_refuses_while_locked_whichever_form_asks(db, clean_cache, rf):
+def test_the_backend_refuses_while_locked_whichever_form_asks(client, db, rf):
     make_user("carol")
     request = rf.post("/admin/login/", REMOTE_ADDR="10.0.0.8")
     for _ in range(5):
         assert authenticate(request, username="carol", password="wrong") is None
-    assert authenticate(request, username="carol", password="correct horse battery") is None
-    assert security.sign_in_locked("CAROL ", None) > 0  # names compare case-blind
+    fresh = rf.post("/admin/login/", REMOTE_ADDR="10.0.0.8")
+    assert authenticate(fresh, username="carol", password="correct horse battery") is None
+    # The admin's sign-in answers with Baton's sign-in page and the wait.
+    response = client.post(
+        reverse("admin:login"),
+        {"username": "carol", "password": "correct horse battery", "next": "/admin/"},
+        REMOTE_ADDR="10.0.0.8",
+    )
+    page = response.content.decode()
+    assert response.status_code == 429 and WAIT_MESSAGE in page
+    assert 'name="next" value="/admin/"' in page and "_auth_user_id" not in client.session
 
 
-def test_sign_in_writes_no_audit_entries(client, db, clean_cache):
+def test_the_refusal_page_keeps_the_security_headers(client, db):
+    make_user("alice")
+    response = _lock(client, "alice")
+    assert "script-src 'self'" in response["Content-Security-Policy"]
+    assert response["X-Frame-Options"] == "DENY"
+
+
+def test_a_foreign_next_address_is_not_carried(client, db):
+    make_user("alice")
+    _lock(client, "alice")
+    response = client.post(
+        reverse("login"),
+        {"username": "alice", "password": "x", "next": "https://elsewhere.invalid/"},
+        REMOTE_ADDR="10.0.0.1",
+    )
+    assert "elsewhere.invalid" not in response.content.decode()
+
+
+def test_sign_in_writes_no_audit_entries(client, db):
     make_user("dora")
     for _ in range(6):
         _sign_in(client, "dora", "wrong")
     assert m.AuditEntry.objects.count() == 0
 
 
-def test_behind_a_proxy_the_forwarded_address_counts(rf, settings):
-    """With one trusted proxy, its X-Forwarded-For entry is the client; what the client
-    itself put before it is ignored (it could name anyone)."""
-    request = rf.get("/", REMOTE_ADDR="127.0.0.1", HTTP_X_FORWARDED_FOR="6.6.6.6, 10.1.2.3")
-    settings.BATON_PROXY_HOPS = 0
-    assert security.client_address(request) == "127.0.0.1"
-    settings.BATON_PROXY_HOPS = 1
-    assert security.client_address(request) == "10.1.2.3"
-    assert security.client_address(rf.get("/", REMOTE_ADDR="10.0.0.1")) == "10.0.0.1"
+def test_reset_commands_unlock(client, db):
+    """django-axes's commands: by address and name, by name, by address, everything."""
+    for name in ("alice", "bob", "carol"):
+        make_user(name)
+    _lock(client, "alice", "10.0.0.1")
+    _lock(client, "bob", "10.0.0.2")
+    _lock(client, "carol", "10.0.0.3")
+    listed = io.StringIO()
+    call_command("axes_list_attempts", stdout=listed)
+    assert all(name in listed.getvalue() for name in ("alice", "bob", "carol"))
+
+    call_command("axes_reset_ip_username", "10.0.0.1", "alice", stdout=io.StringIO())
+    assert _signed_in(_sign_in(client, "alice", "correct horse battery", "10.0.0.1"), client)
+    client.logout()
+    assert _sign_in(client, "bob", "correct horse battery", "10.0.0.2").status_code == 429
+
+    call_command("axes_reset_username", "bob", stdout=io.StringIO())
+    assert _signed_in(_sign_in(client, "bob", "correct horse battery", "10.0.0.2"), client)
+    client.logout()
+
+    call_command("axes_reset_ip", "10.0.0.3", stdout=io.StringIO())
+    assert _signed_in(_sign_in(client, "carol", "correct horse battery", "10.0.0.3"), client)
+    client.logout()
+
+    _lock(client, "alice", "10.0.0.4")
+    out = io.StringIO()
+    call_command("axes_reset", stdout=out)
+    assert "1 attempts removed" in out.getvalue() and not AccessAttempt.objects.exists()
+
+
+def test_the_admin_lists_and_resets_locks(client, db):
+    admin = get_user_model().objects.create_superuser("root", password="correct horse battery")
+    make_user("alice")
+    _lock(client, "alice", "10.0.0.5")
+    client.force_login(admin)
+    index = client.get(reverse("admin:index")).content.decode()
+    assert "Access attempts" in index and reverse("admin:axes_accessattempt_changelist") in index
+    listing = client.get(reverse("admin:axes_accessattempt_changelist")).content.decode()
+    assert "alice" in listing and "10.0.0.5" in listing
+    attempt = AccessAttempt.objects.get()
+    response = client.post(
+        reverse("admin:axes_accessattempt_changelist"),
+        {"action": "delete_selected", "_selected_action": [attempt.pk], "post": "yes"},
+    )
+    assert response.status_code == 302 and not AccessAttempt.objects.exists()
+    client.logout()
+    assert _signed_in(_sign_in(client, "alice", "correct horse battery", "10.0.0.5"), client)
+
+
+def _proxy_settings(monkeypatch, settings, hops: int) -> None:
+    """What allocation/settings.py makes of BATON_PROXY_HOPS, read from a fresh copy of
+    the module, applied to this test's settings."""
+    monkeypatch.setenv("BATON_PROXY_HOPS", str(hops))
+    spec = importlib.util.spec_from_file_location(
+        "_baton_settings_copy", REPO / "allocation" / "settings.py"
+    )
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    for name in dir(module):
+        if name.startswith(("AXES_IPWARE_", "IPWARE_")):
+            setattr(settings, name, getattr(module, name))
+
+
+@pytest.mark.parametrize(
+    ("hops", "remote", "forwarded", "client_address"),
+    [
+        # No proxy: the connection's address; whatever the client forwards is ignored.
+        (0, "127.0.0.1", "6.6.6.6, 10.1.2.3", "127.0.0.1"),
+        (0, "10.0.0.1", None, "10.0.0.1"),
+        # One proxy: the entry it appended (the last); the client's own entries before it
+        # could name anyone and are never used.
+        (1, "127.0.0.1", "6.6.6.6, 10.1.2.3", "10.1.2.3"),
+        (1, "127.0.0.1", "not-an-address, 10.1.2.3", "10.1.2.3"),
+        (1, "127.0.0.1", None, "127.0.0.1"),
+        # Two proxies: the entry the outer one appended, second from the right.
+        (2, "127.0.0.1", "6.6.6.6, 203.0.113.9, 10.0.0.2", "203.0.113.9"),
+    ],
+)
+def test_behind_proxies_the_forwarded_address_counts(
+    rf, settings, monkeypatch, hops, remote, forwarded, client_address
+):
+    """RFC 7239 §4, the convention X-Forwarded-For follows too: each proxy appends an entry
+    for the address it received the request from, so the trusted entries are the last
+    ``hops`` ones."""
+    _proxy_settings(monkeypatch, settings, hops)
+    headers = {"HTTP_X_FORWARDED_FOR": forwarded} if forwarded else {}
+    request = rf.post("/accounts/login/", REMOTE_ADDR=remote, **headers)
+    assert get_client_ip_address(request) == client_address
+
+
+def test_behind_a_proxy_each_client_is_locked_on_its_own(client, db, settings, monkeypatch):
+    _proxy_settings(monkeypatch, settings, 1)
+    make_user("alice")
+
+    def via_proxy(password: str, forwarded: str):
+        return _sign_in(client, "alice", password, "127.0.0.1", HTTP_X_FORWARDED_FOR=forwarded)
+
+    for _ in range(5):
+        via_proxy("wrong", "10.1.2.3")
+    assert AccessAttempt.objects.get().ip_address == "10.1.2.3"
+    # The same client putting another address in front is still the same client.
+    assert via_proxy("correct horse battery", "10.9.9.9, 10.1.2.3").status_code == 429
+    # Another client behind the same proxy signs in.
+    assert _signed_in(via_proxy("correct horse battery", "10.1.2.4"), client)
