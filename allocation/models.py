@@ -13,6 +13,8 @@ from django.db import models
 from django.db.models import F, Q
 
 from allocation.core import vocabulary
+from allocation.core.canonical import BATON_1
+from allocation.core.canonical import FORMS as CANONICAL_FORMS
 
 
 def _choices(values: tuple[str, ...] | dict) -> list[tuple[str, str]]:
@@ -505,6 +507,12 @@ class Snapshot(models.Model):
     sha256 = models.CharField(max_length=64, db_index=True)
     # The canonical JSON text itself (not a JSON column: databases may reorder keys).
     canonical = models.TextField()
+    # The canonical form of that text, in which it is verified. A row that does not say
+    # (rows from before forms were recorded, and their backups) is in Baton's own first
+    # form; the snapshot service writes every new one in the current form.
+    canonical_form = models.CharField(
+        max_length=16, choices=list(CANONICAL_FORMS.items()), default=BATON_1
+    )
     # Each plan's headline figures when frozen, for differences: {plan id: {figure: value}}.
     headlines = models.JSONField(default=dict)
     baton_version = models.CharField(max_length=32)

@@ -11,8 +11,9 @@ from django.db.models import QuerySet
 
 from allocation import models as m
 from allocation import selectors
-from allocation.core.canonical import canonical_text, digest
+from allocation.core.canonical import CanonicalError, canonical_text, digest, read_canonical
 from allocation.core.difference import Difference, study_difference
+from allocation.core.writing import study_to_json
 
 __all__ = [
     "Version",
@@ -53,21 +54,24 @@ class Version:
 def study_now(study: m.Study) -> Version:
     """The study as it is now, written canonically like a snapshot (so that only real
     changes show), with its headline figures and the hash it would be frozen under
-    (``None`` while it has errors)."""
+    (``None`` while it has errors, or holds a number too large to freeze)."""
     result = selectors.study_load(study)
     if not result.ok:
         return Version("now", selectors.study_document(study), {}, None)
-    text = canonical_text(result.study)
     headlines = {
         plan: analysis.headline() for plan, analysis in selectors.study_analyses(study).items()
     }
+    try:
+        text = canonical_text(result.study)
+    except CanonicalError:
+        return Version("now", study_to_json(result.study), headlines, None)
     return Version("now", json.loads(text), headlines, digest(text))
 
 
 def snapshot_version(snapshot: m.Snapshot) -> Version:
     return Version(
         snapshot.title,
-        json.loads(snapshot.canonical),
+        read_canonical(snapshot.canonical, snapshot.canonical_form),
         snapshot.headlines,
         snapshot.sha256,
         snapshot,

@@ -1,14 +1,14 @@
 """Snapshots: freeze a study as its canonical text, restore one as a new study, verify one.
 
-A snapshot holds the study file in canonical form
-(:mod:`allocation.core.canonical`), its SHA-256, and every plan's headline figures
-when it was frozen; it is never changed afterwards. Freezing and restoring each write
-one audit entry in the same transaction as the rows they store.
+A snapshot holds the study file in canonical form (:mod:`allocation.core.canonical`:
+RFC 8785, written by the ``rfc8785`` package), the name of that form, its SHA-256, and
+every plan's headline figures when it was frozen; it is never changed afterwards. A
+snapshot is verified and read in the form it records, so snapshots taken before Baton
+adopted RFC 8785 (form ``baton-1``) still verify. Freezing and restoring each write one
+audit entry in the same transaction as the rows they store.
 """
 
 from __future__ import annotations
-
-import json
 
 from django.contrib.auth.models import AbstractBaseUser
 from django.core.exceptions import PermissionDenied
@@ -17,7 +17,14 @@ from django.db import transaction
 from allocation import __version__, audit, selectors
 from allocation import models as m
 from allocation.core import Problem, StudyInvalid
-from allocation.core.canonical import canonical_text, digest, verify
+from allocation.core.canonical import (
+    CURRENT_FORM,
+    CanonicalError,
+    canonical_text,
+    digest,
+    read_canonical,
+    verify,
+)
 
 from .studies import study_import
 
@@ -63,8 +70,9 @@ def snapshot_create(*, study: m.Study, title: str, user: AbstractBaseUser) -> m.
     PermissionDenied
         When ``user`` is not an editor or owner.
     StudyInvalid
-        When the title is empty or too long (path ``title``) or the study has errors
-        (a snapshot must be a study that can be restored and analysed).
+        When the title is empty or too long (path ``title``), the study has errors (a
+        snapshot must be a study that can be restored and analysed), or it holds a value
+        RFC 8785 cannot write: a whole number beyond ±(2**53 − 1), named by its path.
     """
     _require_editor(study, user, "Freezing a study")
     title = " ".join(title.split())
@@ -82,7 +90,10 @@ def snapshot_create(*, study: m.Study, title: str, user: AbstractBaseUser) -> m.
     result = selectors.study_load(row)
     if not result.ok:
         raise StudyInvalid(result.problems)
-    text = canonical_text(result.study)
+    try:
+        text = canonical_text(result.study)
+    except CanonicalError as error:
+        raise StudyInvalid([Problem(error.path, error.reason)]) from None
     headlines = {
         plan: analysis.headline() for plan, analysis in selectors.study_analyses(row).items()
     }
@@ -95,6 +106,7 @@ def snapshot_create(*, study: m.Study, title: str, user: AbstractBaseUser) -> m.
         author_name=_name(user),
         sha256=digest(text),
         canonical=text,
+        canonical_form=CURRENT_FORM,
         headlines=headlines,
         baton_version=__version__,
     )
@@ -110,9 +122,9 @@ def snapshot_create(*, study: m.Study, title: str, user: AbstractBaseUser) -> m.
 
 
 def snapshot_verify(snapshot: m.Snapshot) -> bool:
-    """Whether the stored text still hashes to the stored SHA-256 and is still in
-    canonical form (:func:`allocation.core.canonical.verify`)."""
-    return verify(snapshot.canonical, snapshot.sha256)
+    """Whether the stored text still hashes to the stored SHA-256 and is still in the
+    canonical form the snapshot records (:func:`allocation.core.canonical.verify`)."""
+    return verify(snapshot.canonical, snapshot.sha256, snapshot.canonical_form)
 
 
 @transaction.atomic
@@ -123,7 +135,9 @@ def snapshot_restore(
 
     With ``key`` left out the new study keeps the snapshot's study id, so its canonical
     text hashes to the snapshot's hash; a ``key`` gives it another id (and so another
-    hash).
+    hash). The one exception is a snapshot in form ``baton-1`` holding a whole number
+    beyond ±(2**53 − 1): the new study keeps that number exactly, and cannot be frozen
+    again until it is changed.
 
     Raises
     ------
@@ -142,7 +156,7 @@ def snapshot_restore(
         raise SnapshotDamaged(
             f"Snapshot {snapshot.sha256[:12]} no longer matches its hash; it was not restored."
         )
-    data = json.loads(snapshot.canonical)
+    data = read_canonical(snapshot.canonical, snapshot.canonical_form)
     if key is not None:
         data["study"]["id"] = key.strip()
     row = study_import(data=data, owner=user)

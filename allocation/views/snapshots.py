@@ -104,7 +104,7 @@ def snapshot_create(request: HttpRequest, pk: int) -> HttpResponse:
             snapshot = services.snapshot_create(study=page.row, title=title, user=request.user)
     except StudyInvalid as error:
         message = "; ".join(
-            problem.message if problem.path == "title" else str(problem)
+            f"Title {problem.message}" if problem.path == "title" else str(problem)
             for problem in error.errors
         )
         return _list(request, page, status=400, title=title, title_error=message)

@@ -2,16 +2,20 @@
 
 The hash is checked against one computed outside the database: the canonical text of
 the imported study file itself (``tests/core/test_canonical.py`` checks that text
-against RFC 8785 and SHA-256 against FIPS 180-2). CI runs these tests on SQLite and on
-PostgreSQL, so the same expected hash holds on both.
+against RFC 8785 and SHA-256 against FIPS 180-2), and against the ``rfc8785`` package's
+text hashed with :mod:`hashlib`. Snapshots taken before Baton adopted RFC 8785 are
+stored here as a canonical text of that first form written out by hand. CI runs these
+tests on SQLite and on PostgreSQL, so the same expected hash holds on both.
 """
 
 from __future__ import annotations
 
+import hashlib
 import io
 import json
 
 import pytest
+import rfc8785
 from django.core.exceptions import PermissionDenied
 from django.core.management import CommandError, call_command
 from django.urls import reverse
@@ -148,6 +152,96 @@ def test_a_damaged_snapshot_is_not_restored(frozen, owner):
 def test_reviewers_may_not_restore(frozen, member_of):
     with pytest.raises(PermissionDenied):
         services.snapshot_restore(snapshot=frozen, user=member_of("reviewer"))
+
+
+# -- canonical forms ----------------------------------------------------------------------
+
+#: A study file in Baton's first canonical form ("baton-1"), written out by hand: keys
+#: sorted, no spaces, and a longest duration of 2**53 + 1 seconds kept to the digit (the
+#: RFC 8785 form refuses it: RFC 7493 §2.2).
+OLD_TEXT = (
+    '{"agents":[{"id":"pilot","kind":"human","name":"Pilot"}],'
+    '"events":[{"id":"start","name":"Start of the flight","times":["08:00"]}],'
+    '"format":"baton.study","links":[],'
+    '"plans":[{"assignments":{"T1":{"human":"pilot"}},"id":"manual","name":"Pilot does it"}],'
+    '"study":{"id":"fuel-check","scale":"sv10","title":"Fuel check"},'
+    '"tasks":[{"duration_s":[2,5,9007199254740993],"id":"T1","occurs":{"event":"start"},'
+    '"severity":2,"title":"Check the fuel"}],"version":1}'
+)
+
+
+def stored_before(study: m.Study, text: str, **fields) -> m.Snapshot:
+    """A snapshot row as Baton stored one before it recorded canonical forms: the text,
+    its SHA-256 from hashlib, and no form of its own (the migration's default)."""
+    return m.Snapshot.objects.create(
+        study=study,
+        study_key=study.key,
+        study_title=study.title,
+        title="Taken before RFC 8785",
+        author_name="olive",
+        sha256=hashlib.sha256(text.encode("utf-8")).hexdigest(),
+        canonical=text,
+        headlines={},
+        baton_version="0.1.0",
+        **fields,
+    )
+
+
+def test_a_new_snapshot_is_the_text_rfc8785_writes(frozen, heating_document):
+    """RFC 8785, as written by the ``rfc8785`` package and hashed by hashlib."""
+    assert frozen.canonical_form == "rfc8785"
+    assert frozen.canonical.encode("utf-8") == rfc8785.dumps(heating_document)
+    assert frozen.sha256 == hashlib.sha256(rfc8785.dumps(heating_document)).hexdigest()
+
+
+def test_an_old_snapshot_still_verifies(study):
+    old = stored_before(study, OLD_TEXT)
+    assert old.canonical_form == "baton-1"
+    assert services.snapshot_verify(m.Snapshot.objects.get(pk=old.pk))
+    # Read in the current form instead, the same text fails: why the form is recorded.
+    m.Snapshot.objects.filter(pk=old.pk).update(canonical_form="rfc8785")
+    assert not services.snapshot_verify(m.Snapshot.objects.get(pk=old.pk))
+
+
+def test_an_old_snapshot_of_the_same_study_has_the_new_snapshots_hash(study, frozen):
+    """Without whole numbers beyond 2**53 − 1 nothing changed: a text of the first form
+    (here the package's text of the same study file) verifies, and hashes as now."""
+    old = stored_before(study, frozen.canonical)
+    assert services.snapshot_verify(old) and old.sha256 == frozen.sha256
+
+
+def test_a_tampered_old_snapshot_fails_and_is_not_restored(study, owner):
+    old = stored_before(study, OLD_TEXT)
+    changed = OLD_TEXT.replace("Check the fuel", "Check the fuek")
+    m.Snapshot.objects.filter(pk=old.pk).update(canonical=changed)
+    old = m.Snapshot.objects.get(pk=old.pk)
+    assert not services.snapshot_verify(old)
+    count = m.Study.objects.count()
+    with pytest.raises(services.SnapshotDamaged):
+        services.snapshot_restore(snapshot=old, user=owner)
+    assert m.Study.objects.count() == count
+    m.Snapshot.objects.filter(pk=old.pk).update(canonical=OLD_TEXT, canonical_form="other")
+    assert not services.snapshot_verify(m.Snapshot.objects.get(pk=old.pk))
+
+
+def test_an_old_snapshot_restores_exactly_and_refreezing_names_the_number(client, study, owner):
+    """The restored study keeps 2**53 + 1 to the digit; freezing it is refused with the
+    path of that number, on the screen too, and nothing is stored."""
+    old = stored_before(study, OLD_TEXT)
+    restored = services.snapshot_restore(snapshot=old, user=owner)
+    assert read_task(restored, "T1")["duration_s"][2] == 2**53 + 1
+    with pytest.raises(StudyInvalid) as caught:
+        services.snapshot_create(study=restored, title="Again", user=owner)
+    assert [problem.path for problem in caught.value.errors] == ["$.tasks[0].duration_s[2]"]
+    client.force_login(owner)
+    response = client.post(url("snapshot-create", restored), {"title": "Again"})
+    assert response.status_code == 400
+    assert "$.tasks[0].duration_s[2]" in response.content.decode()
+    assert not restored.snapshots.exists()
+    # The differences still read both sides: nothing changed, and now has no hash.
+    now = reads.study_now(restored)
+    assert now.sha256 is None
+    assert reads.version_difference(reads.snapshot_version(old), now).same
 
 
 def read_task(row: m.Study, key: str) -> dict:

@@ -2,14 +2,16 @@
 
 Generates seeded studies of 1,000 tasks / 3,000 links / 20 events / 4 plans and of
 10,000 tasks, and measures the floor (load and check the study file, build the task
-graph) and the analysis of one plan. Each figure is the median of a few repeats with the
-garbage collector paused, as ``timeit`` does; the same figures with it running (on the
-objects each run makes) are printed beside them.
+graph) and the analysis of one plan, then how long a snapshot takes to verify (in the
+form snapshots were taken in before RFC 8785, and in the current one). Each figure is
+the median of a few repeats with the garbage collector paused, as ``timeit`` does; the
+same figures with it running (on the objects each run makes) are printed beside them.
 """
 
 from __future__ import annotations
 
 import gc
+import json
 import statistics
 import time
 from collections.abc import Callable
@@ -20,9 +22,12 @@ from allocation.core import load_study
 from allocation.core.analysis import analyse_plan, prepare
 from allocation.core.analysis.modecheck import verify_mode_map
 from allocation.core.assumptions import resolve_assumptions
+from allocation.core.canonical import BATON_1, CURRENT_FORM, canonical_json, digest, verify
 from allocation.core.graph import task_graph
 from allocation.core.simulation import simulate
 from allocation.core.synthetic import synthetic_study
+from allocation.core.writing import study_to_json
+from allocation.examples import example_paths
 
 #: Targets of the analysis engine (issue: analysis within 3x the floor; ten times the
 #: tasks within twelve times the time).
@@ -68,6 +73,9 @@ class Command(BaseCommand):
         parser.add_argument(
             "--no-simulation", action="store_true", help="skip the day simulation timing"
         )
+        parser.add_argument(
+            "--no-snapshots", action="store_true", help="skip the snapshot verification timing"
+        )
 
     def handle(
         self,
@@ -77,9 +85,13 @@ class Command(BaseCommand):
         large: int,
         no_web: bool,
         no_simulation: bool,
+        no_snapshots: bool,
         **options,
     ) -> None:
         self.engine(repeats=repeats, seed=seed, large=large)
+        if not no_snapshots:
+            self.stdout.write("")
+            self.snapshots(repeats=repeats, seed=seed)
         if not no_simulation:
             self.stdout.write("")
             self.simulation(repeats=repeats, seed=seed)
@@ -147,6 +159,35 @@ class Command(BaseCommand):
                 f"{whole:5.2f}x (target <= {SCALING_LIMIT:g}: "
                 f"{'met' if scale <= SCALING_LIMIT else 'MISSED'})"
             )
+
+    def snapshots(self, *, repeats: int, seed: int) -> None:
+        """Verifying a snapshot (re-hash, re-read, re-write canonically) of the largest
+        example study and of the 1,000-task study, in each canonical form."""
+        largest = max(example_paths(), key=lambda path: path.stat().st_size)
+        studies = [
+            (largest.name, load_study(json.loads(largest.read_text(encoding="utf-8"))).study),
+            (
+                "1,000-task study",
+                load_study(
+                    synthetic_study(tasks=1000, links=3000, events=20, plans=4, seed=seed)
+                ).study,
+            ),
+        ]
+        self.stdout.write("snapshot verification (hash, read back, write canonically)")
+        for name, study in studies:
+            document = study_to_json(study)
+            cells = []
+            for form in (BATON_1, CURRENT_FORM):
+                text = canonical_json(document, form)
+                sha256 = digest(text)
+                seconds = _median_seconds(
+                    lambda text=text, sha256=sha256, form=form: verify(text, sha256, form),
+                    repeats,
+                    True,
+                )
+                cells.append(f"{form} {seconds * 1000:7.1f} ms")
+            size = len(text.encode("utf-8")) / 1024
+            self.stdout.write(f"    {name:28} {size:7.0f} KiB   " + "   ".join(cells))
 
     def simulation(self, *, repeats: int, seed: int) -> None:
         """1,000 simulated days of the 1,000-task study against one analysis of it."""
