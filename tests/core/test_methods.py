@@ -213,9 +213,18 @@ def test_every_author_and_year_cited_is_in_the_reference_list():
         assert first in body, first
 
 
-def test_the_document_cites_only_published_sources_and_itself():
-    text = (Path(allocation.core.__file__).parent / METHODS_FILE).read_text(encoding="utf-8")
-    assert "DESIGN" not in text and "REFERENCES" not in text
+def test_the_core_cites_only_published_sources_and_its_methods_document():
+    """No file of the core (the document included) points to notes outside the
+    repository."""
+    core = Path(allocation.core.__file__).parent
+    outside = re.compile(r"\bDESIGN\b|REFERENCES\.md")
+    cited = [
+        f"{path.relative_to(core)}:{number}"
+        for path in sorted([*core.rglob("*.py"), *core.rglob("*.md")])
+        for number, line in enumerate(path.read_text(encoding="utf-8").splitlines(), start=1)
+        if outside.search(line)
+    ]
+    assert cited == []
 
 
 def test_the_method_notes_are_the_summaries_of_their_sections():
