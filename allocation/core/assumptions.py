@@ -119,10 +119,10 @@ def _choice(options: tuple[str, ...]):
     return check
 
 
-#: Seconds of supervision per occurrence by level (DESIGN §3.1), per scale. Tool
-#: assumption. sv10, by the level of the decision or action stage: approving (5),
-#: watching a veto window (6), reading a notification (7), looking things up (8, 9);
-#: 1-4 and 10 cost none. ek10, by the level's Selecting and Implementing roles: the
+#: Seconds of supervision per occurrence by level (methods document, ``#supervision``),
+#: per scale. Tool assumption. sv10, by the level of the decision or action stage:
+#: approving (5), watching a veto window (6), reading a notification (7), looking things
+#: up (8, 9); 1-4 and 10 cost none. ek10, by the level's Selecting and Implementing roles: the
 #: person selects and the computer implements (3, 5, 7) costs an approval; blended
 #: selection (6) a veto window; computer selection with shared monitoring (8, 9) a
 #: notification or a look-up; the person implementing (1, 2, 4) or nobody (10) none.
@@ -141,7 +141,8 @@ AWARENESS_WEIGHTS = {
     "rarity": 0.10,
 }
 LIKELIHOOD_FACTORS = ("time", "load", "cue", "automation_initiated", "awareness")
-#: The headline figures the study objective weighs (DESIGN §3.11), lower better for each.
+#: The headline figures the study objective weighs (methods document, ``#objective``),
+#: lower better for each.
 OBJECTIVE_FIGURES = (
     "burden_s_per_day",
     "interruptions_per_day",
@@ -278,7 +279,8 @@ ASSUMPTIONS: tuple[Assumption, ...] = (
         "likelihood_weights",
         {"time": 0.5, "load": 0.2, "cue": 0.3, "automation_initiated": 0.15, "awareness": 0.3},
         TOOL,
-        "Baton default; factors of DESIGN §3.6 combined by a weighted noisy-OR",
+        "Baton default; the factors of Baton's methods document (handover likelihood) "
+        "combined by a weighted noisy-OR",
         "Weight of each handover factor in the likelihood 1 - prod(1 - weight x factor): "
         "time budget ratio, receiver's concurrent load, weakness of the cue, "
         "automation-initiated, receiver's mode-awareness index.",

@@ -1,4 +1,4 @@
-"""The cautions shown in the README, on every analysis page and in every export (DESIGN §7)."""
+"""The cautions shown in the README, on every analysis page and in every export."""
 
 __all__ = ["CAUTIONS"]
 

@@ -1,7 +1,7 @@
 """The task graph: leaf tasks joined by links, its order, cycles and chains.
 
 A **chain** is the set of tasks reachable through ``precedes`` links from the tasks an
-event or a schedule starts (DESIGN §2, "How tasks occur").
+event or a schedule starts (methods document, ``#chains``).
 """
 
 from __future__ import annotations

@@ -1,4 +1,5 @@
-"""The study model of DESIGN §2 as plain, immutable dataclasses.
+"""The study model (agents, tasks, links, events, plans, mode maps) as plain, immutable
+dataclasses.
 
 Objects keep exactly what the study file said (a range given as one number stays one
 number, an optional key left out stays ``None``), so that writing a study back gives
@@ -333,5 +334,5 @@ class Study:
 
     @property
     def bin_seconds(self) -> Number:
-        """The timeline bin width; 900 s by default (DESIGN §3.2)."""
+        """The timeline bin width; 900 s by default (methods document, ``#occupancy``)."""
         return 900 if self.bin_s is None else self.bin_s

@@ -37,7 +37,7 @@ __all__ = [
 ]
 
 #: Sheridan & Verplank's ten levels as tabulated in Parasuraman et al. (2000), Table I.
-#: Published (checked against secondary reproductions; REFERENCES.md). "The computer …"
+#: Published (checked against secondary reproductions). "The computer …"
 SV10_LEVELS = {
     1: "offers no assistance: human must take all decisions and actions",
     2: "offers a complete set of decision/action alternatives",
@@ -54,7 +54,7 @@ SV10_LEVELS = {
 #: Endsley & Kaber's ten levels: name and roles for Monitoring, Generating, Selecting,
 #: Implementing (H human, C computer, H/C both). Names published (via Beer, Fisk & Rogers
 #: 2014, Table 3); the role matrix is from memory and matches a public reproduction cell
-#: for cell (REFERENCES.md).
+#: for cell.
 EK10_LEVELS: dict[int, tuple[str, tuple[str, str, str, str]]] = {
     1: ("Manual Control", ("H", "H", "H", "H")),
     2: ("Action Support", ("H/C", "H", "H", "H/C")),
@@ -68,9 +68,10 @@ EK10_LEVELS: dict[int, tuple[str, tuple[str, str, str, str]]] = {
     10: ("Full Automation", ("C", "C", "C", "C")),
 }
 
-#: Degree of automation of an Endsley & Kaber role (DESIGN §2): human 0, both 0.5,
-#: computer 1. The roles Monitoring, Generating, Selecting, Implementing map in order to
-#: the stages acquisition, analysis, decision, action.
+#: Degree of automation of an Endsley & Kaber role (methods document,
+#: ``#levels-of-automation``): human 0, both 0.5, computer 1. The roles Monitoring,
+#: Generating, Selecting, Implementing map in order to the stages acquisition, analysis,
+#: decision, action.
 EK10_ROLE_DEGREE = {"H": 0.0, "H/C": 0.5, "C": 1.0}
 
 #: Stage weights of the overall degree of automation. Tool assumption following the

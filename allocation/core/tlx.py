@@ -378,7 +378,7 @@ def tlx_score(
 
     Examples
     --------
-    The worked check of REFERENCES.md (constructed, not from a source):
+    A worked check (constructed, not from a source):
 
     >>> ratings = dict(zip(SUBSCALES, (70, 20, 60, 40, 65, 30)))
     >>> result = tlx_score(ratings, dict(zip(SUBSCALES, (5, 0, 3, 2, 4, 1))))

@@ -22,7 +22,7 @@ __all__ = [
     "VACP_ANCHORS",
 ]
 
-#: Agent kinds (DESIGN §2).
+#: Agent kinds.
 AGENT_KINDS = ("human", "automation")
 
 #: The four stages of information processing, in order. Published: Parasuraman,
@@ -69,7 +69,7 @@ EVENT_WHEN = ("awake", "asleep", "any")
 
 #: VACP channels and their anchor values with descriptors. Published: McCracken &
 #: Aldrich (1984), ARI Technical Note ASI479-024-84, via Aldrich, Szabo & Bierbaum
-#: (1989); the 0.0 rows are from memory (REFERENCES.md).
+#: (1989); the 0.0 rows are from memory.
 CHANNELS = ("visual", "auditory", "cognitive", "psychomotor")
 VACP_ANCHORS: dict[str, tuple[tuple[float, str], ...]] = {
     "visual": (

@@ -1,7 +1,7 @@
 """Writing a study back to the JSON format version 1.
 
 Only the keys the study sets are written, so reading a file and writing it again gives
-the same data (DESIGN §5: import then export is lossless).
+the same data (FORMAT.md: import then export is lossless).
 """
 
 from __future__ import annotations

@@ -307,7 +307,7 @@ def test_sensitivity_table_names_the_swap(client, example_heating, owner):
     page = client.get(compare_url(example_heating)).content.decode()
     assert ranking_rows(page) == [("auto", "0.800"), ("manual", "1.000")]
     table = page[page.index("Sensitivity to the weights") :]
-    burden = table[table.index("Person burden s/day</th>") :]
+    burden = table[table.index("Person time s a day</th>") :]
     burden = burden[: burden.index("</tr>")]
     lower, upper = burden.split("weight 1.2:")
     assert "weight 0.4:" in lower and "unchanged" in lower

@@ -1,4 +1,4 @@
-"""The analyses of a plan (DESIGN §3): one entry point, :func:`analyse_plan`."""
+"""The analyses of a plan (Baton's methods document): one entry point, :func:`analyse_plan`."""
 
 from .plan import PlanAnalysis, StudyGraph, analyse_plan, prepare
 from .report import analysis_json, text_report

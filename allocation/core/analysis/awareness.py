@@ -1,4 +1,5 @@
-"""Mode-awareness risk of a task: an index in [0, 1] with its factors (DESIGN §3.4).
+"""Mode-awareness risk of a task: an index in [0, 1] with its factors (methods document,
+``#awareness-index``).
 
 For every task a human is involved in or accountable for::
 

@@ -1,4 +1,5 @@
-"""Chains and deadlines: when each task of a chain can start and finish (DESIGN §3.9).
+"""Chains and deadlines: when each task of a chain can start and finish (methods document,
+``#chain-timing``).
 
 For each trigger (an event, or a task's own schedule), each task of its chain gets its
 earliest, typical and latest start and finish, in seconds from the start of the chain:

@@ -1,4 +1,5 @@
-"""Coherence: how well a plan keeps tightly coupled work together (DESIGN §3.7).
+"""Coherence: how well a plan keeps tightly coupled work together (methods document,
+``#coherence``).
 
 Two figures over the task graph, links weighted by how often they carry work per day:
 

@@ -1,4 +1,5 @@
-"""Plans side by side, and the study objective that ranks them (DESIGN §3.11).
+"""Plans side by side, and the study objective that ranks them (methods document,
+``#comparison``).
 
 The first plan given is the **baseline**; every other plan is compared with it:
 
@@ -46,12 +47,14 @@ from typing import Any, TypeVar
 
 from ..assumptions import OBJECTIVE_FIGURES, OBJECTIVE_WEIGHTS, check_assumptions
 from ..errors import BatonError
+from ..registry import FIGURES as REGISTRY
 from .findings import Finding
 from .handovers import Handover
 from .plan import PlanAnalysis
 
 __all__ = [
     "FIGURES",
+    "HEADLINE_FIGURES",
     "OBJECTIVE_FIGURES",
     "Comparison",
     "FigureRow",
@@ -70,19 +73,24 @@ __all__ = [
     "weight_problems",
 ]
 
-#: Every headline figure: label, unit, and whether lower is better.
+#: The headline figures of :meth:`PlanAnalysis.headline`, in its order.
+HEADLINE_FIGURES = (
+    "burden_s_per_day",
+    "interruptions_per_day",
+    "night_interruptions_per_day",
+    "handovers",
+    "handovers_per_day",
+    "handovers_to_review",
+    "max_risk",
+    "mean_awareness",
+    "cut_ratio",
+    "modularity",
+    "findings",
+)
+#: Each headline figure's label, unit and whether lower is better, in the registry's words.
 FIGURES: dict[str, tuple[str, str, bool]] = {
-    "burden_s_per_day": ("Person burden", "s/day", True),
-    "interruptions_per_day": ("Interruptions", "/day", True),
-    "night_interruptions_per_day": ("Night interruptions", "/day", True),
-    "handovers": ("Handover points", "", True),
-    "handovers_per_day": ("Handover occurrences", "/day", True),
-    "handovers_to_review": ("Handovers needing review", "", True),
-    "max_risk": ("Highest handover risk", "", True),
-    "mean_awareness": ("Mean mode-awareness index", "", True),
-    "cut_ratio": ("Cut ratio", "", True),
-    "modularity": ("Modularity", "", False),
-    "findings": ("Findings", "", True),
+    key: (REGISTRY[key].label, REGISTRY[key].unit, REGISTRY[key].lower_is_better)
+    for key in HEADLINE_FIGURES
 }
 
 #: A person's figures compared plan by plan.
@@ -403,9 +411,9 @@ class TaskShift:
 
     ``person_s_before`` and ``person_s_after`` give each person's seconds per day on it;
     the change is positive where the plan adds person time and negative where it saves
-    some. ``holder_*`` is the principal holder (DESIGN §3.1), ``category_*`` person,
-    device, shared or not_applicable, ``awareness_*`` the mode-awareness index
-    (``None`` when no person is involved or accountable).
+    some. ``holder_*`` is the principal holder (methods document, ``#principal-holder``),
+    ``category_*`` person, device, shared or not_applicable, ``awareness_*`` the
+    mode-awareness index (``None`` when no person is involved or accountable).
     """
 
     task_id: str

@@ -1,7 +1,8 @@
 """Findings: points in a plan that a review should look at, each with its tasks and
 severity.
 
-This module holds the finding record and the findings of DESIGN §3.5:
+This module holds the finding record and two kinds of finding (methods document,
+``#findings``):
 
 - ``accountability``: the accountable human is not the principal holder, so they must
   monitor work another agent holds (responsibility-authority mismatch; Pritchett, Kim &

@@ -1,4 +1,5 @@
-"""Handover points: where work or control passes between agents (DESIGN §3.6).
+"""Handover points: where work or control passes between agents (methods document,
+``#handovers``).
 
 Three sources:
 

@@ -1,6 +1,6 @@
 """Who does how much of a task under one assignment: degrees, holder, person time.
 
-For the human of an assignment, per occurrence (DESIGN §3.1)::
+For the human of an assignment, per occurrence (methods document, ``#person-time``)::
 
     person_s = sum over stages of split_s * duration * (1 - d_s) + supervision
     supervision = max(supervision_s[L_decision], supervision_s[L_action])

@@ -1,4 +1,5 @@
-"""Formal verification of a plan's mode map against what the person can observe (DESIGN §3.8).
+"""Formal verification of a plan's mode map against what the person can observe (methods
+document, ``#mode-check``).
 
 The **machine** is the mode map: its modes and transitions. The **person's model** is
 what they can observe of it: their own actions (they know what each does, so after one
@@ -411,7 +412,7 @@ def _after(parts: list[str]) -> str:
 
 
 def verify_mode_map(study: Study, plan: Plan, assumptions: dict[str, Any]) -> list[Finding]:
-    """The mode-map findings of one plan (DESIGN §3.8), see the module docstring.
+    """The mode-map findings of one plan, see the module docstring.
 
     Parameters
     ----------

@@ -2,7 +2,7 @@
 
 >>> graph = prepare(study)                       # plan-independent, reuse across plans
 >>> result = analyse_plan(study, "hybrid-loop", graph=graph)
->>> result.to_json()                             # the analysis file of DESIGN §6
+>>> result.to_json()                             # the analysis file
 
 The steps, each in its own module: assignments resolve into degrees, holders and person
 time (:mod:`.involvement`); the mode map gives the share of the day in each mode
@@ -67,7 +67,7 @@ def prepare(study: Study) -> StudyGraph:
 
 @dataclass
 class PersonFigures:
-    """A human's daily figures under a plan (DESIGN §3.1)."""
+    """A human's daily figures under a plan (methods document, ``#daily-figures``)."""
 
     agent_id: str
     burden_s_per_day: float = 0.0
@@ -150,7 +150,7 @@ class PlanAnalysis:
         }
 
     def to_json(self) -> dict[str, Any]:
-        """The analysis file (DESIGN §6), with explanations beside every figure."""
+        """The analysis file, with explanations beside every figure."""
         from .report import analysis_json
 
         return analysis_json(self)

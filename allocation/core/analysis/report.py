@@ -1,4 +1,5 @@
-"""A plan's analysis as the analysis file (JSON, DESIGN §6) and as a readable report.
+"""A plan's analysis as the analysis file (JSON, ``baton.analysis`` version 1) and as a
+readable report.
 
 Both carry the assumptions in force, the methods with their sources, and the cautions.
 """
@@ -10,77 +11,36 @@ from typing import Any
 from ..assumptions import METHOD_NOTES, assumption_table
 from ..cautions import CAUTIONS
 from ..describe import seconds_text
+from ..methods import methods_document
 from ..model import Study
 from ..scales import level_text, stage_levels
 from ..vocabulary import STAGES
 from .involvement import Involvement
 from .plan import PlanAnalysis
 
-__all__ = ["METHODS", "analysis_json", "levels_with_words", "text_report"]
+__all__ = ["METHODS", "METHOD_ANCHORS", "analysis_json", "levels_with_words", "text_report"]
 
 ANALYSIS_FORMAT = "baton.analysis"
 ANALYSIS_VERSION = 1
 
-#: The methods behind the figures, with their sources (DESIGN §3, REFERENCES.md).
-METHODS = (
-    (
-        "Levels of automation",
-        "Four stages and ten levels: Parasuraman, Sheridan & Wickens "
-        "(2000), Table I after Sheridan & Verplank (1978); Endsley & Kaber (1999) role matrix.",
-    ),
-    (
-        "Degree of automation",
-        "Stage degrees d = (L - 1) / 9 (sv10) or H 0, H/C 0.5, C 1 "
-        "(ek10); overall degree weighted toward later stages after Onnasch et al. (2014).",
-    ),
-    (
-        "Person time",
-        "Stage shares of the duration left to the person plus supervision by "
-        "level (DESIGN §3.1; supervision seconds are a tool assumption).",
-    ),
-    (
-        "Occurrences",
-        "Schedules, Poisson rates and event probabilities propagated along "
-        "precedes chains (tool assumptions listed below).",
-    ),
-    (
-        "Responsibility and authority",
-        "Monitoring added where the accountable person does "
-        "not hold the task: Pritchett, Kim & Feigh (2014).",
-    ),
-    (
-        "Capability",
-        "Each agent is allocated only what it can do: requirement 1 of Feigh & Pritchett (2014).",
-    ),
-    (
-        "Chains and deadlines",
-        "Earliest, typical and latest completion from durations, lags "
-        "and response latencies by time of day.",
-    ),
-    (
-        "Mode awareness",
-        "Weighted factors after Endsley & Kiris (1995), Onnasch et al. (2014) "
-        "and Sarter & Woods (1995); weights are tool assumptions.",
-    ),
-    (
-        "Handovers",
-        "Weighted noisy-OR of time budget, load, cue, initiation and awareness; "
-        "takeover times after Eriksson & Stanton (2017); risk = severity x likelihood band "
-        "under the study's risk policy (ISO 14971 leaves acceptability to the manufacturer).",
-    ),
-    (
-        "Mode-map verification",
-        "The device's modes composed with the person's model of them (their own actions "
-        "and the changes they notice; a change shown only on the display may be missed) and "
-        "searched breadth-first: Degani & Heymann (2002), Sarter & Woods (1995); finding "
-        "kinds after Leveson et al. (1997). Each finding's witness is a shortest sequence of "
-        "events from the initial mode.",
-    ),
-    (
-        "Coherence",
-        "Share of link weight crossing agents, and weighted modularity (Newman "
-        "2006) of the partition by principal holder (incoherency: Pritchett et al. 2014).",
-    ),
+#: The method notes shown beside the figures, each by the anchor of its section in
+#: Baton's methods document (``METHODS.md``).
+METHOD_ANCHORS = {
+    "Levels of automation": "levels-of-automation",
+    "Degree of automation": "degree-of-automation",
+    "Person time": "person-time",
+    "Occurrences": "occurrences",
+    "Responsibility and authority": "monitoring",
+    "Capability": "finding-capability",
+    "Chains and deadlines": "chain-timing",
+    "Mode awareness": "awareness-index",
+    "Handovers": "handovers",
+    "Mode-map verification": "mode-check",
+    "Coherence": "coherence",
+}
+#: Each method note's name and words: the summary (first paragraph) of its section.
+METHODS = tuple(
+    (name, methods_document().section(anchor).summary) for name, anchor in METHOD_ANCHORS.items()
 )
 
 
@@ -149,7 +109,7 @@ def _chain_json(chain) -> dict[str, Any]:
 
 
 def analysis_json(result: PlanAnalysis) -> dict[str, Any]:
-    """The analysis file of DESIGN §6 (its keys exactly), with more keys beside them."""
+    """The analysis file (``baton.analysis`` version 1), with more keys beside its own."""
     study = result.study
     return {
         "format": ANALYSIS_FORMAT,
@@ -172,7 +132,10 @@ def analysis_json(result: PlanAnalysis) -> dict[str, Any]:
         "risk_policy": result.policy,
         "assumptions": assumption_table(study.assumptions, study.scale),
         "method_notes": [{"key": k, "status": s, "text": t} for k, s, t in METHOD_NOTES],
-        "methods": [{"name": name, "source": source} for name, source in METHODS],
+        "methods": [
+            {"name": name, "source": source, "anchor": METHOD_ANCHORS[name]}
+            for name, source in METHODS
+        ],
         "cautions": CAUTIONS,
     }
 

@@ -63,7 +63,7 @@ def awake_intervals(agent: Agent | None) -> list[tuple[float, float]]:
 
 def primary_sleeper(study: Study) -> Agent | None:
     """The human whose sleep defines "awake" and "asleep" for rates: the first human
-    with an asleep window (tool assumption; DESIGN §2 speaks of one person's day)."""
+    with an asleep window (tool assumption; methods document, ``#fixed-rules``)."""
     return next((agent for agent in study.humans if agent.asleep is not None), None)
 
 

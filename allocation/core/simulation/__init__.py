@@ -1,4 +1,4 @@
-"""Day simulation and its distributions (DESIGN §3.2, §3.3, §3.10).
+"""Day simulation and its distributions (methods document, ``#simulation``).
 
 Simulates N days of a plan from a seed: when events and schedules happen, which tasks of
 each chain follow, how long each takes, how long people take to respond, which mode the

@@ -6,7 +6,7 @@ trigger's happenings on all its days are drawn at once and its chain is followed
 task over all of them together (NumPy arrays of happenings), so the Python loop runs per
 chain member, not per occurrence.
 
-The rules (DESIGN §2, §3.9, §3.10; tool assumptions marked):
+The rules (methods document, ``#simulation-rules``; tool assumptions marked):
 
 - a trigger with fixed ``times`` happens at each, shifted uniformly within its jitter; one
   with ``per_day`` a Poisson number of times, evenly over its part of the day; one every

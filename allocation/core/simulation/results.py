@@ -17,6 +17,7 @@ from typing import Any
 
 import numpy as np
 
+from ..registry import figure
 from ..vocabulary import CHANNELS
 from .engine import ChunkDraw, person_segments
 from .sampling import DAY_S, in_intervals
@@ -45,18 +46,9 @@ FIGURES = (
     *(f"peak_{channel}" for channel in CHANNELS),
     *(f"overload_s_{channel}" for channel in CHANNELS),
 )
-#: Each daily figure in words, with its unit, for tables, pickers, axes and reports.
-FIGURE_WORDS = {
-    "burden_s": ("Person time", "s a day"),
-    "monitoring_s": ("of which monitoring", "s a day"),
-    "interactions": ("Interactions", "a day"),
-    "interruptions": ("Interruptions", "a day"),
-    "night_interruptions": ("Night interruptions", "a day"),
-    "peak_occupancy": ("Peak occupancy", "share of a bin"),
-    "overload_min": ("Occupancy overload", "min a day"),
-    **{f"peak_{c}": (f"Peak {c} demand", "VACP sum") for c in CHANNELS},
-    **{f"overload_s_{c}": (f"{c.capitalize()} overload", "s a day") for c in CHANNELS},
-}
+#: Each daily figure in words, with its unit, for tables, pickers, axes and reports (the
+#: registry's words: a simulated day's value of the figure).
+FIGURE_WORDS = {name: (figure(name).label, figure(name).unit) for name in FIGURES}
 
 
 def _per_day(day: np.ndarray, weights: np.ndarray, days: int) -> np.ndarray:
