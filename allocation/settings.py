@@ -101,7 +101,7 @@ else:
     DATABASES = {
         "default": {
             "ENGINE": "django.db.backends.sqlite3",
-            "NAME": DATA_DIR / "baton.sqlite3",
+            "NAME": str(DATA_DIR / "baton.sqlite3"),
             "OPTIONS": {
                 # WAL lets readers go on while one writer writes; the timeout makes a
                 # second writer wait instead of failing at once.
