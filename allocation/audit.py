@@ -13,11 +13,11 @@ from __future__ import annotations
 
 import contextlib
 import contextvars
-from collections.abc import Iterator
+from collections.abc import Callable, Hashable, Iterator
 from dataclasses import dataclass
 from typing import Any
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import AnonymousUser, User
 
 from allocation import models as m
 
@@ -36,7 +36,7 @@ __all__ = [
 class Actor:
     """Who is changing things, and through which entry point."""
 
-    user: AbstractBaseUser | None
+    user: User | AnonymousUser | None
     source: str
 
     @property
@@ -57,7 +57,7 @@ def current_actor() -> Actor:
 
 
 @contextlib.contextmanager
-def acting(user: AbstractBaseUser | None, source: str) -> Iterator[Actor]:
+def acting(user: User | AnonymousUser | None, source: str) -> Iterator[Actor]:
     """Attribute every change made inside the block to ``user`` through ``source``."""
     token = _ACTOR.set(Actor(user, source))
     try:
@@ -118,7 +118,14 @@ def link_key(link: dict[str, Any]) -> tuple[str, str, str]:
     return (link.get("from", ""), link.get("kind", ""), link.get("to", ""))
 
 
-def _items_changed(before: list, after: list, key) -> tuple[list, list]:
+def _item_id(item: dict[str, Any]) -> Hashable:
+    """An agent's, event's or task's identity in a study file: its id."""
+    return item.get("id")
+
+
+def _items_changed(
+    before: list, after: list, key: Callable[[dict[str, Any]], Hashable]
+) -> tuple[list, list]:
     """The items of two lists that differ, matched by ``key``, in their list order."""
     old = {key(item): item for item in before}
     new = {key(item): item for item in after}
@@ -172,7 +179,7 @@ def document_change(before: Document | None, after: Document | None) -> tuple[An
         old["study"] = {name: header_old[name] for name in changed if name in header_old}
         new["study"] = {name: header_new[name] for name in changed if name in header_new}
     for section in (*_ID_SECTIONS, "links"):
-        key = link_key if section == "links" else (lambda item: item.get("id"))
+        key: Callable[[dict[str, Any]], Hashable] = link_key if section == "links" else _item_id
         gone, came = _items_changed(before.get(section, []), after.get(section, []), key)
         if gone or came:
             old[section], new[section] = gone, came

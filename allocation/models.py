@@ -8,6 +8,8 @@ Optional text that a study leaves out is stored as the empty string.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 from django.conf import settings
 from django.db import models
 from django.db.models import F, Q
@@ -16,9 +18,20 @@ from allocation.core import vocabulary
 from allocation.core.canonical import BATON_1
 from allocation.core.canonical import FORMS as CANONICAL_FORMS
 
+if TYPE_CHECKING:
+    from django.contrib.auth.models import User
+
 
 def _choices(values: tuple[str, ...] | dict) -> list[tuple[str, str]]:
     return [(value, value.replace("_", " ")) for value in values]
+
+
+def text_limit(model: type[models.Model], name: str) -> int:
+    """The most characters the text column ``name`` of ``model`` holds (for messages)."""
+    field = model._meta.get_field(name)
+    if not isinstance(field, models.CharField) or field.max_length is None:
+        raise TypeError(f"{model.__name__}.{name} is not text with a length limit")
+    return field.max_length
 
 
 class Role(models.TextChoices):
@@ -30,7 +43,8 @@ class Role(models.TextChoices):
     @classmethod
     def rank(cls, role: str) -> int:
         """Higher ranks may do everything lower ranks may."""
-        return [cls.VIEWER, cls.REVIEWER, cls.EDITOR, cls.OWNER].index(role)
+        order: list[str] = [cls.VIEWER, cls.REVIEWER, cls.EDITOR, cls.OWNER]
+        return order.index(role)
 
 
 class Study(models.Model):
@@ -41,7 +55,7 @@ class Study(models.Model):
     bin_s = models.FloatField(null=True, blank=True)
     assumptions = models.JSONField(null=True, blank=True)
     risk_policy = models.JSONField(null=True, blank=True)
-    members = models.ManyToManyField(
+    members: models.ManyToManyField[User, Membership] = models.ManyToManyField(
         settings.AUTH_USER_MODEL, through="Membership", related_name="studies"
     )
     created_at = models.DateTimeField(auto_now_add=True)

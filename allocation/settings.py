@@ -105,7 +105,7 @@ else:
     DATABASES = {
         "default": {
             "ENGINE": "django.db.backends.sqlite3",
-            "NAME": DATA_DIR / "baton.sqlite3",
+            "NAME": str(DATA_DIR / "baton.sqlite3"),
             "OPTIONS": {
                 # WAL lets readers go on while one writer writes; the timeout makes a
                 # second writer wait instead of failing at once.
@@ -202,6 +202,8 @@ AXES_LOCKOUT_CALLABLE = "allocation.web.security.sign_in_refused"
 # such attempts on one user name are counted together.
 BATON_PROXY_HOPS = int(os.environ.get("BATON_PROXY_HOPS", "0"))
 AXES_IPWARE_PROXY_ORDER = "left-most"
+AXES_IPWARE_PROXY_COUNT: int | None
+AXES_IPWARE_META_PRECEDENCE_ORDER: tuple[str, ...]
 if BATON_PROXY_HOPS > 0:
     AXES_IPWARE_PROXY_COUNT = BATON_PROXY_HOPS - 1
     AXES_IPWARE_META_PRECEDENCE_ORDER = ("HTTP_X_FORWARDED_FOR", "REMOTE_ADDR")

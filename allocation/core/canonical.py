@@ -61,6 +61,7 @@ import hashlib
 import json
 import math
 import re
+from collections.abc import Callable
 from typing import Any
 
 import rfc8785
@@ -367,7 +368,7 @@ def _double_if_unsafe(literal: str) -> int | float:
     return number if -SAFE_INTEGER <= number <= SAFE_INTEGER else float(literal)
 
 
-_INTEGERS = {BATON_1: int, RFC_8785: _double_if_unsafe}
+_INTEGERS: dict[str, Callable[[str], int | float]] = {BATON_1: int, RFC_8785: _double_if_unsafe}
 
 
 def read_canonical(text: str, form: str = CURRENT_FORM) -> Any:

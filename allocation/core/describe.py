@@ -46,7 +46,7 @@ def occurs_text(study: Study, task: Task) -> str:
         return f"{occurs.per_day:g} a day ({occurs.when or 'awake'})"
     if occurs.every_days is not None:
         return f"every {occurs.every_days:g} days"
-    event = study.events_by_id.get(occurs.event)
+    event = study.events_by_id.get(occurs.event or "")
     name = event.name if event else occurs.event
     chance = f", {occurs.probability:.0%} of the time" if occurs.probability is not None else ""
     return f"on {name}{chance}"

@@ -48,6 +48,17 @@ class LoadResult:
     def ok(self) -> bool:
         return self.study is not None and not self.errors
 
+    @property
+    def valid_study(self) -> Study | None:
+        """The study when it has no errors (``ok``), else ``None``."""
+        return self.study if self.ok else None
+
+    def require_valid(self) -> Study:
+        """The study; raises :class:`StudyInvalid` listing every problem unless ``ok``."""
+        if self.study is None or self.errors:
+            raise StudyInvalid(self.problems)
+        return self.study
+
 
 def load_study(data: Any) -> LoadResult:
     """Read and check decoded study data; never raises for bad input.
@@ -91,10 +102,7 @@ def load_study_text(text: str | bytes) -> LoadResult:
 
 def read_study(data: Any) -> Study:
     """The study in ``data``; raises :class:`StudyInvalid` listing every problem."""
-    result = load_study(data)
-    if not result.ok:
-        raise StudyInvalid(result.problems)
-    return result.study
+    return load_study(data).require_valid()
 
 
 def validate_study(study: Study) -> list[Problem]:

@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 import networkx as nx
 
-from .model import Study
+from .model import Event, Occurs, Study
 
 __all__ = [
     "Trigger",
@@ -20,7 +20,9 @@ __all__ = [
     "precedence_cycle",
     "precedence_graph",
     "precedence_order",
+    "root_occurs",
     "task_graph",
+    "trigger_rule",
     "triggers",
 ]
 
@@ -116,6 +118,22 @@ def triggers(study: Study) -> list[Trigger]:
         Trigger(event.id, "event", event.name, tuple(started[event.id])) for event in study.events
     ]
     return by_event + scheduled
+
+
+def root_occurs(study: Study, task_id: str) -> Occurs:
+    """How a trigger's root task occurs; every root has its own ``occurs`` (see
+    :func:`triggers`), so a task without one raises ``ValueError``."""
+    occurs = study.task(task_id).occurs
+    if occurs is None:
+        raise ValueError(f"task {task_id!r} starts no chain: it has no occurs")
+    return occurs
+
+
+def trigger_rule(study: Study, trigger: Trigger) -> Event | Occurs:
+    """When a trigger happens: its event, or its task's own schedule."""
+    if trigger.kind == "event":
+        return study.events_by_id[trigger.id]
+    return root_occurs(study, trigger.roots[0])
 
 
 def chain_tasks(study: Study, trigger: Trigger, graph: nx.DiGraph | None = None) -> list[str]:

@@ -41,6 +41,7 @@ import math
 from collections import defaultdict
 from collections.abc import Hashable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
+from typing import cast
 
 import networkx as nx
 
@@ -412,7 +413,9 @@ def _connected_parts(
             graph.add_node(node)
             first[node] = (place, index)
     graph.add_edges_from(pair for route in routes for pair in zip(route, route[1:], strict=False))
-    parts = sorted(nx.connected_components(graph), key=lambda part: min(map(first.get, part)))
+    parts = sorted(
+        nx.connected_components(graph), key=lambda part: min(first[node] for node in part)
+    )
     return {node: number for number, part in enumerate(parts) for node in part}
 
 
@@ -455,7 +458,8 @@ def layered_layout(study: Study, selection: Selection | None = None, *, sweeps: 
         precedence.add_node(link.target)
         if link.kind == "precedes":
             precedence.add_edge(link.source, link.target)
-    layer = layer_of(precedence)
+    # networkx is untyped: the nodes it hands back are the task ids put in above.
+    layer = cast("dict[str, int]", layer_of(precedence))
     _place_informs_only(precedence, layer, links, start_key)
     count = max(layer.values(), default=-1) + 1
 
@@ -502,18 +506,18 @@ def layered_layout(study: Study, selection: Selection | None = None, *, sweeps: 
     for part in range(parts):
         # Only the layers the part spans, so sweeps skip the empty ones.
         spans = [index for index, rank in enumerate(own_layers[part]) if rank]
-        low, high = spans[0], spans[-1] + 1
+        first_layer, end_layer = spans[0], spans[-1] + 1
         reordered, _before, crossings = order_layers(
-            own_layers[part][low:high], own_segments[part], sweeps=sweeps
+            own_layers[part][first_layer:end_layer], own_segments[part], sweeps=sweeps
         )
         after += crossings
         # Step 4: coordinates. Each part has a band as tall as its fullest layer, and
         # each layer is centred in the band.
         band = max(len(rank) for rank in reordered)
-        for x, rank in enumerate(reordered, start=low):
+        for column, rank in enumerate(reordered, start=first_layer):
             offset = top + (band - len(rank)) / 2
             for order, node in enumerate(rank):
-                point[node] = (float(x), order + offset)
+                point[node] = (float(column), order + offset)
         top += band + PART_GAP
     linked_height = top - PART_GAP if parts else 0.0
     faded = set(selection.context)

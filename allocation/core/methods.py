@@ -246,8 +246,8 @@ def parse_methods(text: str, source: str = METHODS_FILE) -> MethodsDocument:
             parent=stack[-1][1] if stack else None,
         )
         stack.append((level, anchor))
-    first = next(iter(sections.values()))
-    return MethodsDocument(first.title, sections)
+    top = next(iter(sections.values()))
+    return MethodsDocument(top.title, sections)
 
 
 @cache

@@ -279,10 +279,11 @@ class StudyReader:
             if len(value) != 3:
                 self.error(path, f"must be [min, typical, max], not a list of {len(value)}")
                 return None
-            numbers = [self.number(item, child_path(path, i)) for i, item in enumerate(value)]
-            if any(number is None for number in numbers):
+            low, typical, high = (
+                self.number(item, child_path(path, i)) for i, item in enumerate(value)
+            )
+            if low is None or typical is None or high is None:
                 return None
-            low, typical, high = numbers
             if not low <= typical <= high:
                 self.error(path, f"must be in order min <= typical <= max, not {value}")
                 return None
@@ -295,13 +296,15 @@ class StudyReader:
             if len(value) != 2:
                 self.error(path, f"must be [min, max], not a list of {len(value)}")
                 return None
-            numbers = [self.number(item, child_path(path, i)) for i, item in enumerate(value)]
-            if any(number is None for number in numbers):
+            shortest, longest = (
+                self.number(item, child_path(path, i)) for i, item in enumerate(value)
+            )
+            if shortest is None or longest is None:
                 return None
-            if numbers[0] > numbers[1]:
+            if shortest > longest:
                 self.error(path, f"must be in order min <= max, not {value}")
                 return None
-            return Lag(numbers[0], numbers[1])
+            return Lag(shortest, longest)
         number = self.number(value, path)
         return None if number is None else Lag.exactly(number)
 
@@ -404,12 +407,15 @@ class StudyReader:
                 self.number(b, child_path(bands_path, i), positive=True, maximum=1)
                 for i, b in enumerate(bands)
             ]
+            known = [cut for cut in cuts if cut is not None]
             for i, cut in enumerate(cuts):
                 if cut == 1:  # the bands lie in (0, 1): a cut at 1 leaves the top band empty
                     self.error(child_path(bands_path, i), "must be less than 1")
             if isinstance(policy["likelihood_bands"], list) and len(bands) != 4:
                 self.error(bands_path, "must list 4 cut points between the 5 likelihood bands")
-            elif None not in cuts and any(a >= b for a, b in zip(cuts, cuts[1:], strict=False)):
+            elif len(known) == len(cuts) and any(
+                a >= b for a, b in zip(known, known[1:], strict=False)
+            ):
                 self.error(bands_path, "must rise strictly from band to band")
         review = self.optional(policy, "review", path, lambda v, p: self.integer(v, p, 1, 25))
         unacceptable = self.optional(
@@ -449,12 +455,15 @@ class StudyReader:
             self.error(path, "must be [from, to] as two times of day")
             return None
         clocks = [self.clock(item, child_path(path, i)) for i, item in enumerate(items)]
-        if None in clocks or not clocks:
+        if len(clocks) != 2:
             return None
-        if clocks[0] == clocks[1]:
+        start, end = clocks
+        if start is None or end is None:
+            return None
+        if start == end:
             self.error(path, "must not start and end at the same time")
             return None
-        return (clocks[0], clocks[1])
+        return (start, end)
 
     def response(self, value: Any, path: str) -> dict[str, Range] | None:
         data = self.obj(value, path, (), EVENT_WHEN)
@@ -645,9 +654,10 @@ class StudyReader:
                 for stage in STAGES
                 if stage in data
             }
-            if len(levels) < len(STAGES) or None in levels.values():
+            known = {stage: level for stage, level in levels.items() if level is not None}
+            if len(known) < len(STAGES):
                 return None
-            return levels
+            return known
         return self.integer(value, path, 1, 10)
 
     def assignment(self, value: Any, path: str) -> Assignment | None:

@@ -21,6 +21,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
+from typing import Any
 
 from .assumptions import MEMORY, PRACTICE, PUBLISHED, TOOL
 from .describe import seconds_text
@@ -315,8 +316,11 @@ def _spec(key: str | Figure) -> Figure:
     return key if isinstance(key, Figure) else figure(key)
 
 
-def _blank(value: float | None) -> bool:
-    return value is None or (isinstance(value, float) and math.isnan(value))
+def _number(value: float | None) -> float | None:
+    # NaN is no value either: both show as a dash.
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return None
+    return float(value)
 
 
 def figure_number(key: str | Figure, value: float | None, *, signed: bool = False) -> str:
@@ -332,10 +336,10 @@ def figure_number(key: str | Figure, value: float | None, *, signed: bool = Fals
     >>> figure_number("interruptions_per_day", -0.001, signed=True)
     '−0.001'
     """
-    if _blank(value):
+    number = _number(value)
+    if number is None:
         return "—"
     spec = _spec(key)
-    number = float(value)
     text = f"{abs(number):,.{spec.decimals}f}"
     zero = text.strip("0.,") == ""
     if signed:
@@ -378,10 +382,10 @@ def figure_text(
     >>> figure_text("burden_change", -90, signed=True)
     '−1.5 min a day'
     """
-    if _blank(value):
+    number = _number(value)
+    if number is None:
         return "—"
     spec = _spec(key)
-    number = float(value)
     if spec.seconds:
         if signed and number == 0:
             return "±0"
@@ -592,7 +596,7 @@ CATEGORIES: dict[str, Term] = _terms(
 def anchors() -> dict[str, set[str]]:
     """Every anchor of the methods document the registry names, with who names it."""
     named: dict[str, set[str]] = {}
-    tables = {
+    tables: dict[str, list[Any]] = {
         "figure": [*FIGURES.values(), *AWARENESS_FACTORS.values(), *LIKELIHOOD_FACTORS.values()],
         "finding kind": list(FINDING_KINDS.values()),
         "term": [

@@ -31,6 +31,8 @@ __all__ = [
     "category_of",
     "degree_of_automation",
     "level_text",
+    "shared_levels",
+    "single_level",
     "stage_degrees",
     "stage_levels",
     "weighted_degree",
@@ -97,6 +99,29 @@ def stage_levels(assignment: Assignment) -> dict[str, int] | None:
     return dict.fromkeys(STAGES, int(levels))
 
 
+def single_level(assignment: Assignment) -> int:
+    """The one level of a shared assignment on ``ek10``, whose levels are not per stage.
+
+    The checks require it (a study with errors is not analysed); a missing or per-stage
+    level raises ``TypeError``.
+    """
+    levels = assignment.levels
+    if levels is None or isinstance(levels, dict):
+        raise TypeError(f"an ek10 assignment needs one level, not {levels!r}")
+    return int(levels)
+
+
+def shared_levels(assignment: Assignment) -> dict[str, int]:
+    """The level of each stage of a shared assignment, which the checks require it to have.
+
+    A shared assignment without levels raises ``TypeError``.
+    """
+    levels = stage_levels(assignment)
+    if levels is None:
+        raise TypeError("a shared assignment needs levels")
+    return levels
+
+
 def stage_degrees(assignment: Assignment, scale: str) -> dict[str, float]:
     """The degree of automation of each stage, in [0, 1].
 
@@ -110,9 +135,9 @@ def stage_degrees(assignment: Assignment, scale: str) -> dict[str, float]:
     if assignment.human is None:
         return dict.fromkeys(STAGES, 1.0)
     if scale == "ek10":
-        roles = EK10_LEVELS[int(assignment.levels)][1]
+        roles = EK10_LEVELS[single_level(assignment)][1]
         return {stage: EK10_ROLE_DEGREE[role] for stage, role in zip(STAGES, roles, strict=True)}
-    levels = stage_levels(assignment)
+    levels = shared_levels(assignment)
     return {stage: (levels[stage] - 1) / 9 for stage in STAGES}
 
 

@@ -2,14 +2,23 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any, TypedDict
 
 from django.db.models import BooleanField, ExpressionWrapper, F, Q, QuerySet
 from django.http import Http404
 
 from allocation import models as m
 
+if TYPE_CHECKING:
+    from django_stubs_ext import WithAnnotations
+
 __all__ = ["simulation_run", "simulation_run_for", "simulation_runs"]
+
+
+class RunCurrent(TypedDict):
+    """What :func:`simulation_runs` adds to each run: whether it is of the study now."""
+
+    current: bool
 
 
 def simulation_run_for(
@@ -31,7 +40,7 @@ def simulation_run_for(
     )
 
 
-def simulation_runs(study: m.Study) -> QuerySet[m.SimulationRun]:
+def simulation_runs(study: m.Study) -> QuerySet[WithAnnotations[m.SimulationRun, RunCurrent]]:
     """Every run of the study, newest first, without their (large) results; each carries
     ``current``: whether it was made for the study's present version."""
     return (

@@ -55,16 +55,16 @@ def study_now(study: m.Study) -> Version:
     """The study as it is now, written canonically like a snapshot (so that only real
     changes show), with its headline figures and the hash it would be frozen under
     (``None`` while it has errors, or holds a number too large to freeze)."""
-    result = selectors.study_load(study)
-    if not result.ok:
+    checked = selectors.study_load(study).valid_study
+    if checked is None:
         return Version("now", selectors.study_document(study), {}, None)
     headlines = {
         plan: analysis.headline() for plan, analysis in selectors.study_analyses(study).items()
     }
     try:
-        text = canonical_text(result.study)
+        text = canonical_text(checked)
     except CanonicalError:
-        return Version("now", study_to_json(result.study), headlines, None)
+        return Version("now", study_to_json(checked), headlines, None)
     return Version("now", json.loads(text), headlines, digest(text))
 
 

@@ -9,9 +9,9 @@ from __future__ import annotations
 import threading
 from collections import OrderedDict
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any, TypedDict
 
-from django.contrib.auth.models import AbstractBaseUser, AnonymousUser
+from django.contrib.auth.models import AnonymousUser, User
 from django.core.exceptions import PermissionDenied
 from django.db.models import F, Prefetch, QuerySet
 from django.http import Http404
@@ -19,9 +19,21 @@ from django.http import Http404
 from allocation import models as m
 from allocation.core import LoadResult, load_study
 from allocation.core.analysis import PlanAnalysis, StudyGraph, analyse_plan, prepare
+from allocation.core.model import Study
 from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
 
-User = AbstractBaseUser | AnonymousUser
+
+class MemberRole(TypedDict):
+    """What :func:`studies_for_user` adds to each study: the user's role in it."""
+
+    role: str
+
+
+if TYPE_CHECKING:
+    from django_stubs_ext import WithAnnotations
+
+    #: A study row read for a user, with ``role`` annotated.
+    StudyWithRole = WithAnnotations[m.Study, MemberRole]
 
 
 def _number(value: float | None) -> int | float | None:
@@ -35,18 +47,19 @@ def _compact(pairs: dict[str, Any]) -> dict[str, Any]:
     return {key: value for key, value in pairs.items() if value is not None and value != ""}
 
 
-def studies_for_user(*, user: User) -> QuerySet[m.Study]:
+def studies_for_user(*, user: User | AnonymousUser) -> QuerySet[StudyWithRole]:
     """The studies ``user`` is a member of, with their role annotated as ``role``."""
-    if not user.is_authenticated:
-        return m.Study.objects.none()
-    return (
+    studies = (
         m.Study.objects.filter(memberships__user=user)
-        .annotate(role=F("memberships__role"))
-        .order_by("title", "pk")
+        if user.is_authenticated
+        else m.Study.objects.none()
     )
+    return studies.annotate(role=F("memberships__role")).order_by("title", "pk")
 
 
-def study_for_user(*, user: User, pk: int, role: str = m.Role.VIEWER) -> m.Study:
+def study_for_user(
+    *, user: User | AnonymousUser, pk: int, role: str = m.Role.VIEWER
+) -> StudyWithRole:
     """The study ``pk`` if ``user`` holds at least ``role`` in it.
 
     A non-member gets the same 404 as for a study that does not exist, so the answer
@@ -180,24 +193,31 @@ def study_load(study: m.Study) -> LoadResult:
     return _loaded(study).result
 
 
+def _analysis(entry: _Loaded, checked: Study, plan_id: str) -> PlanAnalysis:
+    """Plan ``plan_id`` of the entry's checked study analysed, kept with the entry."""
+    if plan_id not in entry.analyses:
+        if entry.graph is None:
+            entry.graph = prepare(checked)
+        entry.analyses[plan_id] = analyse_plan(checked, plan_id, graph=entry.graph)
+    return entry.analyses[plan_id]
+
+
 def plan_analysis(study: m.Study, plan_id: str) -> PlanAnalysis | None:
     """One plan analysed (kept with the study's version); ``None`` while it has errors."""
     entry = _loaded(study)
-    if not entry.result.ok or plan_id not in entry.result.study.plans_by_id:
+    checked = entry.result.valid_study
+    if checked is None or plan_id not in checked.plans_by_id:
         return None
-    if plan_id not in entry.analyses:
-        if entry.graph is None:
-            entry.graph = prepare(entry.result.study)
-        entry.analyses[plan_id] = analyse_plan(entry.result.study, plan_id, graph=entry.graph)
-    return entry.analyses[plan_id]
+    return _analysis(entry, checked, plan_id)
 
 
 def study_analyses(study: m.Study) -> dict[str, PlanAnalysis]:
     """Every plan of the study analysed; none while it has errors."""
-    result = study_load(study)
-    if not result.ok:
+    entry = _loaded(study)
+    checked = entry.result.valid_study
+    if checked is None:
         return {}
-    return {plan.id: plan_analysis(study, plan.id) for plan in result.study.plans}
+    return {plan.id: _analysis(entry, checked, plan.id) for plan in checked.plans}
 
 
 def _agent(agent: m.Agent) -> dict[str, Any]:

@@ -11,7 +11,7 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import User
 from django.core.exceptions import PermissionDenied
 from django.db import transaction
 
@@ -21,8 +21,8 @@ from allocation.core.tlx import SUBSCALES, RatingInvalid, tlx_score
 
 __all__ = ["RatingRefused", "rating_delete", "rating_record"]
 
-SESSION_MAX = m.WorkloadRating._meta.get_field("session").max_length
-PARTICIPANT_MAX = m.WorkloadRating._meta.get_field("participant").max_length
+SESSION_MAX = m.text_limit(m.WorkloadRating, "session")
+PARTICIPANT_MAX = m.text_limit(m.WorkloadRating, "participant")
 NOTES_MAX = 4000
 
 
@@ -37,7 +37,7 @@ class RatingRefused(ValueError):
         super().__init__("; ".join(f"{key}: {' '.join(texts)}" for key, texts in errors.items()))
 
 
-def _require(study: m.Study, user: AbstractBaseUser, role: str, doing: str) -> None:
+def _require(study: m.Study, user: User, role: str, doing: str) -> None:
     """The views check the role too; the service does not trust them."""
     allowed = [r for r in m.Role.values if m.Role.rank(r) >= m.Role.rank(role)]
     if not m.Membership.objects.filter(study=study, user=user, role__in=allowed).exists():
@@ -83,7 +83,7 @@ def rating_snapshot(rating: m.WorkloadRating) -> dict[str, Any]:
 def rating_record(
     *,
     study: m.Study,
-    user: AbstractBaseUser,
+    user: User,
     plan_key: str,
     task_key: str,
     session: str,
@@ -174,7 +174,7 @@ def _plain(value: float) -> int | float:
     return int(value) if float(value).is_integer() else value
 
 
-def rating_delete(*, study: m.Study, user: AbstractBaseUser, rating_id: int) -> dict[str, Any]:
+def rating_delete(*, study: m.Study, user: User, rating_id: int) -> dict[str, Any]:
     """Delete one rating of the study (editors and owners); returns what was deleted.
 
     A rating of another study is not found (:class:`WorkloadRating.DoesNotExist`).

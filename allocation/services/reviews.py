@@ -15,7 +15,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import AnonymousUser, User
 from django.core.exceptions import PermissionDenied
 from django.db import transaction
 
@@ -56,7 +56,7 @@ class ReviewRefused(ValueError):
         super().__init__(message)
 
 
-def review_role(study: m.Study, user: AbstractBaseUser | None) -> str | None:
+def review_role(study: m.Study, user: User | AnonymousUser | None) -> str | None:
     """The user's role in the study, or ``None`` for a non-member."""
     if user is None or not user.is_authenticated:
         return None
@@ -65,7 +65,7 @@ def review_role(study: m.Study, user: AbstractBaseUser | None) -> str | None:
     )
 
 
-def _require(study: m.Study, user: AbstractBaseUser, role: str, doing: str) -> str:
+def _require(study: m.Study, user: User, role: str, doing: str) -> str:
     held = review_role(study, user)
     if held is None or m.Role.rank(held) < m.Role.rank(role):
         raise PermissionDenied(f"{doing} needs the {role} role or above in the study.")
@@ -185,7 +185,7 @@ def _decision_json(decision: m.Decision) -> dict[str, Any]:
 def comment_post(
     *,
     study: m.Study,
-    user: AbstractBaseUser,
+    user: User,
     kind: str = "",
     key: str = "",
     plan_key: str = "",
@@ -202,7 +202,7 @@ def comment_post(
     _require(study, user, m.Role.REVIEWER, "Commenting")
     text = _text(body, "body", "comment", required=True)
     answered = None
-    if parent not in (None, ""):
+    if parent is not None and parent != "":
         try:
             answered = m.Comment.objects.get(study=study, pk=int(parent))
         except (ValueError, TypeError, m.Comment.DoesNotExist):
@@ -235,7 +235,7 @@ def comment_post(
 
 
 def comment_resolve(
-    *, study: m.Study, user: AbstractBaseUser, comment: int | str, resolved: bool
+    *, study: m.Study, user: User, comment: int | str, resolved: bool
 ) -> m.Comment:
     """Mark a comment resolved (or open again): its author, or an editor or above."""
     try:
@@ -274,7 +274,7 @@ def _status(value: object) -> str:
 def decision_save(
     *,
     study: m.Study,
-    user: AbstractBaseUser,
+    user: User,
     kind: str,
     key: str = "",
     plan_key: str = "",
@@ -314,7 +314,7 @@ def decision_save(
 def decision_status_set(
     *,
     study: m.Study,
-    user: AbstractBaseUser,
+    user: User,
     decision: int | str,
     status: object,
     expected_version: int | None = None,

@@ -10,7 +10,7 @@ audit entry in the same transaction as the rows they store.
 
 from __future__ import annotations
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import User
 from django.core.exceptions import PermissionDenied
 from django.db import transaction
 
@@ -42,18 +42,18 @@ class SnapshotDamaged(Exception):
     """A stored snapshot no longer matches its hash, so it is not restored."""
 
 
-def _require_editor(study: m.Study, user: AbstractBaseUser, doing: str) -> None:
+def _require_editor(study: m.Study, user: User, doing: str) -> None:
     if not m.Membership.objects.filter(study=study, user=user, role__in=_WRITERS).exists():
         raise PermissionDenied(f"{doing} needs the editor or owner role in the study.")
 
 
-def _name(user: AbstractBaseUser) -> str:
+def _name(user: User) -> str:
     full = user.get_full_name() if hasattr(user, "get_full_name") else ""
     return full or user.get_username()
 
 
 @transaction.atomic
-def snapshot_create(*, study: m.Study, title: str, user: AbstractBaseUser) -> m.Snapshot:
+def snapshot_create(*, study: m.Study, title: str, user: User) -> m.Snapshot:
     """Freeze the study as it is now: its canonical text, hash and headline figures.
 
     Parameters
@@ -82,16 +82,14 @@ def snapshot_create(*, study: m.Study, title: str, user: AbstractBaseUser) -> m.
         )
     if not title:
         raise StudyInvalid([Problem("title", "is empty; say what this snapshot is")])
-    limit = m.Snapshot._meta.get_field("title").max_length
+    limit = m.text_limit(m.Snapshot, "title")
     if len(title) > limit:
         raise StudyInvalid([Problem("title", f"is {len(title)} characters; at most {limit}")])
     # Lock the study row so that no edit lands between reading and freezing it.
     row = m.Study.objects.select_for_update().get(pk=study.pk)
-    result = selectors.study_load(row)
-    if not result.ok:
-        raise StudyInvalid(result.problems)
+    study_now = selectors.study_load(row).require_valid()
     try:
-        text = canonical_text(result.study)
+        text = canonical_text(study_now)
     except CanonicalError as error:
         raise StudyInvalid([Problem(error.path, error.reason)]) from None
     headlines = {
@@ -128,9 +126,7 @@ def snapshot_verify(snapshot: m.Snapshot) -> bool:
 
 
 @transaction.atomic
-def snapshot_restore(
-    *, snapshot: m.Snapshot, user: AbstractBaseUser, key: str | None = None
-) -> m.Study:
+def snapshot_restore(*, snapshot: m.Snapshot, user: User, key: str | None = None) -> m.Study:
     """A new study, owned by ``user``, holding exactly what the snapshot froze.
 
     With ``key`` left out the new study keeps the snapshot's study id, so its canonical

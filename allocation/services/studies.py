@@ -9,20 +9,20 @@ from __future__ import annotations
 
 import secrets
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
-from django.contrib.auth.models import AbstractBaseUser
-from django.db import transaction
+from django.contrib.auth.models import User
+from django.db import models, transaction
 
 from allocation import audit
 from allocation import models as m
-from allocation.core import StudyInvalid, load_study, study_to_json
+from allocation.core import load_study, study_to_json
 from allocation.core.model import Study
 
 from . import rows
 
 
-def study_import(*, data: Any, owner: AbstractBaseUser) -> m.Study:
+def study_import(*, data: Any, owner: User) -> m.Study:
     """Store a study file (decoded JSON) as a new study owned by ``owner``.
 
     Raises
@@ -30,16 +30,11 @@ def study_import(*, data: Any, owner: AbstractBaseUser) -> m.Study:
     StudyInvalid
         When the data has any error; nothing is stored then.
     """
-    result = load_study(data)
-    if not result.ok:
-        raise StudyInvalid(result.problems)
-    return study_create(study=result.study, owner=owner, action="study.import")
+    return study_create(study=load_study(data).require_valid(), owner=owner, action="study.import")
 
 
 @transaction.atomic
-def study_create(
-    *, study: Study, owner: AbstractBaseUser, action: str = "study.create"
-) -> m.Study:
+def study_create(*, study: Study, owner: User, action: str = "study.create") -> m.Study:
     """Write a checked core study as rows, with ``owner`` as its owner.
 
     The audit trail records ``action`` (``study.import`` for a study file) with the
@@ -89,7 +84,10 @@ def study_create(
     return row
 
 
-def _bulk(model: type, items: list) -> dict[str, Any]:
+_Row = TypeVar("_Row", bound=models.Model)
+
+
+def _bulk(model: type[_Row], items: list[_Row]) -> dict[str, _Row]:
     """Validate and insert rows; return them by their ``key`` when they have one."""
     for item in items:
         item.full_clean(
@@ -97,7 +95,7 @@ def _bulk(model: type, items: list) -> dict[str, Any]:
             validate_unique=False,
             validate_constraints=False,
         )
-    created = model.objects.bulk_create(items)
+    created = model._default_manager.bulk_create(items)
     return {item.key: item for item in created if hasattr(item, "key")}
 
 
@@ -162,7 +160,7 @@ def modes_create(
     )
 
 
-def examples_load(*, owner: AbstractBaseUser) -> list[tuple[str, bool]]:
+def examples_load(*, owner: User) -> list[tuple[str, bool]]:
     """Import each example study that ``owner`` does not have yet.
 
     Returns ``(study id, imported)`` pairs; an example the owner already has (by its
@@ -183,7 +181,7 @@ def examples_load(*, owner: AbstractBaseUser) -> list[tuple[str, bool]]:
 LOCAL_USERNAME = "baton"
 
 
-def local_user_ensure(*, data_dir: Path) -> tuple[AbstractBaseUser, str]:
+def local_user_ensure(*, data_dir: Path) -> tuple[User, str]:
     """Make sure the local sign-in exists; return it with its password.
 
     The password is generated once and kept in ``data_dir/local-sign-in.txt`` (a

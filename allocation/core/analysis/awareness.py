@@ -87,12 +87,17 @@ def awareness(
     """
     accountable = study.agents_by_id.get(involved.accountable or "")
     human_accountable = accountable is not None and accountable.is_human
-    if not involved.applies or (involved.human is None and not human_accountable):
+    assignment = involved.assignment
+    if (
+        assignment is None
+        or not involved.applies
+        or (involved.human is None and not human_accountable)
+    ):
         return None
     weakness = assumptions["cue_weakness"]
     degrees = involved.degrees
     automated = involved.automation is not None
-    feedback = (involved.assignment.feedback or "none") if automated else None
+    feedback = (assignment.feedback or "none") if automated else None
     hands_on = per_day * (1 - involved.automated_share) if involved.human else 0.0
     practice = float(assumptions["practice_per_day"])
     factors = {

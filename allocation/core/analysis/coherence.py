@@ -53,20 +53,21 @@ def coherence(
     -------
     Coherence
     """
+    held = {task: holder for task, holder in holders.items() if holder is not None}
     graph = nx.Graph()
-    graph.add_nodes_from(task for task, holder in holders.items() if holder is not None)
+    graph.add_nodes_from(held)
     crossing = total = 0.0
     for source, target, weight in weighted_links:
         if source not in graph or target not in graph or weight <= 0 or source == target:
             continue
         total += weight
-        if holders[source] != holders[target]:
+        if held[source] != held[target]:
             crossing += weight
         previous = graph.get_edge_data(source, target, {}).get("weight", 0.0)
         graph.add_edge(source, target, weight=previous + weight)
     groups: dict[str, set[str]] = defaultdict(set)
     for task in graph:
-        groups[holders[task]].add(task)
+        groups[held[task]].add(task)
     modularity = 0.0
     if total > 0:
         # Modularity does not change with the scale of the weights; shares of the total

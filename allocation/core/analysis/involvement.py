@@ -28,8 +28,9 @@ from ..scales import (
     EK10_LEVELS,
     category_of,
     degree_of_automation,
+    shared_levels,
+    single_level,
     stage_degrees,
-    stage_levels,
     weighted_degree,
 )
 from ..vocabulary import STAGES
@@ -101,11 +102,11 @@ def _supervision(assignment: Assignment, scale: str, table: dict[str, Any]) -> f
     if not assignment.is_shared:
         return 0.0
     if scale == "ek10":
-        level = int(assignment.levels)
+        level = single_level(assignment)
         if level not in EK10_LEVELS:
             return 0.0
         return float(table.get(str(level), 0))
-    levels = stage_levels(assignment)
+    levels = shared_levels(assignment)
     return float(max(table.get(str(levels["decision"]), 0), table.get(str(levels["action"]), 0)))
 
 
@@ -131,13 +132,12 @@ def involvement(
     -------
     Involvement
     """
-    applies = assignment is not None and assignment.is_applicable
-    if not applies:
+    if assignment is None or not assignment.is_applicable:
         zero = dict.fromkeys(STAGES, 0.0)
         return Involvement(
             task.id,
             assignment,
-            applies,
+            False,
             zero,
             0.0,
             "none",

@@ -165,8 +165,8 @@ class Exploration:
         sure = state in self.sure_parents
         tree = self.sure_parents if sure else self.parents
         trail: list[tuple[Step, State]] = []
-        while tree[state] is not None:
-            before, step = tree[state]
+        while (parent := tree[state]) is not None:
+            before, step = parent
             trail.append((step, state))
             state = before
         return tuple(reversed(trail)), not sure
@@ -193,8 +193,8 @@ class Exploration:
     def machine_path(self, mode: str) -> tuple[Transition, ...]:
         """The shortest sequence of transitions from the initial mode to ``mode``."""
         steps: list[Transition] = []
-        while self.machine_parents[mode] is not None:
-            mode, transition = self.machine_parents[mode]
+        while (parent := self.machine_parents[mode]) is not None:
+            mode, transition = parent
             steps.append(transition)
         return tuple(reversed(steps))
 
@@ -311,10 +311,10 @@ def error_state_tasks(findings: list[Finding]) -> frozenset[str]:
 class _Checker:
     """The holders of every mode and the words of the findings for one plan."""
 
-    def __init__(self, study: Study, plan: Plan, assumptions: dict[str, Any]):
+    def __init__(self, study: Study, plan: Plan, modes: ModeMap, assumptions: dict[str, Any]):
         self.study = study
         self.plan = plan
-        self.modes: ModeMap = plan.modes
+        self.modes = modes
         self.leaves = [task.id for task in study.leaves]
         leaf_set = set(self.leaves)
         # Only overridden tasks can differ between modes; the rest hold the plan's holder.
@@ -433,7 +433,7 @@ def verify_mode_map(study: Study, plan: Plan, assumptions: dict[str, Any]) -> li
     modes = plan.modes
     if modes is None or modes.initial not in modes.by_id:
         return []
-    check = _Checker(study, plan, assumptions)
+    check = _Checker(study, plan, modes, assumptions)
     found = explore(modes)
     out = _outgoing(modes)
     actions = _actions(out)
@@ -751,7 +751,7 @@ def walkthrough(
     """
     if not finding.witness or plan.modes is None:
         return []
-    check = _Checker(study, plan, assumptions)
+    check = _Checker(study, plan, plan.modes, assumptions)
     own = set(finding.tasks)
 
     def moment(step: WitnessStep | None, actual: str, believed: str) -> Moment:

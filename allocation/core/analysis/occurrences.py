@@ -19,7 +19,7 @@ import heapq
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
-from ..graph import Trigger, triggers
+from ..graph import Trigger, root_occurs, trigger_rule, triggers
 from ..model import Event, Occurs, Study, seconds_of_day
 from .timeofday import DayShare, asleep_intervals, awake_intervals, primary_sleeper
 
@@ -62,11 +62,7 @@ def trigger_timings(study: Study, every_days_when: str = "awake") -> list[Trigge
     """Every trigger of the study with its rate per day and its time-of-day spread."""
     result = []
     for trigger in triggers(study):
-        if trigger.kind == "event":
-            rule = study.events_by_id[trigger.id]
-        else:
-            rule = study.task(trigger.roots[0]).occurs
-        per_day, timing = _rate_and_timing(rule, study, every_days_when)
+        per_day, timing = _rate_and_timing(trigger_rule(study, trigger), study, every_days_when)
         result.append(TriggerTiming(trigger, per_day, timing))
     return result
 
@@ -154,7 +150,7 @@ def _chain_probabilities(
     for root in trigger.roots:
         if not applies(root):
             continue
-        occurs = study.task(root).occurs
+        occurs = root_occurs(study, root)
         own = 1.0 if occurs.probability is None else float(occurs.probability)
         chance[root] = 1 - (1 - chance.get(root, 0.0)) * (1 - own)
         heapq.heappush(heap, (position[root], root))

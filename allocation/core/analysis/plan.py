@@ -296,8 +296,7 @@ class _Analysis:
             overridden = [
                 (share, m)
                 for share, m in parts
-                if self.plan.modes.by_id[m].overrides
-                and task_id in self.plan.modes.by_id[m].overrides
+                if task_id in (self.plan.modes.by_id[m].overrides or {})
             ]
             if overridden:
                 mixes[task_id] = [(share, self.involved(task_id, m)) for share, m in parts]
@@ -342,11 +341,11 @@ class _Analysis:
         # ready times, and the chain's time-of-day spread.
         starts: dict[str, list[tuple[float, float, float, DayShare]]] = defaultdict(list)
         for chain in chains:
-            spread = counted.timings[chain.trigger.id].timing
+            chain_spread = counted.timings[chain.trigger.id].timing
             for timing in chain.tasks:
                 weight = chain.per_day * timing.probability
                 starts[timing.task_id].append(
-                    (weight, timing.start.typical, timing.ready.typical, spread)
+                    (weight, timing.start.typical, timing.ready.typical, chain_spread)
                 )
         tasks = {}
         for task_id in leaves:
@@ -502,8 +501,8 @@ class _Analysis:
             target = tasks[site.to_task]
             mode = site.modes[1] if site.modes else self.initial
             involved = self.involved(site.to_task, mode) if site.modes else target.involved
-            if is_human:
-                work = involved.time_of(site.to_agent) or involved.duration_s
+            if receiver is not None and receiver.is_human:
+                work = involved.time_of(receiver.id) or involved.duration_s
             else:
                 work = involved.duration_s
             latency = response_latency(

@@ -13,7 +13,7 @@ from ..cautions import CAUTIONS
 from ..describe import seconds_text
 from ..methods import methods_document
 from ..model import Study
-from ..scales import level_text, stage_levels
+from ..scales import level_text, shared_levels, single_level
 from ..vocabulary import STAGES
 from .involvement import Involvement
 from .plan import PlanAnalysis
@@ -50,9 +50,9 @@ def levels_with_words(study: Study, involved: Involvement) -> dict[str, Any] | N
     if assignment is None or not assignment.is_shared:
         return None
     if study.scale == "ek10":
-        level = int(assignment.levels)
+        level = single_level(assignment)
         return {"level": level, "text": level_text("ek10", level)}
-    levels = stage_levels(assignment)
+    levels = shared_levels(assignment)
     return {
         stage: {"level": levels[stage], "text": level_text("sv10", levels[stage])}
         for stage in STAGES

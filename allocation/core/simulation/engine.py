@@ -163,9 +163,11 @@ def _latency(
             asleep[mine] = in_intervals(moment[rows][mine] % DAY_S, sim.asleep[a])
     if np.all(who == who[0]):
         # One agent (the common case): draw awake and asleep latencies from its rows.
-        awake = triangular(rng, *sim.latency_awake[who[0]], rows.size)
+        low, mode, high = sim.latency_awake[who[0]]
+        awake = triangular(rng, low, mode, high, rows.size)
         if asleep.any():
-            awake[asleep] = triangular(rng, *sim.latency_asleep[who[0]], int(asleep.sum()))
+            low, mode, high = sim.latency_asleep[who[0]]
+            awake[asleep] = triangular(rng, low, mode, high, int(asleep.sum()))
         wait[rows] = awake
         return wait
     table = np.where(asleep[:, None], sim.latency_asleep[who], sim.latency_awake[who])
@@ -286,12 +288,12 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
     # belong to another chunk's days.
     inside = (joined["start"] >= opens) & (joined["start"] < closes)
     joined = {key: values[inside] for key, values in joined.items()}
-    task = joined["task"].astype(int)
+    tasks = joined["task"].astype(int)
     variant = joined["variant"].astype(int)
     return ChunkDraw(
         first_day=first_day,
         days=days,
-        task=task,
+        task=tasks,
         variant=variant,
         day=(np.floor(joined["start"] / DAY_S) - first_day).astype(int),
         begin=joined["begin"],
@@ -321,7 +323,8 @@ def person_segments(
     mine = sim.human[variant] == person
     shares = sim.stage_share[variant]
     total = shares.sum(axis=1)
-    pieces = []
+    # Each piece: rows of the draw, begins, ends, kind, and "sup"/"mon" for the extras.
+    pieces: list[tuple[np.ndarray, np.ndarray, np.ndarray, int, str | None]] = []
     if by_stage:
         before = np.cumsum(shares, axis=1) - shares
         for s in range(shares.shape[1]):

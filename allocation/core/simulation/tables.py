@@ -21,7 +21,8 @@ from ..analysis.modes import assignment_in_mode
 from ..analysis.occurrences import TriggerTiming
 from ..analysis.plan import INTERRUPTING, PlanAnalysis, StudyGraph
 from ..analysis.timeofday import DAY_S, asleep_intervals, awake_intervals, primary_sleeper
-from ..model import Event, Occurs, Study, seconds_of_day
+from ..graph import trigger_rule
+from ..model import Study, seconds_of_day
 from ..vocabulary import CHANNELS, STAGES
 
 __all__ = ["ChainPlan", "SimPlan", "TriggerRule", "build_sim_plan"]
@@ -115,11 +116,7 @@ class SimPlan:
 
 def _rule(study: Study, trigger_timing: TriggerTiming, every_days_when: str) -> TriggerRule:
     trigger = trigger_timing.trigger
-    rule: Event | Occurs
-    if trigger.kind == "event":
-        rule = study.events_by_id[trigger.id]
-    else:
-        rule = study.task(trigger.roots[0]).occurs
+    rule = trigger_rule(study, trigger)
     pieces = trigger_timing.timing.pieces
     if rule.times is not None:
         times = tuple(float(seconds_of_day(clock)) for clock in rule.times)
@@ -204,9 +201,9 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
     for v, involved in enumerate(variants):
         task = study.task(involved.task_id)
         variant_task[v] = index[involved.task_id]
-        if not involved.applies:
-            continue
         assignment = involved.assignment
+        if assignment is None or not involved.applies:
+            continue
         duration[v] = _span(assignment.duration_s or task.duration_s)
         split = task.stage_split
         offset = 0.0
@@ -281,7 +278,7 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
         asleep=asleep,
         window_s=np.array(
             [
-                np.nan if study.task(t).window_s is None else float(study.task(t).window_s)
+                np.nan if (window := study.task(t).window_s) is None else float(window)
                 for t in task_ids
             ]
         ),

@@ -313,14 +313,16 @@ def _read_xlsx(data: bytes, max_rows: int) -> _Read:
             io.BytesIO(data), read_only=True, data_only=False, keep_links=False
         )
     except Exception as error:  # noqa: BLE001 - any failure of a foreign file is a problem
-        while error.__cause__ or error.__context__:  # name the first cause, not a wrapper
-            error = error.__cause__ or error.__context__
+        first: BaseException = error
+        # Name the first cause, not a wrapper.
+        while (inner := first.__cause__ or first.__context__) is not None:
+            first = inner
         result.problems.append(
             RowProblem(
                 "file",
                 None,
                 "",
-                f"the workbook cannot be read ({type(error).__name__}); save it again "
+                f"the workbook cannot be read ({type(first).__name__}); save it again "
                 "as an Excel workbook (.xlsx)",
             )
         )
@@ -389,7 +391,7 @@ def _sheet_cells(
     for number, cells in enumerate(sheet.iter_rows(min_row=1, max_col=MAX_COLUMNS + 1), 1):
         if number > 20 * max_rows + 1:
             break
-        values = []
+        values: list[Any] = []
         for cell in cells:
             value = cell.value
             if formulas and getattr(cell, "data_type", None) == "f":
