@@ -1,7 +1,7 @@
 """Forms of the inventory: a new study, agents, events, tasks and links.
 
 A form only parses (numbers, choices); whether the item makes sense in the study is the
-core's judgement, with the same messages as an import (see ``services.editing``)."""
+core's judgement, with the same messages as an import (see ``services.edits``)."""
 
 from __future__ import annotations
 

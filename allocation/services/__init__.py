@@ -1,15 +1,18 @@
 """Writes: validate with the core, then persist, inside one transaction.
 
-One module per area; everything is re-exported here, so callers write
-``services.study_import(...)``.
+One module per area; every service is re-exported here, so callers write
+``services.study_import(...)``. The edit API the services share (:mod:`.edits`) is
+theirs: it is not re-exported.
 """
 
 from .assumptions import *  # noqa: F403 - listed in assumptions.__all__
 from .assumptions import __all__ as _assumptions
-from .editing import *  # noqa: F403 - every edit, listed in editing.__all__
-from .editing import __all__ as _editing
+from .inventory import *  # noqa: F403 - header, agents, events, tasks, links
+from .inventory import __all__ as _inventory
 from .modes import *  # noqa: F403 - every mode-map edit, listed in modes.__all__
 from .modes import __all__ as _modes
+from .plans import *  # noqa: F403 - plans and assignments, listed in plans.__all__
+from .plans import __all__ as _plans
 from .ratings import *  # noqa: F403 - workload ratings, listed in ratings.__all__
 from .ratings import __all__ as _ratings
 from .reviews import *  # noqa: F403 - comments and decisions, listed in reviews.__all__
@@ -30,8 +33,9 @@ from .studies import (
 
 __all__ = [
     *_assumptions,
-    *_editing,
+    *_inventory,
     *_modes,
+    *_plans,
     *_ratings,
     *_reviews,
     *_simulation,

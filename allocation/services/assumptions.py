@@ -3,8 +3,8 @@
 A value is checked twice before anything is written: on its own
 (:func:`~allocation.core.assumptions.check_assumptions`, or the reader's rules for a risk
 policy) and with the whole study, by reading the study's document with the new value
-through the core (:func:`~allocation.core.load_study`). Any error the new value brings
-raises :class:`~allocation.core.StudyInvalid` naming its JSON path, and nothing is
+through the core, as every edit is (:func:`~.edits.study_edit`). Any error the new value
+brings raises :class:`~allocation.core.StudyInvalid` naming its JSON path, and nothing is
 stored; errors the study already had elsewhere do not block the change.
 """
 
@@ -13,17 +13,16 @@ from __future__ import annotations
 import re
 from typing import Any
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import User
 from django.core.exceptions import PermissionDenied
-from django.db import transaction
 
-from allocation import audit, selectors
 from allocation import models as m
-from allocation.core import Problem, StudyInvalid, load_study
+from allocation.core import Problem, StudyInvalid
 from allocation.core.assumptions import ASSUMPTIONS, check_assumptions
 from allocation.core.reading import child_path, parse_json_text
 
 from .conflicts import version_check
+from .edits import StudyEdit, study_edit
 
 __all__ = [
     "study_assumption_reset",
@@ -64,29 +63,17 @@ def assumption_value_parse(text: str, path: str) -> tuple[Any, list[Problem]]:
     return value, []
 
 
-def _require_editor(study: m.Study, user: AbstractBaseUser) -> None:
+def _require_editor(study: m.Study, user: User) -> None:
     """Editors and owners only; the views check this too, the service does not trust them."""
     allowed = (m.Role.OWNER, m.Role.EDITOR)
     if not m.Membership.objects.filter(study=study, user=user, role__in=allowed).exists():
         raise PermissionDenied("Changing assumptions needs the editor or owner role.")
 
 
-def _new_errors(row: m.Study, part: str, value: Any) -> list[Problem]:
-    """Errors the study would have with ``value`` as its header's ``part`` that it has not
-    now (loading the whole study document through the core)."""
-    before = set(selectors.study_load(row).errors)
-    # The selectors share their document between readers: change a copy of the header.
-    document = selectors.study_document(row)
-    changed = {**document, "study": {**document["study"], part: value}}
-    return [problem for problem in load_study(changed).errors if problem not in before]
-
-
-def _locked(study: m.Study, expected: int | None, part: str, key: str | None = None) -> m.Study:
-    """The study row, locked; refused with :class:`~.conflicts.EditConflict` when
-    ``expected`` is given and the study's assumptions and policy have moved on from it.
-    The conflict carries the current value of ``part`` (one assumption ``key``, or the
-    risk policy)."""
-    row = m.Study.objects.select_for_update().get(pk=study.pk)
+def _version_check(row: m.Study, expected: int | None, key: str | None = None) -> None:
+    """Refuse with :class:`~.conflicts.EditConflict` when ``expected`` is given and the
+    (locked) study's assumptions and policy have moved on from it. The conflict carries
+    the current value of one assumption ``key``, or (``key`` None) of the risk policy."""
     if key is not None:
         path, what, current = (
             child_path(ASSUMPTIONS_PATH, key),
@@ -98,22 +85,16 @@ def _locked(study: m.Study, expected: int | None, part: str, key: str | None = N
     version_check(
         study=row, stored=row.version, expected=expected, path=path, what=what, current=current
     )
-    return row
 
 
-def _save(row: m.Study, field: str, value: Any, action: str, target: str) -> m.Study:
-    before = selectors.study_document(row)
-    header = {name: v for name, v in before["study"].items() if name != field}
-    if value not in (None, ""):
-        header[field] = value
-    setattr(row, field, value)
-    row.version += 1
-    row.full_clean()
-    row.save(update_fields=[field, "version", "updated_at"])
-    audit.record_change(
-        study=row, action=action, target=target, before=before, after={**before, "study": header}
-    )
-    return row
+def _save(edit: StudyEdit, field: str, value: Any) -> None:
+    """Set the study header's ``field`` to ``value``: in the edit's document, checked by
+    the core (unless the edit is made unchecked), then on the study row."""
+    edit.document["study"][field] = value
+    if edit.checked:
+        edit.check()
+    edit.study_set({field: value})
+    edit.study.full_clean()
 
 
 def study_assumption_set(
@@ -121,7 +102,7 @@ def study_assumption_set(
     study: m.Study,
     key: str,
     value: Any,
-    user: AbstractBaseUser,
+    user: User,
     expected_version: int | None = None,
 ) -> m.Study:
     """Set the study's own value of one assumption.
@@ -140,37 +121,35 @@ def study_assumption_set(
     problems = [Problem(path, message) for _key, message in check_assumptions({key: value})]
     if problems:
         raise StudyInvalid(problems)
-    with transaction.atomic():
-        row = _locked(study, expected_version, "assumptions", key)
-        assumptions = {**(row.assumptions or {}), key: value}
-        problems = _new_errors(row, "assumptions", assumptions)
-        if problems:
-            raise StudyInvalid(problems)
-        return _save(row, "assumptions", assumptions, "assumption.set", f"assumption {key}")
+    with study_edit(study=study, action="assumption.set", target=f"assumption {key}") as edit:
+        _version_check(edit.study, expected_version, key)
+        assumptions = {**(edit.study.assumptions or {}), key: value}
+        _save(edit, "assumptions", assumptions)
+    return edit.study
 
 
 def study_assumption_reset(
-    *, study: m.Study, key: str, user: AbstractBaseUser, expected_version: int | None = None
+    *, study: m.Study, key: str, user: User, expected_version: int | None = None
 ) -> m.Study:
     """Drop the study's own value of one assumption, so that the default applies again
     (refused as :func:`study_assumption_set` is when the version moved on)."""
     _require_editor(study, user)
-    with transaction.atomic():
-        row = _locked(study, expected_version, "assumptions", key)
-        if key not in (row.assumptions or {}):
-            return row
-        assumptions = {name: v for name, v in row.assumptions.items() if name != key}
-        problems = _new_errors(row, "assumptions", assumptions)
-        if problems:
-            raise StudyInvalid(problems)
-        return _save(row, "assumptions", assumptions, "assumption.reset", f"assumption {key}")
+    with study_edit(study=study, action="assumption.reset", target=f"assumption {key}") as edit:
+        _version_check(edit.study, expected_version, key)
+        own = edit.study.assumptions or {}
+        if key not in own:
+            edit.leave_unchanged()
+        else:
+            assumptions = {name: v for name, v in own.items() if name != key}
+            _save(edit, "assumptions", assumptions)
+    return edit.study
 
 
 def study_risk_policy_set(
     *,
     study: m.Study,
     policy: dict[str, Any],
-    user: AbstractBaseUser,
+    user: User,
     expected_version: int | None = None,
 ) -> m.Study:
     """Set the study's risk policy (``likelihood_bands``, ``review``, ``unacceptable``,
@@ -194,21 +173,24 @@ def study_risk_policy_set(
                 for key in unknown
             ]
         )
-    with transaction.atomic():
-        row = _locked(study, expected_version, "risk_policy")
-        problems = _new_errors(row, "risk_policy", policy)
-        if problems:
-            raise StudyInvalid(problems)
-        return _save(row, "risk_policy", policy, "risk_policy.set", "risk policy")
+    with study_edit(study=study, action="risk_policy.set", target="risk policy") as edit:
+        _version_check(edit.study, expected_version)
+        _save(edit, "risk_policy", policy)
+    return edit.study
 
 
 def study_risk_policy_reset(
-    *, study: m.Study, user: AbstractBaseUser, expected_version: int | None = None
+    *, study: m.Study, user: User, expected_version: int | None = None
 ) -> m.Study:
     """Drop the study's risk policy: Baton's example policy applies again (and says so)."""
     _require_editor(study, user)
-    with transaction.atomic():
-        row = _locked(study, expected_version, "risk_policy")
-        if not row.risk_policy:
-            return row
-        return _save(row, "risk_policy", {}, "risk_policy.reset", "risk policy")
+    # Unchecked: without a policy of its own the study takes the example policy.
+    with study_edit(
+        study=study, action="risk_policy.reset", target="risk policy", check=False
+    ) as edit:
+        _version_check(edit.study, expected_version)
+        if not edit.study.risk_policy:
+            edit.leave_unchanged()
+        else:
+            _save(edit, "risk_policy", {})
+    return edit.study

@@ -1,9 +1,10 @@
 """Edits to a plan's mode map: its modes, holder overrides and transitions.
 
 Each edit changes the plan's ``modes`` in the study's document, which the core checks as
-it checks an import (see :mod:`.editing`); an edit that would add an error is refused
-with those errors and nothing is written. Then the plan's mode rows are written anew
-from the checked document, inside the same transaction, with the study row locked.
+it checks an import (through :func:`~.edits.study_edit`); an edit that would add an
+error is refused with those errors and nothing is written. Then the plan's mode rows are
+written anew from the checked document, inside the same transaction, with the study row
+locked.
 A mode map is small (modes and transitions by the dozen), so rewriting it whole keeps
 the rows exactly what the checked document says; the rewritten rows carry their versions
 on (one more for each row whose values changed), so that optimistic versioning
@@ -16,24 +17,12 @@ import copy
 from collections.abc import Callable
 from typing import Any
 
-from django.db import transaction
-
 from allocation import models as m
 from allocation import selectors
 from allocation.core import Problem, StudyInvalid
 
 from .conflicts import version_check
-from .editing import (
-    Consequence,
-    Document,
-    _agents,
-    _checked,
-    _index,
-    _locked,
-    _recorded,
-    _tasks,
-    _touch,
-)
+from .edits import Consequence, Document, agents_by_key, item_index, study_edit, tasks_by_key
 from .studies import modes_create
 
 __all__ = [
@@ -51,7 +40,7 @@ Modes = dict[str, Any]
 
 
 def _plan_path(document: Document, plan_key: str) -> str:
-    return f"$.plans[{_index(document['plans'], plan_key)}].modes"
+    return f"$.plans[{item_index(document['plans'], plan_key)}].modes"
 
 
 Versions = tuple[dict[str, int], dict[tuple[str, str], int], list[int]]
@@ -88,21 +77,22 @@ def _carry_versions(
     before_states = {mode["id"]: mode for mode in (before or {}).get("states", [])}
     after_states = {mode["id"]: mode for mode in after["states"]}
     states = list(plan_row.mode_states.all())
-    for row in states:
-        was = renamed.get(row.key, row.key)
+    for state in states:
+        was = renamed.get(state.key, state.key)
         if was in old_states:
-            same = was == row.key and _bare(before_states.get(was)) == _bare(after_states[row.key])
-            row.version = old_states[was] + (0 if same else 1)
+            alike = _bare(before_states.get(was)) == _bare(after_states[state.key])
+            state.version = old_states[was] + (0 if was == state.key and alike else 1)
     m.ModeState.objects.bulk_update(states, ["version"])
     overrides = list(
         m.ModeOverride.objects.filter(state__plan=plan_row).select_related("state", "task")
     )
-    for row in overrides:
-        was = renamed.get(row.state.key, row.state.key)
-        if (was, row.task.key) in old_overrides:
-            then = before_states[was].get("overrides", {}).get(row.task.key)
-            now = after_states[row.state.key]["overrides"][row.task.key]
-            row.version = old_overrides[was, row.task.key] + (0 if then == now else 1)
+    for override in overrides:
+        was = renamed.get(override.state.key, override.state.key)
+        task_key = override.task.key
+        if (was, task_key) in old_overrides:
+            then = before_states[was].get("overrides", {}).get(task_key)
+            now = after_states[override.state.key]["overrides"][task_key]
+            override.version = old_overrides[was, task_key] + (0 if then == now else 1)
     m.ModeOverride.objects.bulk_update(overrides, ["version"])
     # Transitions have no id: match them by position, skipping the ones deleted.
     transitions = list(plan_row.mode_transitions.all())
@@ -110,11 +100,11 @@ def _carry_versions(
     now_items = after["transitions"]
     deleted = len(now_items) < len(then_items)
     j = 0
-    for row, item in zip(transitions, now_items, strict=False):
+    for transition, item in zip(transitions, now_items, strict=False):
         while deleted and j < len(then_items) and then_items[j] != item:
             j += 1
         if j < len(then_items):
-            row.version = old_transitions[j] + (0 if then_items[j] == item else 1)
+            transition.version = old_transitions[j] + (0 if then_items[j] == item else 1)
             j += 1
     m.ModeTransition.objects.bulk_update(transitions, ["version"])
 
@@ -128,7 +118,7 @@ def _edit(
     *,
     check: Callable[[m.Study, m.Plan, Modes | None, str], None] | None = None,
     renamed: dict[str, str] | None = None,
-):
+) -> None:
     """Apply ``change`` to a plan's mode map (``None`` when it has none; the JSON path of
     the map is passed for messages) and write the result, if it adds no error; the audit
     trail records it as ``action`` on ``target`` (words after the plan's).
@@ -136,42 +126,45 @@ def _edit(
     ``check`` runs first, under the lock, with the plan's row, mode map and its path: it
     refuses a stale edit (:class:`~.conflicts.EditConflict`). ``renamed`` maps a mode's
     new id to its old one, so that its version carries on."""
-    study = _locked(study)
-    if check is not None:
-        plan_row = study.plans.filter(key=plan_key).first()
-        if plan_row is not None:
-            document = selectors.study_document(study)
-            plan = document["plans"][_index(document["plans"], plan_key)]
-            check(study, plan_row, plan.get("modes"), _plan_path(document, plan_key))
+    with study_edit(study=study, action=action, target=f"plan {plan_key} / {target}") as edit:
+        before_plans = edit.before["plans"]
+        if check is not None:
+            found = edit.study.plans.filter(key=plan_key).first()
+            if found is not None:
+                plan = before_plans[item_index(before_plans, plan_key)]
+                check(edit.study, found, plan.get("modes"), _plan_path(edit.before, plan_key))
 
-    def mutate(document: Document) -> None:
-        plan = document["plans"][_index(document["plans"], plan_key)]
-        changed = change(plan.get("modes"), _plan_path(document, plan_key))
-        if changed is None:
-            plan.pop("modes", None)
-        else:
-            plan["modes"] = changed
+        def mutate(document: Document) -> None:
+            plan = document["plans"][item_index(document["plans"], plan_key)]
+            changed = change(plan.get("modes"), _plan_path(document, plan_key))
+            if changed is None:
+                plan.pop("modes", None)
+            else:
+                plan["modes"] = changed
 
-    document = _checked(study, mutate)
-    plan_item = document["plans"][_index(document["plans"], plan_key)]
-    plan_row = study.plans.get(key=plan_key)
-    old = _versions(plan_row)
-    before_plans = study._audit_change[0]["plans"]
-    before = before_plans[_index(before_plans, plan_key)].get("modes")
-    # Transitions go with their modes (cascade); overrides with their modes too.
-    plan_row.mode_transitions.all().delete()
-    plan_row.mode_states.all().delete()
-    modes = plan_item.get("modes")
-    initial = modes["initial"] if modes else ""
-    if plan_row.initial_mode != initial:
-        plan_row.initial_mode = initial
-        plan_row.version += 1
-        plan_row.save(update_fields=["initial_mode", "version"])
-    if modes:
-        modes_create(plan_row=plan_row, modes=modes, agents=_agents(study), tasks=_tasks(study))
-        _carry_versions(plan_row, old, before, modes, renamed or {})
-    _recorded(study, action, f"plan {plan_key} / {target}")
-    _touch(study)
+        mutate(edit.document)
+        document = edit.check()
+        plan_item = document["plans"][item_index(document["plans"], plan_key)]
+        plan_row = edit.study.plans.get(key=plan_key)
+        old = _versions(plan_row)
+        before = before_plans[item_index(before_plans, plan_key)].get("modes")
+        # Transitions go with their modes (cascade); overrides with their modes too.
+        plan_row.mode_transitions.all().delete()
+        plan_row.mode_states.all().delete()
+        modes = plan_item.get("modes")
+        initial = modes["initial"] if modes else ""
+        if plan_row.initial_mode != initial:
+            plan_row.initial_mode = initial
+            plan_row.version += 1
+            plan_row.save(update_fields=["initial_mode", "version"])
+        if modes:
+            modes_create(
+                plan_row=plan_row,
+                modes=modes,
+                agents=agents_by_key(edit.study),
+                tasks=tasks_by_key(edit.study),
+            )
+            _carry_versions(plan_row, old, before, modes, renamed or {})
 
 
 def _refuse(path: str, message: str) -> StudyInvalid:
@@ -185,7 +178,6 @@ def _mode_index(modes: Modes | None, key: str, path: str) -> int:
     raise _refuse(f"{path}.states", f"the plan has no mode {key!r} (any more)")
 
 
-@transaction.atomic
 def mode_save(
     *,
     study: m.Study,
@@ -273,13 +265,13 @@ def mode_delete_consequences(*, study: m.Study, plan_key: str, key: str) -> list
     return result
 
 
-@transaction.atomic
 def mode_delete(*, study: m.Study, plan_key: str, key: str) -> None:
     """Delete a mode with its transitions and overrides; deleting the last mode deletes
     the mode map. The initial mode cannot be deleted while other modes remain."""
 
     def change(modes: Modes | None, path: str) -> Modes | None:
         index = _mode_index(modes, key, path)
+        assert modes is not None  # _mode_index refuses a plan without a mode map
         if len(modes["states"]) == 1:
             return None
         if modes["initial"] == key:
@@ -295,24 +287,22 @@ def mode_delete(*, study: m.Study, plan_key: str, key: str) -> None:
     _edit(study, plan_key, change, "mode.delete", f"mode {key}")
 
 
-@transaction.atomic
 def mode_initial_set(*, study: m.Study, plan_key: str, key: str) -> None:
     """Make a mode the one the device starts in."""
 
     def change(modes: Modes | None, path: str) -> Modes:
         _mode_index(modes, key, path)
+        assert modes is not None  # _mode_index refuses a plan without a mode map
         return {**modes, "initial": key}
 
     _edit(study, plan_key, change, "mode.initial", f"mode {key}")
 
 
-@transaction.atomic
 def mode_map_delete(*, study: m.Study, plan_key: str) -> None:
     """Remove a plan's whole mode map."""
     _edit(study, plan_key, lambda modes, path: None, "modes.delete", "mode map")
 
 
-@transaction.atomic
 def mode_override_set(
     *,
     study: m.Study,
@@ -346,6 +336,7 @@ def mode_override_set(
 
     def change(modes: Modes | None, path: str) -> Modes:
         index = _mode_index(modes, mode_key, path)
+        assert modes is not None  # _mode_index refuses a plan without a mode map
         modes = copy.deepcopy(modes)
         overrides = modes["states"][index].setdefault("overrides", {})
         if item is None:
@@ -380,7 +371,6 @@ def _transition_index(modes: Modes | None, index: int, expected: dict | None, pa
     return index
 
 
-@transaction.atomic
 def transition_save(
     *,
     study: m.Study,
@@ -433,7 +423,6 @@ def transition_save(
     )
 
 
-@transaction.atomic
 def transition_delete(
     *, study: m.Study, plan_key: str, index: int, expected: dict[str, Any] | None = None
 ) -> None:
@@ -441,8 +430,10 @@ def transition_delete(
     :func:`transition_save`)."""
 
     def change(modes: Modes | None, path: str) -> Modes:
+        position = _transition_index(modes, index, expected, path)
+        assert modes is not None  # _transition_index refuses a plan without a mode map
         modes = copy.deepcopy(modes)
-        modes["transitions"].pop(_transition_index(modes, index, expected, path))
+        modes["transitions"].pop(position)
         return modes
 
     target = (

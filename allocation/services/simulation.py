@@ -1,5 +1,5 @@
 """Simulation runs: ask for N simulated days of a plan, stop a run, or restart one whose
-worker died.
+worker died; and what the background task does with each chunk.
 
 A request is answered by a stored run when one exists for the same question — the
 study at its current version, the plan, N and the seed — that is done or still going;
@@ -8,29 +8,61 @@ is enqueued on Django's tasks framework (``allocation.tasks``). With the databas
 backend the run row and its tasks are written in one transaction, so there is never a
 run without its tasks or tasks without their run, and workers on any machine that
 shares the database take the chunks.
+
+Any worker may take any chunk: the core draws a chunk from the run's seed and the
+chunk's number alone, so the days are the same however the chunks are spread. The task
+calls :func:`simulation_chunk_run`, which
+
+1. stops at once if the run is finished or its cancellation was asked for
+   (:func:`simulation_start`);
+2. simulates its chunk with the study as it is now, and stores it only if the study
+   still has the version the run was made for (:func:`simulation_chunk_store`;
+   otherwise the run fails with :data:`STUDY_CHANGED`);
+3. counts the chunk under a lock on the run row; the one task whose chunk makes the
+   count complete combines all chunks into the run's result
+   (:func:`simulation_finish`). The lock makes that exactly one task, however many
+   workers share the database.
 """
 
 from __future__ import annotations
 
-from django.contrib.auth.models import AbstractBaseUser
+from typing import Any
+
+from django.contrib.auth.models import User
 from django.core.exceptions import PermissionDenied
 from django.db import IntegrityError, transaction
 from django.utils import timezone
 
 from allocation import models as m
 from allocation import selectors
-from allocation.core.simulation import chunk_count
-from allocation.tasks import simulate_run_chunk
+from allocation.core import Study
+from allocation.core.simulation import (
+    CHUNK_DAYS,
+    SimulationChunk,
+    chunk_count,
+    combine,
+    day_timeline,
+    sim_plan,
+    simulate_chunk,
+)
 
 __all__ = [
     "SIMULATION_MAX_DAYS",
     "SIMULATION_MAX_SEED",
     "SimulationRefused",
+    "SimulationRunOver",
+    "SimulationStudyChanged",
     "simulation_cancel",
     "simulation_check",
+    "simulation_chunk_run",
+    "simulation_chunk_store",
+    "simulation_fail",
+    "simulation_finish",
     "simulation_may_restart",
     "simulation_request",
     "simulation_restart",
+    "simulation_result",
+    "simulation_start",
 ]
 
 #: The most days one request may ask for (the database allows up to
@@ -79,7 +111,7 @@ def simulation_check(*, days: object, seed: object) -> tuple[int, int]:
 
 def _check_plan(study: m.Study, plan_key: str) -> None:
     result = selectors.study_load(study)
-    if not result.ok:
+    if result.study is None or not result.ok:
         raise SimulationRefused(
             "study",
             f"The study has {len(result.errors)} error(s); fix them before simulating it",
@@ -90,7 +122,7 @@ def _check_plan(study: m.Study, plan_key: str) -> None:
 
 
 def simulation_request(
-    *, study: m.Study, plan_key: str, days: object, seed: object, user: AbstractBaseUser
+    *, study: m.Study, plan_key: str, days: object, seed: object, user: User
 ) -> m.SimulationRun:
     """The run that answers "simulate ``days`` days of ``plan_key`` with ``seed``".
 
@@ -148,14 +180,21 @@ def simulation_request(
     return run
 
 
-def _enqueue_chunks(run: m.SimulationRun) -> None:
-    for index in range(run.chunks_total):
+def _enqueue(run: m.SimulationRun, chunks: range | list[int]) -> None:
+    """Enqueue one background task per chunk of ``run``."""
+    # The task module imports the services (its task calls simulation_chunk_run), so the
+    # services reach the task only here, once both modules are loaded.
+    from allocation.tasks import simulate_run_chunk
+
+    for index in chunks:
         simulate_run_chunk.enqueue(run_id=run.pk, chunk=index)
 
 
-def simulation_cancel(
-    *, run: m.SimulationRun, user: AbstractBaseUser | None = None
-) -> m.SimulationRun:
+def _enqueue_chunks(run: m.SimulationRun) -> None:
+    _enqueue(run, range(run.chunks_total))
+
+
+def simulation_cancel(*, run: m.SimulationRun, user: User | None = None) -> m.SimulationRun:
     """Stop ``run``: it becomes *cancelled* at once, keeps no chunks and gets no result.
 
     Chunks already being simulated are dropped when they finish; tasks not yet started
@@ -181,7 +220,7 @@ def simulation_cancel(
 # -- restarting a run whose worker died (issue 8, faults) ------------------------------
 
 
-def simulation_may_restart(*, run: m.SimulationRun, user: AbstractBaseUser) -> bool:
+def simulation_may_restart(*, run: m.SimulationRun, user: User) -> bool:
     """Whether ``user`` may restart ``run``: the member who asked for it, or an editor or
     owner of its study (a restart only re-asks the same question, but it throws away the
     work a live worker may still be doing, so not every viewer may)."""
@@ -195,7 +234,7 @@ def simulation_may_restart(*, run: m.SimulationRun, user: AbstractBaseUser) -> b
     return run.requested_by_id == user.pk or m.Role.rank(role) >= m.Role.rank(m.Role.EDITOR)
 
 
-def simulation_restart(*, run: m.SimulationRun, user: AbstractBaseUser) -> m.SimulationRun:
+def simulation_restart(*, run: m.SimulationRun, user: User) -> m.SimulationRun:
     """Restart a queued or running run whose worker stopped (killed, or its machine gone):
     the old run becomes *failed* ("restarted") and a new run asks the same question.
 
@@ -268,8 +307,195 @@ def simulation_restart(*, run: m.SimulationRun, user: AbstractBaseUser) -> m.Sim
             new.save(update_fields=["chunks_done"])
         old.chunks.all().delete()
         kept_set = set(kept)
-        for index in range(new.chunks_total):
-            if index not in kept_set:
-                simulate_run_chunk.enqueue(run_id=new.pk, chunk=index)
+        _enqueue(new, [index for index in range(new.chunks_total) if index not in kept_set])
     new.refresh_from_db()
     return new
+
+
+# -- the background task's work, chunk by chunk ----------------------------------------
+
+#: The error of a run whose study changed while it ran.
+STUDY_CHANGED = "the study changed; run it again"
+
+
+class SimulationRunOver(Exception):
+    """The run finished (or went) while a task worked on it; its work is dropped."""
+
+
+class SimulationStudyChanged(Exception):
+    """The study moved on from the version the run was made for."""
+
+
+def _run_locked(run_id: int) -> m.SimulationRun | None:
+    """The run with its row locked until the transaction ends, or ``None`` once it is not
+    active; a run whose cancellation was asked for is marked cancelled here."""
+    run = m.SimulationRun.objects.select_for_update().filter(pk=run_id).first()
+    if run is None or run.status not in m.SimulationStatus.active():
+        return None
+    if run.cancel_requested:
+        _end(run, m.SimulationStatus.CANCELLED)
+        return None
+    return run
+
+
+def _end(run: m.SimulationRun, status: str, *, error: str = "", result: Any = None) -> None:
+    """Finish a locked run: only a done run keeps a result; the chunks are not kept."""
+    run.status = status
+    run.error = error
+    run.result = result
+    run.finished_at = timezone.now()
+    run.save(update_fields=["status", "error", "result", "finished_at"])
+    run.chunks.all().delete()
+
+
+def _changed(run: m.SimulationRun) -> bool:
+    """Whether the study has moved on from the version the run was made for."""
+    version = m.Study.objects.filter(pk=run.study_id).values_list("updated_at", flat=True).first()
+    return version != run.study_version
+
+
+# Each step below decides inside its transaction and raises after it, so that what the
+# step wrote (a cancellation seen, a status) is committed, not rolled back by the raise.
+
+
+def simulation_start(*, run_id: int) -> m.SimulationRun:
+    """A task takes run ``run_id``: a queued run becomes *running*.
+
+    Raises
+    ------
+    SimulationRunOver
+        When the run has ended or its cancellation was asked for (it is cancelled now).
+    SimulationStudyChanged
+        When the study moved on from the run's version.
+    """
+    with transaction.atomic():
+        run = _run_locked(run_id)
+        changed = run is not None and _changed(run)
+        if run is not None and not changed and run.status == m.SimulationStatus.QUEUED:
+            run.status = m.SimulationStatus.RUNNING
+            run.save(update_fields=["status"])
+    if run is None:
+        raise SimulationRunOver
+    if changed:
+        raise SimulationStudyChanged
+    return run
+
+
+def simulation_chunk_store(*, run_id: int, chunk: int, data: dict[str, Any]) -> bool:
+    """Store chunk ``chunk`` of run ``run_id`` (its JSON form ``data``) and count it;
+    return whether it was the one that completed the run. A chunk stored twice (a
+    retried task) counts once.
+
+    Raises :class:`SimulationRunOver` and :class:`SimulationStudyChanged` as
+    :func:`simulation_start` does; the chunk is not stored then.
+    """
+    completed = changed = False
+    with transaction.atomic():
+        run = _run_locked(run_id)
+        changed = run is not None and _changed(run)
+        if run is not None and not changed:
+            before = run.chunks_done
+            # update_or_create: a chunk that runs twice (a retried task) counts once.
+            m.SimulationChunk.objects.update_or_create(
+                run=run, index=chunk, defaults={"result": data}
+            )
+            run.chunks_done = run.chunks.count()
+            run.save(update_fields=["chunks_done"])
+            completed = before < run.chunks_total == run.chunks_done
+    if run is None:
+        raise SimulationRunOver
+    if changed:
+        raise SimulationStudyChanged
+    return completed
+
+
+def simulation_result(
+    study: Study, run: m.SimulationRun, chunks: list[SimulationChunk]
+) -> dict[str, Any]:
+    """What a done run stores: the combined simulation, its summary, and the full
+    timelines of its typical and its worst day."""
+    simulation = combine(study, run.plan_key, seed=run.seed, days=run.days, chunks=chunks)
+    tables = sim_plan(study, run.plan_key)  # shared by the two days drawn again
+    days = {"typical": simulation.typical_day, "worst": simulation.worst_day}
+    return {
+        "simulation": simulation.to_json(),
+        "summary": simulation.summary(),
+        **{
+            name: day_timeline(
+                study, run.plan_key, seed=run.seed, day=day, days=run.days, plan=tables
+            ).to_json()
+            for name, day in days.items()
+        },
+    }
+
+
+def simulation_finish(*, run_id: int, study: Study) -> None:
+    """Combine the stored chunks of run ``run_id`` (simulated from ``study``, the core
+    study) into its result (:func:`simulation_result`): the run is *done*.
+
+    Raises :class:`SimulationRunOver` and :class:`SimulationStudyChanged` as
+    :func:`simulation_start` does, checked again after the combining; the result is not
+    stored then.
+    """
+    with transaction.atomic():
+        run = _run_locked(run_id)
+        rows = [] if run is None else list(run.chunks.values_list("result", flat=True))
+    if run is None:
+        raise SimulationRunOver
+    # Combining runs outside the lock, so that a cancel or a progress read need not wait.
+    result = simulation_result(study, run, [SimulationChunk.from_json(row) for row in rows])
+    with transaction.atomic():
+        run = _run_locked(run_id)
+        changed = run is not None and _changed(run)
+        if run is not None and not changed:
+            _end(run, m.SimulationStatus.DONE, result=result)
+    if run is None:
+        raise SimulationRunOver
+    if changed:
+        raise SimulationStudyChanged
+
+
+def simulation_fail(*, run_id: int, message: str) -> None:
+    """Run ``run_id`` fails with ``message`` (a run that has ended is left as it is)."""
+    with transaction.atomic():
+        run = _run_locked(run_id)
+        if run is not None:
+            _end(run, m.SimulationStatus.FAILED, error=message)
+
+
+def simulation_chunk_run(*, run_id: int, chunk: int) -> str:
+    """Simulate chunk ``chunk`` of run ``run_id`` (days ``chunk * CHUNK_DAYS`` onwards)
+    and, if it is the last to arrive, combine the run: the background task's work.
+
+    Returns what became of it: ``"stored"``, ``"done"`` (it combined the run),
+    ``"dropped"`` (the run had finished or was cancelled) or ``"failed"`` (the study
+    changed). Any other error fails the run, saying what was being done, and is raised
+    again.
+    """
+    doing = f"simulating days {chunk * CHUNK_DAYS:,} onwards"
+    try:
+        run = simulation_start(run_id=run_id)
+        if not 0 <= chunk < run.chunks_total:
+            raise ValueError(f"the run has chunks 0 to {run.chunks_total - 1}, not {chunk}")
+        last = min((chunk + 1) * CHUNK_DAYS, run.days) - 1
+        doing = f"simulating days {chunk * CHUNK_DAYS:,} to {last:,}"
+        result = selectors.study_load(run.study)
+        if result.study is None or not result.ok:
+            # It had no errors when the run was asked for, so it has changed since.
+            raise SimulationStudyChanged
+        part = simulate_chunk(
+            result.study, run.plan_key, seed=run.seed, chunk=chunk, days=run.days
+        )
+        if simulation_chunk_store(run_id=run_id, chunk=chunk, data=part.to_json()):
+            doing = "combining the chunks"
+            simulation_finish(run_id=run_id, study=result.study)
+            return "done"
+        return "stored"
+    except SimulationRunOver:
+        return "dropped"
+    except SimulationStudyChanged:
+        simulation_fail(run_id=run_id, message=STUDY_CHANGED)
+        return "failed"
+    except Exception as error:
+        simulation_fail(run_id=run_id, message=f"{doing} failed: {error}")
+        raise

@@ -27,7 +27,7 @@ from allocation.core.spreadsheets.reading import (
 )
 
 from . import rows
-from .editing import _locked, _next_position, _touch
+from .edits import next_position, study_locked, study_touch
 
 __all__ = [
     "SpreadsheetPreview",
@@ -82,14 +82,14 @@ def spreadsheet_apply(
         is stored then.
     """
     with audit.acting(user, m.AuditSource.IMPORT), transaction.atomic():
-        study = _locked(study)
+        study = study_locked(study)
         preview = _preview(study, plan_key, upload)
         if not preview.ok:
             raise SpreadsheetInvalid(preview.problems)
         changes = preview.changes
-        if changes is None or changes.empty:
-            return preview
         document = preview.proposal.document
+        if changes is None or changes.empty or document is None:
+            return preview
         tasks = _write_tasks(study, document, changes)
         if changes.links:
             _write_links(study, document, tasks)
@@ -105,7 +105,7 @@ def spreadsheet_apply(
             before=before,
             after={**after, "file": source},
         )
-        _touch(study)
+        study_touch(study)
     return preview
 
 
@@ -118,7 +118,7 @@ def _write_tasks(study: m.Study, document: dict[str, Any], changes: Changes) -> 
     if not changed:
         return tasks
     items = [item for item in document["tasks"] if item["id"] in changed]
-    position = _next_position(study.tasks)
+    position = next_position(study.tasks)
     for item in items:
         row = tasks.get(item["id"])
         if row is None:

@@ -30,9 +30,9 @@ from django.test import Client
 from django.urls import reverse
 from django.utils.http import urlencode
 
-from allocation import audit, selectors, services, tasks
+from allocation import audit, selectors, services
 from allocation import models as m
-from allocation.core.simulation import CHUNK_DAYS, simulate
+from allocation.core.simulation import CHUNK_DAYS, simulate, simulate_chunk
 from allocation.core.synthetic import synthetic_study
 from allocation.web import faults
 from tests.web.test_simulation_runs import (
@@ -394,12 +394,13 @@ def test_a_run_that_died_while_combining_restarts_and_combines(
     """Every chunk stored, the combining never happened: one chunk is simulated again,
     so that one task exists to combine the run."""
     run = request(study, owner)
-    tasks._start(run.pk)  # a worker took it
+    services.simulation_start(run_id=run.pk)  # a worker took it
     for index in range(run.chunks_total):
-        part = tasks.simulate_chunk(
+        part = simulate_chunk(
             selectors.study_load(study).study, "auto", seed=SEED, chunk=index, days=DAYS
         )
-        tasks._store(run.pk, index, part.to_json())  # stored, never combined
+        # Stored, never combined.
+        services.simulation_chunk_store(run_id=run.pk, chunk=index, data=part.to_json())
     run.refresh_from_db()
     assert (run.status, run.chunks_done) == (m.SimulationStatus.RUNNING, 3)
     new = services.simulation_restart(run=run, user=owner)

@@ -35,6 +35,7 @@ from allocation import models as m
 from allocation import selectors, services, tasks
 from allocation.core import load_study
 from allocation.core.simulation import CHUNK_DAYS, simulate
+from allocation.services import simulation as simulation_service
 from tests.web.conftest import make_user
 
 REPO = Path(__file__).resolve().parents[2]
@@ -120,13 +121,13 @@ def test_a_chunk_run_twice_counts_once_and_the_run_is_combined_once(
     study, owner, queued, monkeypatch
 ):
     combined = []
-    real = tasks.simulation_result
+    real = simulation_service.simulation_result
 
     def counting(*args, **kwargs):
         combined.append(1)
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(tasks, "simulation_result", counting)
+    monkeypatch.setattr(simulation_service, "simulation_result", counting)
     run = request(study, owner)
     # A retried task (the same chunk twice), then the rest, then a late duplicate.
     assert run_chunks(run, [0, 0, 1, 2, 2, 1]) == [
@@ -225,14 +226,14 @@ def test_a_chunk_in_hand_when_cancel_is_asked_for_is_dropped(study, owner, queue
 
 
 def test_cancel_during_the_combining_keeps_no_result(study, owner, queued, monkeypatch):
-    real = tasks.simulation_result
+    real = simulation_service.simulation_result
 
     def cancelled_meanwhile(study_, run_, chunks):
         result = real(study_, run_, chunks)
         services.simulation_cancel(run=run_)
         return result
 
-    monkeypatch.setattr(tasks, "simulation_result", cancelled_meanwhile)
+    monkeypatch.setattr(simulation_service, "simulation_result", cancelled_meanwhile)
     run = request(study, owner)
     assert run_chunks(run, [0, 1, 2]) == ["stored", "stored", "dropped"]
     run.refresh_from_db()
@@ -249,7 +250,7 @@ def test_study_changed_while_running_fails_the_run_with_a_clear_message(study, o
     assert run_chunks(run, [1, 2]) == ["failed", "dropped"]
     run.refresh_from_db()
     assert run.status == m.SimulationStatus.FAILED
-    assert run.error == tasks.STUDY_CHANGED == "the study changed; run it again"
+    assert run.error == simulation_service.STUDY_CHANGED == "the study changed; run it again"
     assert run.result is None and not run.chunks.exists()
 
 
@@ -258,23 +259,23 @@ def test_study_changed_before_any_chunk_ran(study, owner, queued):
     bump_version(study, owner)
     assert run_chunks(run, [0]) == ["failed"]
     run.refresh_from_db()
-    assert (run.status, run.error) == (m.SimulationStatus.FAILED, tasks.STUDY_CHANGED)
+    assert (run.status, run.error) == (m.SimulationStatus.FAILED, simulation_service.STUDY_CHANGED)
 
 
 def test_study_changed_while_combining(study, owner, queued, monkeypatch):
-    real = tasks.simulation_result
+    real = simulation_service.simulation_result
 
     def edited_meanwhile(study_, run_, chunks):
         bump_version(run_.study, owner)
         return real(study_, run_, chunks)
 
-    monkeypatch.setattr(tasks, "simulation_result", edited_meanwhile)
+    monkeypatch.setattr(simulation_service, "simulation_result", edited_meanwhile)
     run = request(study, owner)
     assert run_chunks(run, [0, 1, 2]) == ["stored", "stored", "failed"]
     run.refresh_from_db()
     assert (run.status, run.error, run.result) == (
         m.SimulationStatus.FAILED,
-        tasks.STUDY_CHANGED,
+        simulation_service.STUDY_CHANGED,
         None,
     )
 
@@ -285,7 +286,7 @@ def test_an_error_in_the_simulation_fails_the_run_and_reaches_the_backend(
     def broken(*args, **kwargs):
         raise RuntimeError("no memory left")
 
-    monkeypatch.setattr(tasks, "simulate_chunk", broken)
+    monkeypatch.setattr(simulation_service, "simulate_chunk", broken)
     run = request(study, owner)
     with pytest.raises(RuntimeError):
         run_chunks(run, [1])
@@ -299,7 +300,7 @@ def test_an_error_while_combining_says_so(study, owner, queued, monkeypatch):
     def broken(*args, **kwargs):
         raise ValueError("chunks disagree")
 
-    monkeypatch.setattr(tasks, "combine", broken)
+    monkeypatch.setattr(simulation_service, "combine", broken)
     run = request(study, owner)
     with pytest.raises(ValueError):
         run_chunks(run, [0, 1, 2])
@@ -439,7 +440,8 @@ def test_workers_storing_the_last_chunks_at_once_combine_the_run_once(
     owner = make_user("olive")
     study = services.study_import(data=heating_document, owner=owner)
     together = threading.Barrier(3)
-    real_chunk, real_result = tasks.simulate_chunk, tasks.simulation_result
+    real_chunk = simulation_service.simulate_chunk
+    real_result = simulation_service.simulation_result
     combined = []
 
     def chunk_then_wait(*args, **kwargs):
@@ -451,8 +453,8 @@ def test_workers_storing_the_last_chunks_at_once_combine_the_run_once(
         combined.append(1)
         return real_result(*args, **kwargs)
 
-    monkeypatch.setattr(tasks, "simulate_chunk", chunk_then_wait)
-    monkeypatch.setattr(tasks, "simulation_result", counting)
+    monkeypatch.setattr(simulation_service, "simulate_chunk", chunk_then_wait)
+    monkeypatch.setattr(simulation_service, "simulation_result", counting)
     run = request(study, owner)
 
     def worker(index: int) -> str:
