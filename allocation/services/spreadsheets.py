@@ -12,7 +12,7 @@ import hashlib
 from dataclasses import dataclass
 from typing import Any
 
-from django.contrib.auth.models import AbstractBaseUser
+from django.contrib.auth.models import User
 from django.db import transaction
 
 from allocation import audit, selectors
@@ -68,7 +68,7 @@ def spreadsheet_preview(*, study: m.Study, plan_key: str, upload: Upload) -> Spr
 
 
 def spreadsheet_apply(
-    *, study: m.Study, plan_key: str, upload: Upload, user: AbstractBaseUser | None
+    *, study: m.Study, plan_key: str, upload: Upload, user: User | None
 ) -> SpreadsheetPreview:
     """Apply ``upload`` to the study's tasks, links and plan ``plan_key``, as ``user``.
 
