@@ -52,6 +52,9 @@ INSTALLED_APPS = [
     "django.contrib.messages",
     "django.contrib.staticfiles",
     "django_htmx",
+    # Template partials (Django 6 has them built in as {% partialdef %}): the simple app
+    # config, so the loaders below stay as written.
+    "template_partials.apps.SimpleAppConfig",
     "django_tasks",
     "django_tasks_db",
     "axes",
@@ -69,6 +72,8 @@ MIDDLEWARE = [
     "django.contrib.messages.middleware.MessageMiddleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "django_htmx.middleware.HtmxMiddleware",
+    # Inside the message middleware, which stores what is left after the response.
+    "allocation.web.messages.HtmxMessagesMiddleware",
     "allocation.web.middleware.AuditActorMiddleware",
     "allocation.web.faults.DatabaseUnavailableMiddleware",  # issue 8, faults: the 503 page
     # Last, as django-axes asks: turns a locked-out sign-in into Baton's sign-in page.
@@ -87,8 +92,25 @@ TEMPLATES = [
     {
         "BACKEND": "django.template.backends.django.DjangoTemplates",
         "DIRS": [BASE_DIR / "templates"],
-        "APP_DIRS": True,
         "OPTIONS": {
+            # "page.html#name" loads the partial `name` of a page; the cached loader keeps
+            # parsed templates (and their partials) as Django's default loaders would.
+            "loaders": [
+                (
+                    "template_partials.loader.Loader",
+                    [
+                        (
+                            "django.template.loaders.cached.Loader",
+                            [
+                                "django.template.loaders.filesystem.Loader",
+                                "django.template.loaders.app_directories.Loader",
+                            ],
+                        )
+                    ],
+                )
+            ],
+            # {% partialdef %} and {% partial %} in every template without a {% load %}.
+            "builtins": ["template_partials.templatetags.partials"],
             "context_processors": [
                 "django.template.context_processors.request",
                 "django.contrib.auth.context_processors.auth",

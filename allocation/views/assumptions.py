@@ -80,10 +80,12 @@ def study_assumptions(request: HttpRequest, pk: int) -> HttpResponse:
         # A viewer asking for a form gets the row as shown: no edit controls for them.
         key = request.GET.get("edit") or request.GET.get("row", "")
         if key == POLICY:
-            return render(request, "assumptions/_policy.html", _policy(page, editing=bool(edit)))
+            return render(
+                request, "assumptions/page.html#policy", _policy(page, editing=bool(edit))
+            )
         if key in ASSUMPTION_KEYS:
             context = {"row": _row(page, key, editing=bool(edit)), **_base(page)}
-            return render(request, "assumptions/_row.html", context)
+            return render(request, "assumptions/page.html#row", context)
     return _page(request, page, edit=edit)
 
 
@@ -262,15 +264,11 @@ def _saved(
     """After a change: the row (or policy) as shown, the headline box out of band, and the
     ``assumptions-changed`` event; without htmx, back to the page with a message."""
     anchor = "risk-policy" if part == POLICY else f"assumption-{part}"
+    messages.success(request, message)
     if not request.htmx:
-        messages.success(request, message)
         return redirect(reverse("study-assumptions", args=[pk]) + f"#{anchor}")
     page = study_page(request, pk, role=m.Role.EDITOR)
-    context = {
-        **_base(page),
-        "headlines": _headlines(page, before),
-        "saved_message": message,
-    }
+    context = {**_base(page), "headlines": _headlines(page, before)}
     if part == POLICY:
         context.update(_policy(page))
         template = "assumptions/_policy_saved.html"
@@ -292,6 +290,13 @@ def _refused(
     conflict: dict[str, Any] | None = None,
 ) -> HttpResponse:
     """The form again with the problems (or the conflict) beside it; nothing was stored."""
+    if problems:
+        where = (
+            "The risk policy has problems, listed beside its fields."
+            if part == POLICY
+            else f"The value of {part} has problems, listed beside it."
+        )
+        messages.error(request, f"Nothing was saved. {where}")
     if conflict is not None:
         context = {
             "row": _row(page, part, editing=True, text=text, conflict=conflict),
@@ -299,17 +304,17 @@ def _refused(
         }
         page_context = page.context("study-assumptions", **context)
         if request.htmx:
-            return render(request, "assumptions/_row.html", page_context)
+            return render(request, "assumptions/page.html#row", page_context)
         return render(request, "assumptions/conflict_page.html", page_context, status=409)
     if request.htmx:
         if part == POLICY:
             context = _policy(page, editing=True, form=policy_form, problems=problems)
-            return render(request, "assumptions/_policy.html", context)
+            return render(request, "assumptions/page.html#policy", context)
         context = {
             "row": _row(page, part, editing=True, text=text, problems=problems),
             **_base(page),
         }
-        return render(request, "assumptions/_row.html", context)
+        return render(request, "assumptions/page.html#row", context)
     return _page(
         request,
         page,

@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 from typing import Any
 from urllib.parse import urlencode
 
+from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.http import HttpRequest, HttpResponse, QueryDict
 from django.shortcuts import redirect, render
@@ -65,7 +66,6 @@ class WeightForm:
 
     values: dict[str, str]
     errors: dict[str, str] = field(default_factory=dict)
-    saved: bool = False
 
     @property
     def fields(self) -> list[dict[str, str]]:
@@ -305,7 +305,7 @@ def study_compare(request: HttpRequest, pk: int) -> HttpResponse:
     context = page.context("study-compare", **_compare_context(page, request.GET))
     # A boosted request or a history restore wants the whole page, like a plain visit.
     if request.htmx and not (request.htmx.boosted or request.htmx.history_restore_request):
-        return render(request, "compare/_results.html", context)
+        return render(request, "compare/compare.html#region", context)
     return render(request, "compare/compare.html", context)
 
 
@@ -372,13 +372,12 @@ def study_compare_weights(request: HttpRequest, pk: int) -> HttpResponse:
     if form.errors:
         context = page.context("study-compare", **_compare_context(page, QueryDict(query), form))
         if request.htmx:
-            return render(request, "compare/_objective.html", context)
+            return render(request, "compare/compare.html#objective", context)
         return render(request, "compare/compare.html", context, status=400)
+    messages.success(request, "Weights saved; the plans are ranked again.")
     if not request.htmx:
         url = reverse("study-compare", args=[pk])
         return redirect(f"{url}?{query}#compare-objective" if query else url)
     page = study_page(request, pk, m.Role.EDITOR)
     context = page.context("study-compare", **_compare_context(page, QueryDict(query)))
-    if context["comparison"] is not None:
-        context["form"].saved = True
-    return render(request, "compare/_objective.html", context)
+    return render(request, "compare/compare.html#objective", context)

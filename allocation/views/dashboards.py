@@ -65,8 +65,8 @@ def plan_dashboard(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         context.update(_dashboard(page, analysis, show_all))
     if request.htmx and not request.htmx.boosted:
         if request.htmx.target == "dashboard-handovers" and "handovers" in context:
-            return render(request, "dashboards/_handovers.html", context)
-        return render(request, "dashboards/_region.html", context)
+            return render(request, "dashboards/plan.html#handovers", context)
+        return render(request, "dashboards/plan.html#region", context)
     return render(request, "dashboards/plan.html", context)
 
 

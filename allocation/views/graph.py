@@ -125,7 +125,7 @@ def study_graph(request: HttpRequest, pk: int) -> HttpResponse:
     context = page.context("study-graph")
     if page.result.ok:
         context.update(_graph_region(request, page))
-    template = "graph/_region.html" if _fragment(request) else "graph/graph.html"
+    template = "graph/graph.html#region" if _fragment(request) else "graph/graph.html"
     return render(request, template, context)
 
 
@@ -216,7 +216,7 @@ def graph_task(request: HttpRequest, pk: int, task: str) -> HttpResponse:
     analysis = page.analysis(plan) if plan else None
     context = page.context("study-graph", details=task_details(page, analysis, task))
     if _fragment(request):
-        return render(request, "graph/_task.html", context)
+        return render(request, "graph/task.html#task", context)
     return render(request, "graph/task.html", context)
 
 

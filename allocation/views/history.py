@@ -143,7 +143,7 @@ def study_history(request: HttpRequest, pk: int) -> HttpResponse:
         nobody=trail.NOBODY,
     )
     if request.htmx and not request.htmx.boosted:
-        return render(request, "history/_entries.html", context)
+        return render(request, "history/page.html#region", context)
     return render(request, "history/page.html", context)
 
 

@@ -172,7 +172,7 @@ def study_inventory(request: HttpRequest, pk: int) -> HttpResponse:
 def _section_response(request: HttpRequest, page: StudyPage, kind: Kind) -> HttpResponse:
     page = study_page(request, page.row.pk, role=m.Role.EDITOR)
     context = page.context("study-inventory", kind=kind.name, **_sections(page))
-    response = render(request, f"inventory/section_{kind.name}.html", context)
+    response = render(request, f"inventory/page.html#section-{kind.name}", context)
     return retarget(response, f"#section-{kind.name}")
 
 
@@ -240,7 +240,7 @@ def _form_response(
         hidden=[] if version is None else [("version", version)],
         conflict=conflict,
     )
-    template = "inventory/_form.html" if request.htmx else "inventory/form_page.html"
+    template = "inventory/form_page.html#form" if request.htmx else "inventory/form_page.html"
     return render(request, template, context, status=status)
 
 
@@ -265,7 +265,9 @@ def item_delete(request: HttpRequest, pk: int, kind: str, key: str) -> HttpRespo
             consequences=consequences,
             action=reverse("inventory-delete", args=[pk, kind, key]),
         )
-        template = "inventory/_delete.html" if request.htmx else "inventory/delete_page.html"
+        template = (
+            "inventory/delete_page.html#form" if request.htmx else "inventory/delete_page.html"
+        )
         return render(request, template, context)
     try:
         spec.delete(study=page.row, **arguments)

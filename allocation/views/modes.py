@@ -234,7 +234,7 @@ def plan_modes(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     page, chosen = _plan_page(request, pk, plan)
     context = page.context("plan-modes", **_region_context(page, chosen))
     if request.htmx and request.htmx.target == "modes-region":
-        return render(request, "modes/_region.html", context)
+        return render(request, "modes/page.html#region", context)
     return render(request, "modes/page.html", context)
 
 
@@ -244,7 +244,7 @@ def _region_response(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         return redirect("plan-modes", pk, plan)
     page, chosen = _plan_page(request, pk, plan)
     context = page.context("plan-modes", **_region_context(page, chosen))
-    response = render(request, "modes/_region.html", context)
+    response = render(request, "modes/page.html#region", context)
     return reswap(retarget(response, "#modes-region"), "outerHTML")
 
 
@@ -293,7 +293,7 @@ def _form_response(
         hidden=sorted((hidden or {}).items()),
         conflict=conflict,
     )
-    template = "inventory/_form.html" if request.htmx else "modes/form_page.html"
+    template = "inventory/form_page.html#form" if request.htmx else "modes/form_page.html"
     status = 400 if problems and not request.htmx else 200
     if conflict is not None and not request.htmx:
         status = 409
@@ -573,7 +573,7 @@ def _override_response(
         conflict=conflict,
         version=version,
     )
-    template = "modes/_override_form.html" if request.htmx else "modes/override_page.html"
+    template = "modes/override_page.html#form" if request.htmx else "modes/override_page.html"
     status = 400 if problems and not request.htmx else 200
     if conflict is not None and not request.htmx:
         status = 409
@@ -770,5 +770,5 @@ def mode_finding(request: HttpRequest, pk: int, plan: str, finding: int) -> Http
         back_url=reverse("plan-modes", args=[pk, plan]),
     )
     if request.htmx and request.htmx.target == "walkthrough":
-        return render(request, "modes/_walkthrough.html", context)
+        return render(request, "modes/finding.html#walkthrough", context)
     return render(request, "modes/finding.html", context)

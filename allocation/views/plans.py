@@ -212,17 +212,17 @@ def plan_row_save(request: HttpRequest, pk: int, plan: str, task: str) -> HttpRe
             problems = error.errors
     else:
         problems = [Problem(f"{field}", " ".join(errors)) for field, errors in form.errors.items()]
+    if conflict is not None:
+        messages.error(
+            request,
+            f"{task} was not saved: {conflict['message']}; the row shows their values now.",
+        )
+    elif problems:
+        messages.error(
+            request,
+            f"{task} was not saved: " + "; ".join(str(problem) for problem in problems),
+        )
     if not request.htmx:
-        if conflict is not None:
-            messages.error(
-                request,
-                f"{task} was not saved: {conflict['message']}; the row shows their values now.",
-            )
-        elif problems:
-            messages.error(
-                request,
-                f"{task} was not saved: " + "; ".join(str(problem) for problem in problems),
-            )
         return redirect(reverse("plan-editor", args=[pk, plan]) + f"#row-{task}")
     page = study_page(request, pk)
     analysis = _analysis(page, plan)

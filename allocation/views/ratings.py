@@ -151,7 +151,7 @@ def _respond(
 ) -> HttpResponse:
     full = page.context("plan-ratings", **context)
     if request.htmx and not request.htmx.boosted:
-        return render(request, "ratings/_region.html", full, status=status)
+        return render(request, "ratings/page.html#region", full, status=status)
     return render(request, "ratings/page.html", full, status=status)
 
 
@@ -170,7 +170,6 @@ def plan_rating_record(request: HttpRequest, pk: int, plan: str) -> HttpResponse
     page = study_page(request, pk, role=m.Role.REVIEWER)
     page.plan_or_404(plan)
     form = RatingForm(request.POST, study=page.study)
-    notice = None
     if form.is_valid():
         try:
             rating = services.rating_record(
@@ -182,16 +181,17 @@ def plan_rating_record(request: HttpRequest, pk: int, plan: str) -> HttpResponse
                     form.add_error(field if field in form.fields else None, text)
         else:
             kind = "weighted" if rating.weights else "raw"
-            notice = (
+            messages.success(
+                request,
                 f"Recorded {rating.participant}'s ratings of {rating.task_key}: "
-                f"{kind} TLX {rating.score:.1f}."
+                f"{kind} TLX {rating.score:.1f}.",
             )
             if not request.htmx:
-                messages.success(request, notice)
                 return redirect(_page_url(pk, plan) + f"#ratings-{rating.task_key}")
             form = None
+    if form is not None:
+        messages.error(request, "Nothing was recorded: see the messages beside the fields.")
     context = _context(page, plan, request, form)
-    context["notice"] = notice
     status = 200 if form is None or request.htmx else 400
     return _respond(request, page, context, status=status)
 
@@ -207,10 +207,7 @@ def plan_rating_delete(request: HttpRequest, pk: int, plan: str) -> HttpResponse
         deleted = services.rating_delete(study=page.row, user=request.user, rating_id=rating_id)
     except (ValueError, m.WorkloadRating.DoesNotExist) as missing:
         raise Http404("No such rating.") from missing
-    notice = f"Deleted {deleted['participant']}'s ratings of {deleted['task']}."
+    messages.success(request, f"Deleted {deleted['participant']}'s ratings of {deleted['task']}.")
     if not request.htmx:
-        messages.success(request, notice)
         return redirect(_page_url(pk, plan))
-    context = _context(page, plan, request)
-    context["notice"] = notice
-    return _respond(request, page, context)
+    return _respond(request, page, _context(page, plan, request))

@@ -84,7 +84,7 @@ def plan_review(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         targets=_targets(page),
     )
     if request.htmx and not request.htmx.boosted:
-        return render(request, "reviews/_region.html", context)
+        return render(request, "reviews/plan.html#region", context)
     return render(request, "reviews/plan.html", context)
 
 
@@ -114,7 +114,7 @@ def plan_workshop(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     items = _items(page, plan, show_all)
     context = _workshop_context(page, plan, items, _number(request.GET.get("item")), show_all)
     if request.htmx and not request.htmx.boosted:
-        return render(request, "reviews/_workshop_item.html", context)
+        return render(request, "reviews/workshop.html#item", context)
     return render(request, "reviews/workshop.html", context)
 
 
@@ -175,11 +175,10 @@ def _answer(
     sent from, with what happened said."""
     view = request.POST.get("view", "review")
     show_all = request.POST.get("show") == "all"
-    if not request.htmx:
-        if error:
-            messages.error(request, error)
-        elif done:
-            messages.success(request, done)
+    if error:
+        messages.error(request, error)
+    elif done:
+        messages.success(request, done)
     page = study_page(request, pk)
     kind, plan_key, key = target
     if view == "workshop":
@@ -197,28 +196,23 @@ def _answer(
         )
         if not request.htmx:
             return redirect(_workshop_url(pk, plan, number, show_all))
-        context = _workshop_context(
-            page, plan, items, number, show_all, error=error, done=done, swapped=True
-        )
-        return render(request, "reviews/_workshop_item.html", context)
+        context = _workshop_context(page, plan, items, number, show_all, swapped=True)
+        return render(request, "reviews/workshop.html#item", context)
     all_items = _items(page, plan, show_all=True)
     item = next(
         (i for i in all_items if (i.kind, i.plan_key, i.key) == (kind, plan_key, key)), None
     )
     if item is None and request.htmx:
-        # Nothing to show again (the thing asked about does not exist): say so on the page.
-        if error:
-            messages.error(request, error)
+        # Nothing to show again (the thing asked about does not exist): the page says it.
         return HttpResponseClientRedirect(reverse("plan-review", args=[pk, plan]))
     if not request.htmx or item is None:
         anchor = f"#{item.anchor}" if item is not None else ""
         query = "?show=all" if show_all else ""
         return redirect(reverse("plan-review", args=[pk, plan]) + query + anchor)
     context = _review_context(
-        page, "plan-review", plan, item=item, view="review", show_all=show_all, error=error
+        page, "plan-review", plan, item=item, view="review", show_all=show_all
     )
-    context["done"] = done
-    return render(request, "reviews/_item.html", context)
+    return render(request, "reviews/plan.html#item", context)
 
 
 @require_POST

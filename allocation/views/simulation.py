@@ -189,7 +189,7 @@ def plan_simulation(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     chosen = page.plan_or_404(plan)
     context = page.context("plan-simulation", **_region_context(page, chosen, request))
     if request.htmx and request.htmx.target == "simulation-region":
-        return render(request, "simulation/_region.html", context)
+        return render(request, "simulation/page.html#region", context)
     return render(request, "simulation/page.html", context)
 
 
@@ -222,7 +222,7 @@ def plan_simulation_status(request: HttpRequest, pk: int, plan: str) -> HttpResp
     run = context["run"]
     if request.htmx and run is not None and run.finished:
         return HttpResponseClientRefresh()
-    return render(request, "simulation/_status.html", context)
+    return render(request, "simulation/page.html#status", context)
 
 
 @require_POST

@@ -59,7 +59,6 @@ def _list_context(
     title: str = "",
     title_error: str = "",
     restore_error: tuple[int, str] | None = None,
-    created: m.Snapshot | None = None,
 ) -> dict[str, Any]:
     now = reads.study_now(page.row)
     rows = _rows(page, verified)
@@ -72,7 +71,6 @@ def _list_context(
         title=title,
         title_error=title_error,
         restore_error=restore_error,
-        created=created,
         ok=page.result.ok,
         verify_all_url=reverse("snapshot-verify", args=[page.row.pk]),
     )
@@ -82,7 +80,7 @@ def _list(request: HttpRequest, page: StudyPage, status: int = 200, **extra: Any
     """The snapshot list: the whole page, or to htmx the region that holds it."""
     context = _list_context(page, **extra)
     if request.htmx and not (request.htmx.boosted or request.htmx.history_restore_request):
-        return render(request, "snapshots/_region.html", context)
+        return render(request, "snapshots/list.html#region", context)
     return render(request, "snapshots/list.html", context, status=status)
 
 
@@ -108,10 +106,10 @@ def snapshot_create(request: HttpRequest, pk: int) -> HttpResponse:
             for problem in error.errors
         )
         return _list(request, page, status=400, title=title, title_error=message)
+    messages.success(request, f"Frozen as {snapshot.sha256[:12]}: “{snapshot.title}”.")
     if not request.htmx:
-        messages.success(request, f"Frozen as {snapshot.sha256[:12]}: “{snapshot.title}”.")
         return redirect("study-snapshots", pk=pk)
-    return _list(request, study_page(request, pk), created=snapshot)
+    return _list(request, study_page(request, pk))
 
 
 @require_GET
@@ -128,7 +126,7 @@ def snapshot_verify(request: HttpRequest, pk: int) -> HttpResponse:
         verified = {snapshot.pk: services.snapshot_verify(snapshot)}
         if request.htmx and not request.htmx.boosted:
             row = {"snapshot": snapshot, "verified": verified[snapshot.pk]}
-            return render(request, "snapshots/_verified.html", page.context("", row=row))
+            return render(request, "snapshots/list.html#verified", page.context("", row=row))
     else:
         verified = {
             snapshot.pk: services.snapshot_verify(snapshot)
@@ -299,5 +297,5 @@ def snapshot_difference(request: HttpRequest, pk: int) -> HttpResponse:
     page = study_page(request, pk)
     context = page.context("study-snapshots", **_difference_context(page, request.GET))
     if request.htmx and not (request.htmx.boosted or request.htmx.history_restore_request):
-        return render(request, "snapshots/_difference.html", context)
+        return render(request, "snapshots/difference.html#region", context)
     return render(request, "snapshots/difference.html", context)

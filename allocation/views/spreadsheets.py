@@ -75,11 +75,8 @@ def _context(page: StudyPage, plan: str, pending, upload_problems=None) -> dict:
 
 
 def _render(request: HttpRequest, context: dict, status: int = 200) -> HttpResponse:
-    template = (
-        "spreadsheets/_region.html"
-        if request.htmx and not request.htmx.boosted
-        else "spreadsheets/page.html"
-    )
+    fragment = request.htmx and not request.htmx.boosted
+    template = "spreadsheets/page.html#region" if fragment else "spreadsheets/page.html"
     return render(request, template, context, status=status)
 
 

@@ -52,7 +52,7 @@ def study_upload(request: HttpRequest) -> HttpResponse:
             problems = error.problems
     if problems:
         context = {"problems": problems, "filename": getattr(upload, "name", "")}
-        template = "htmx/upload_form.html" if request.htmx else "studies/list.html"
+        template = "studies/list.html#upload" if request.htmx else "studies/list.html"
         if not request.htmx:
             context["studies"] = selectors.studies_for_user(user=request.user)
         # 413 (Content Too Large) when refused by its declared length, unread.

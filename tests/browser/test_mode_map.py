@@ -43,6 +43,12 @@ def test_draw_step_through_and_fix(signed_in, django_user_model):
     page.click("text=Add a mode")
     fill_form(page, {"id": "away", "name": "Away", "indication": "suitcase symbol"})
     expect(page.locator("#mode-states")).to_contain_text("Away")
+    # What the save said arrives out of band in the page's one messages slot, which stays
+    # the same live region (only its inside is swapped).
+    slot = page.locator("#messages")
+    expect(slot).to_have_text("Saved the mode.")
+    expect(slot).to_have_attribute("aria-live", "polite")
+    expect(page.locator("[id=messages]")).to_have_count(1)
     page.click("text=Add a transition")
     fill_form(
         page,
@@ -50,6 +56,7 @@ def test_draw_step_through_and_fix(signed_in, django_user_model):
         {"source": "schedule", "target": "away", "by": "automation", "cue": "alert"},
     )
     expect(page.locator("#mode-transitions")).to_contain_text("door locked for a day")
+    expect(page.locator("#messages li")).to_have_text(["Saved the transition."])
 
     # Step through the first "person and device disagree" finding to its last event.
     row = page.locator("table.findings tbody tr", has_text="Person and device disagree").first

@@ -251,8 +251,13 @@ def refusal(response) -> str | None:
     status of 400 or more, a warning or error message, or a form with errors."""
     if response.status_code >= 400:
         return f"status {response.status_code}"
-    # Only this request's messages: earlier ones wait in the cookie until shown.
-    queued = getattr(getattr(response.wsgi_request, "_messages", None), "_queued_messages", [])
+    # Only this request's messages: those still queued for the next page, and those an
+    # htmx response showed at once in its messages slot (post_and_check sends no earlier
+    # ones: they would be shown beside them).
+    storage = getattr(response.wsgi_request, "_messages", None)
+    queued = list(getattr(storage, "_queued_messages", []))
+    if getattr(storage, "used", False):
+        queued += getattr(storage, "_loaded_data", [])
     said = [str(message) for message in queued if message.level >= message_levels.WARNING]
     if said:
         return "; ".join(said)
@@ -268,6 +273,7 @@ def post_and_check(client, url: str, data: dict, study: m.Study, htmx: bool, **e
     errors_before = study_errors(study)
     before = database()
     headers = {"HX-Request": "true"} if htmx else {}
+    client.cookies.pop("messages", None)  # the flash messages of earlier posts
     response = client.post(url, data, headers=headers, **extra)
     assert response.status_code < 500
     after = database()
