@@ -60,7 +60,7 @@ INSTALLED_APPS = [
 
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
-    "allocation.web.security.ContentSecurityPolicyMiddleware",  # issue 8, security
+    "allocation.web.security.ContentSecurityPolicyMiddleware",
     "whitenoise.middleware.WhiteNoiseMiddleware",
     "django.contrib.sessions.middleware.SessionMiddleware",
     "django.middleware.common.CommonMiddleware",
@@ -70,7 +70,7 @@ MIDDLEWARE = [
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
     "django_htmx.middleware.HtmxMiddleware",
     "allocation.web.middleware.AuditActorMiddleware",
-    "allocation.web.faults.DatabaseUnavailableMiddleware",  # issue 8, faults: the 503 page
+    "allocation.web.faults.DatabaseUnavailableMiddleware",  # the 503 page
     # Last, as django-axes asks: turns a locked-out sign-in into Baton's sign-in page.
     "axes.middleware.AxesMiddleware",
 ]
@@ -95,6 +95,9 @@ TEMPLATES = [
                 "django.contrib.messages.context_processors.messages",
                 "allocation.web.context_processors.baton",
             ],
+            # Figures, finding kinds and statuses in the registry's words, and links to
+            # the methods document, on every page without a {% load %}.
+            "builtins": ["allocation.templatetags.baton"],
         },
     },
 ]
@@ -152,9 +155,9 @@ STORAGES = {
 BATON_MAX_UPLOAD_BYTES = 5 * 1024 * 1024
 DATA_UPLOAD_MAX_MEMORY_SIZE = BATON_MAX_UPLOAD_BYTES + 64 * 1024
 FILE_UPLOAD_MAX_MEMORY_SIZE = BATON_MAX_UPLOAD_BYTES + 64 * 1024
-# Issue 8, bad input: a request declaring more than this has its files skipped as they
-# arrive (never kept in memory or on disk); the upload views then refuse it with a
-# message (allocation/uploads.py).
+# A request declaring more than this has its files skipped as they arrive (never kept in
+# memory or on disk); the upload views then refuse it with a message
+# (allocation/web/uploads.py).
 BATON_MAX_REQUEST_BYTES = BATON_MAX_UPLOAD_BYTES + 64 * 1024
 FILE_UPLOAD_HANDLERS = [
     "allocation.web.uploads.SizeLimitedUploadHandler",

@@ -178,7 +178,7 @@ def simulation_cancel(
     return run
 
 
-# -- restarting a run whose worker died (issue 8, faults) ------------------------------
+# -- restarting a run whose worker died ------------------------------------------------
 
 
 def simulation_may_restart(*, run: m.SimulationRun, user: AbstractBaseUser) -> bool:
