@@ -106,6 +106,13 @@ def figure_heading(key: str) -> str:
 
 
 @register.simple_tag
+def figure_short(key: str) -> str:
+    """A figure's short label (else its label), for a narrow table whose caption gives
+    the unit."""
+    return registry.figure(key).heading
+
+
+@register.simple_tag
 def figure_unit(key: str) -> str:
     """A figure's unit (empty for a pure number)."""
     return registry.figure(key).unit
