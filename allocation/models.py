@@ -17,6 +17,7 @@ from django.db.models import F, Q
 from allocation.core import vocabulary
 from allocation.core.canonical import BATON_1
 from allocation.core.canonical import FORMS as CANONICAL_FORMS
+from allocation.core.registry import ASSIGNMENT_STATUS_WORDS, DECISION_STATUS_WORDS
 
 if TYPE_CHECKING:
     from django.contrib.auth.models import User
@@ -60,7 +61,7 @@ class Study(models.Model):
     )
     created_at = models.DateTimeField(auto_now_add=True)
     updated_at = models.DateTimeField(auto_now=True)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 
@@ -108,7 +109,7 @@ class Agent(models.Model):
     response_s = models.JSONField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 
@@ -141,7 +142,7 @@ class Event(models.Model):
     every_days = models.FloatField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 
@@ -186,7 +187,7 @@ class Task(models.Model):
     needs = models.JSONField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 
@@ -218,7 +219,7 @@ class Link(models.Model):
     probability = models.FloatField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 
@@ -248,7 +249,7 @@ class Plan(models.Model):
     # The mode map's initial mode; empty when the plan has no mode map.
     initial_mode = models.CharField(max_length=64, blank=True)
     position = models.PositiveIntegerField(default=0)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 
@@ -281,13 +282,17 @@ class AssignmentFields(models.Model):
         max_length=16, blank=True, choices=_choices(vocabulary.INITIATORS)
     )
     status = models.CharField(
-        max_length=16, blank=True, choices=_choices(vocabulary.ASSIGNMENT_STATUSES)
+        max_length=16,
+        blank=True,
+        choices=[
+            (key, ASSIGNMENT_STATUS_WORDS[key].label) for key in vocabulary.ASSIGNMENT_STATUSES
+        ],
     )
     rationale = models.TextField(blank=True)
     # False when the task is not done at all under the plan; then no agent is named.
     applies = models.BooleanField(default=True)
     position = models.PositiveIntegerField(default=0)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 
@@ -326,7 +331,7 @@ class ModeState(models.Model):
     lists_overrides = models.BooleanField(default=False)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 
@@ -361,7 +366,7 @@ class ModeTransition(models.Model):
     per_day = models.FloatField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 
@@ -495,7 +500,7 @@ class SimulationChunk(models.Model):
         return f"{self.run} chunk {self.index}"
 
 
-# -- reviews and submissions (issue 7) --------------------------------------------------
+# -- reviews and submissions -------------------------------------------------------------
 
 
 class Snapshot(models.Model):
@@ -644,10 +649,12 @@ class Comment(models.Model):
 
 
 class DecisionStatus(models.TextChoices):
-    OPEN = "open", "Open"
-    AGREED = "agreed", "Agreed"
-    REJECTED = "rejected", "Rejected"
-    DEFERRED = "deferred", "Deferred"
+    """A decision's status, in the registry's words."""
+
+    OPEN = "open", DECISION_STATUS_WORDS["open"].label
+    AGREED = "agreed", DECISION_STATUS_WORDS["agreed"].label
+    REJECTED = "rejected", DECISION_STATUS_WORDS["rejected"].label
+    DEFERRED = "deferred", DECISION_STATUS_WORDS["deferred"].label
 
 
 class Decision(models.Model):
@@ -668,7 +675,7 @@ class Decision(models.Model):
     decided_by_name = models.CharField(max_length=150)
     created_at = models.DateTimeField(auto_now_add=True)
     updated_at = models.DateTimeField(auto_now=True)
-    # Optimistic versioning (issue 8): every service write adds one; a save names the
+    # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.
     version = models.PositiveIntegerField(default=1)
 

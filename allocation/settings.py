@@ -63,7 +63,7 @@ INSTALLED_APPS = [
 
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
-    "allocation.web.security.ContentSecurityPolicyMiddleware",  # issue 8, security
+    "allocation.web.security.ContentSecurityPolicyMiddleware",
     "whitenoise.middleware.WhiteNoiseMiddleware",
     "django.contrib.sessions.middleware.SessionMiddleware",
     "django.middleware.common.CommonMiddleware",
@@ -75,7 +75,7 @@ MIDDLEWARE = [
     # Inside the message middleware, which stores what is left after the response.
     "allocation.web.messages.HtmxMessagesMiddleware",
     "allocation.web.middleware.AuditActorMiddleware",
-    "allocation.web.faults.DatabaseUnavailableMiddleware",  # issue 8, faults: the 503 page
+    "allocation.web.faults.DatabaseUnavailableMiddleware",  # the 503 page
     # Last, as django-axes asks: turns a locked-out sign-in into Baton's sign-in page.
     "axes.middleware.AxesMiddleware",
 ]
@@ -109,8 +109,13 @@ TEMPLATES = [
                     ],
                 )
             ],
-            # {% partialdef %} and {% partial %} in every template without a {% load %}.
-            "builtins": ["template_partials.templatetags.partials"],
+            # On every template without a {% load %}: {% partialdef %} and {% partial %};
+            # figures, finding kinds and statuses in the registry's words, and links to
+            # the methods document.
+            "builtins": [
+                "template_partials.templatetags.partials",
+                "allocation.templatetags.baton",
+            ],
             "context_processors": [
                 "django.template.context_processors.request",
                 "django.contrib.auth.context_processors.auth",
@@ -174,9 +179,9 @@ STORAGES = {
 BATON_MAX_UPLOAD_BYTES = 5 * 1024 * 1024
 DATA_UPLOAD_MAX_MEMORY_SIZE = BATON_MAX_UPLOAD_BYTES + 64 * 1024
 FILE_UPLOAD_MAX_MEMORY_SIZE = BATON_MAX_UPLOAD_BYTES + 64 * 1024
-# Issue 8, bad input: a request declaring more than this has its files skipped as they
-# arrive (never kept in memory or on disk); the upload views then refuse it with a
-# message (allocation/uploads.py).
+# A request declaring more than this has its files skipped as they arrive (never kept in
+# memory or on disk); the upload views then refuse it with a message
+# (allocation/web/uploads.py).
 BATON_MAX_REQUEST_BYTES = BATON_MAX_UPLOAD_BYTES + 64 * 1024
 FILE_UPLOAD_HANDLERS = [
     "allocation.web.uploads.SizeLimitedUploadHandler",

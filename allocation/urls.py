@@ -15,6 +15,7 @@ from allocation.views import (
     graph,
     history,
     inventory,
+    methods,
     modes,
     plans,
     ratings,
@@ -28,6 +29,7 @@ from allocation.web.security import SignInForm
 
 urlpatterns = [
     path("", studies.study_list, name="study-list"),
+    path("methods/", methods.methods_page, name="methods"),
     path("studies/upload", studies.study_upload, name="study-upload"),
     path("studies/<int:pk>/", studies.study_detail, name="study-detail"),
     path("studies/<int:pk>/download", studies.study_download, name="study-download"),
@@ -263,5 +265,5 @@ urlpatterns = [
     path("admin/", admin.site.urls),
 ]
 
-# A database that went away gets its own page (issue 8, faults); anything else the 500 page.
+# A database that went away gets its own page (the 503 page); anything else the 500 page.
 handler500 = "allocation.web.errors.server_error"

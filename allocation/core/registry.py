@@ -21,6 +21,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
+from decimal import Decimal
 from typing import Any
 
 from .assumptions import MEMORY, PRACTICE, PUBLISHED, TOOL
@@ -326,13 +327,15 @@ def _number(value: float | None) -> float | None:
 def figure_number(key: str | Figure, value: float | None, *, signed: bool = False) -> str:
     """A figure's value as a plain number at the registry's precision, without its unit.
 
-    Thousands are grouped and negative values take the minus sign. With ``signed`` (a
-    difference) a positive value takes ``+`` and zero reads ``±0``; a difference too
-    small for the precision keeps two significant digits, so that a change never reads
-    as none. ``None`` (and NaN) read ``—``.
+    Thousands are grouped and negative values take the minus sign. A value other than 0
+    too small for the precision keeps two significant digits, so that a rare occurrence
+    never reads as none. With ``signed`` (a difference) a positive value takes ``+`` and
+    zero reads ``±0``. ``None`` (and NaN) read ``—``.
 
     >>> figure_number("cut_ratio", 0.25)
     '0.250'
+    >>> figure_number("occurrences_per_day", 1 / 365)
+    '0.0027'
     >>> figure_number("interruptions_per_day", -0.001, signed=True)
     '−0.001'
     """
@@ -340,15 +343,15 @@ def figure_number(key: str | Figure, value: float | None, *, signed: bool = Fals
     if number is None:
         return "—"
     spec = _spec(key)
+    if signed and number == 0:
+        return "±0"
     text = f"{abs(number):,.{spec.decimals}f}"
-    zero = text.strip("0.,") == ""
+    if number != 0 and text.strip("0.,") == "":
+        # Two significant digits, written out in full (never as 1e-07).
+        text = format(Decimal(f"{abs(number):.2g}"), "f")
     if signed:
-        if number == 0:
-            return "±0"
-        if zero:
-            text = f"{abs(number):.2g}"
         return ("+" if number > 0 else MINUS) + text
-    return text if zero or number >= 0 else MINUS + text
+    return MINUS + text if number < 0 else text
 
 
 def figure_text(

@@ -2,8 +2,9 @@
 
 UTF-8, comma-separated, RFC 4180 quoting, ``\\n`` line ends. The first lines start with
 ``# `` and give the export's stamp (study, plan, snapshot, date, version, scale), the
-assumptions in force as compact JSON, the methods with their sources and the cautions; a
-reader skips lines starting with ``#`` before the header row.
+assumptions in force as compact JSON, each figure column with the registry's label and
+unit and its section of Baton's methods document, and the cautions; a reader skips lines
+starting with ``#`` before the header row.
 
 A text cell that begins with ``=``, ``+``, ``-``, ``@``, a tab or a carriage return is
 written with a leading ``'``, so that a spreadsheet program opening the file shows the
@@ -16,11 +17,11 @@ import json
 
 from pandas.api.types import is_numeric_dtype
 
-from allocation.core.analysis.report import METHODS
 from allocation.core.cautions import CAUTIONS
+from allocation.core.methods import methods_document
 
 from .source import ExportSource
-from .table import allocation_table
+from .table import allocation_table, figure_columns
 
 __all__ = ["FORMULA_STARTS", "allocation_csv", "csv_comment_lines", "defuse"]
 
@@ -46,7 +47,13 @@ def csv_comment_lines(source: ExportSource) -> list[str]:
         source.analysis.assumptions, separators=(",", ":"), ensure_ascii=False, sort_keys=True
     )
     lines.append(f"# assumptions: {assumptions}")
-    lines.append("# methods: " + "; ".join(f"{name} — {text}" for name, text in METHODS))
+    document = methods_document()
+    figures = [
+        f"{', '.join(columns)} = {spec.label}{f' ({spec.unit})' if spec.unit else ''}, "
+        f"methods section #{spec.anchor}: {document.section(spec.anchor).summary}"
+        for columns, spec in figure_columns("allocation")
+    ]
+    lines.append("# methods: " + " | ".join(figures))
     lines.append(f"# cautions: {CAUTIONS}")
     return lines
 

@@ -2,8 +2,12 @@
 
 The ``allocation`` table has one row per leaf task in task-file order; its assignment
 columns are the study file's own values (what an import reads back), its figure columns
-the plan's analysis in its normal mode (DESIGN §3). Figures are rounded as the layout
-says: degrees to 4 decimals, occurrences per day 4, person seconds per day 2, awareness 3.
+the plan's analysis in its normal mode. Every figure column is a figure of the registry
+(:data:`FIGURE_COLUMNS`): it is rounded to :data:`EXTRA_DIGITS` more decimals than the
+screens show, and the ``methods`` sheet names it with its label, unit and the section of
+Baton's methods document that defines it. Key columns keep the analysis file's keys (a
+finding's kind, a handover's source and band); a ``*_words`` column beside each gives the
+registry's words. An assumption's status is written in the registry's words.
 """
 
 from __future__ import annotations
@@ -13,9 +17,17 @@ from typing import Any
 
 import pandas as pd
 
-from allocation.core.analysis.report import METHODS
 from allocation.core.assumptions import assumption_table
 from allocation.core.cautions import CAUTIONS
+from allocation.core.methods import methods_document
+from allocation.core.registry import (
+    ASSUMPTION_STATUS_WORDS,
+    FIGURES,
+    HANDOVER_SOURCES,
+    RISK_BANDS,
+    Figure,
+    finding_kind,
+)
 from allocation.core.scales import level_text
 from allocation.core.spreadsheets.layout import (
     ALLOCATION_COLUMNS,
@@ -29,11 +41,14 @@ from .source import ExportSource
 
 __all__ = [
     "ALLOCATION_COLUMNS",
+    "EXTRA_DIGITS",
+    "FIGURE_COLUMNS",
     "SHEETS",
     "allocation_rows",
     "allocation_table",
     "assumptions_table",
     "compact_json",
+    "figure_columns",
     "findings_table",
     "handovers_table",
     "links_table",
@@ -43,8 +58,33 @@ __all__ = [
     "workload_table",
 ]
 
+#: Decimals an export carries beyond the registry's (what the screens show), so that
+#: figures summed or compared from a sheet agree with the screens' rounding.
+EXTRA_DIGITS = 2
+
+#: Each figure column of the sheets, ``(sheet, column)``, and the registry's figure it
+#: holds, in the sheets' order.
+FIGURE_COLUMNS: dict[tuple[str, str], str] = {
+    **{("allocation", f"degree_{stage}"): "degrees" for stage in STAGES},
+    ("allocation", "occurrences_per_day"): "occurrences_per_day",
+    ("allocation", "person_s_per_day"): "person_s_per_day",
+    ("allocation", "awareness"): "awareness",
+    ("allocation", "handovers"): "handovers",
+    ("allocation", "findings"): "findings",
+    ("handovers", "per_day"): "handovers_per_day",
+    ("handovers", "time_ratio"): "time_ratio",
+    ("handovers", "likelihood"): "likelihood",
+    ("handovers", "likelihood_band"): "likelihood_band",
+    ("handovers", "risk"): "risk",
+    ("workload", "score"): "tlx_weighted",
+    ("workload", "predicted_occurrences_per_day"): "occurrences_per_day",
+    ("workload", "predicted_person_s_per_day"): "person_s_per_day",
+    ("workload", "predicted_awareness"): "awareness",
+}
+
 HANDOVER_COLUMNS = (
     "source",
+    "source_words",
     "from_task",
     "to_task",
     "from_agent",
@@ -59,12 +99,24 @@ HANDOVER_COLUMNS = (
     "severity",
     "risk",
     "band",
+    "band_words",
     "cue",
     "initiator",
 )
-FINDING_COLUMNS = ("kind", "severity", "tasks", "modes", "events", "agents", "message")
+FINDING_COLUMNS = (
+    "kind",
+    "kind_words",
+    "severity",
+    "tasks",
+    "modes",
+    "events",
+    "agents",
+    "message",
+)
 ASSUMPTION_COLUMNS = ("key", "value", "default", "status", "source")
-METHOD_COLUMNS = ("name", "source")
+#: One row per figure of the sheets: where its columns are, the registry's label and
+#: unit, the anchor of its section of the methods document and that section's summary.
+METHOD_COLUMNS = ("sheet", "columns", "name", "unit", "method", "source")
 #: The NASA-TLX subscales in the order of Hart & Staveland (1988); other keys follow.
 TLX_ORDER = ("mental", "physical", "temporal", "performance", "effort", "frustration")
 WORKLOAD_HEAD = ("task", "session", "participant", "kind")
@@ -76,6 +128,22 @@ WORKLOAD_TAIL = (
     "predicted_person_s_per_day",
     "predicted_awareness",
 )
+
+
+def _rounded(key: str, value: float | None) -> float | None:
+    """A figure at the registry's precision plus :data:`EXTRA_DIGITS`."""
+    if value is None:
+        return None
+    return round(float(value), FIGURES[key].decimals + EXTRA_DIGITS)
+
+
+def figure_columns(sheet: str) -> list[tuple[list[str], Figure]]:
+    """The figure columns of a sheet, grouped by the figure they hold, in column order."""
+    groups: dict[str, list[str]] = {}
+    for (where, column), key in FIGURE_COLUMNS.items():
+        if where == sheet:
+            groups.setdefault(key, []).append(column)
+    return [(columns, FIGURES[key]) for key, columns in groups.items()]
 
 
 def compact_json(value: Any) -> str:
@@ -131,16 +199,18 @@ def allocation_rows(source: ExportSource) -> list[dict[str, Any]]:
             "automation": (assignment and assignment.automation) or "",
             "levels": levels,
             "level_words": words,
-            **{f"degree_{stage}": round(float(degrees[stage]), 4) for stage in STAGES},
+            **{f"degree_{stage}": _rounded("degrees", degrees[stage]) for stage in STAGES},
             "accountable": (assignment and assignment.accountable) or "",
             "feedback": (assignment and assignment.feedback) or "",
             "initiator": (assignment and assignment.initiator) or "",
             "rationale": (assignment and assignment.rationale) or "",
             "status": (assignment and assignment.status) or "",
             "applies": "no" if assignment is not None and not assignment.is_applicable else "yes",
-            "occurrences_per_day": round(float(figures.per_day), 4),
-            "person_s_per_day": round(float(sum(figures.person_s_per_day.values())), 2),
-            "awareness": None if aware is None else round(float(aware.index), 3),
+            "occurrences_per_day": _rounded("occurrences_per_day", figures.per_day),
+            "person_s_per_day": _rounded(
+                "person_s_per_day", sum(figures.person_s_per_day.values())
+            ),
+            "awareness": None if aware is None else _rounded("awareness", aware.index),
             "handovers": handovers.get(task.id, 0),
             "findings": findings.get(task.id, 0),
         }
@@ -205,6 +275,7 @@ def handovers_table(source: ExportSource) -> pd.DataFrame:
         rows.append(
             {
                 "source": site.source,
+                "source_words": HANDOVER_SOURCES[site.source].label,
                 "from_task": site.from_task,
                 "to_task": site.to_task,
                 "from_agent": site.from_agent or "",
@@ -212,15 +283,14 @@ def handovers_table(source: ExportSource) -> pd.DataFrame:
                 "stage": site.stage or "",
                 "modes": " -> ".join(site.modes),
                 "trigger": site.trigger or "",
-                "per_day": round(float(site.per_day), 4),
-                "time_ratio": None
-                if handover.time_ratio is None
-                else round(float(handover.time_ratio), 3),
-                "likelihood": round(float(handover.likelihood), 3),
+                "per_day": _rounded("handovers_per_day", site.per_day),
+                "time_ratio": _rounded("time_ratio", handover.time_ratio),
+                "likelihood": _rounded("likelihood", handover.likelihood),
                 "likelihood_band": handover.likelihood_band,
                 "severity": handover.severity,
                 "risk": handover.risk,
                 "band": handover.band,
+                "band_words": RISK_BANDS[handover.band].label,
                 "cue": site.cue or "",
                 "initiator": site.initiator,
             }
@@ -232,6 +302,7 @@ def findings_table(source: ExportSource) -> pd.DataFrame:
     rows = [
         {
             "kind": finding.kind,
+            "kind_words": finding_kind(finding.kind).label,
             "severity": finding.severity,
             "tasks": ",".join(finding.tasks),
             "modes": ",".join(finding.modes),
@@ -264,7 +335,7 @@ def workload_table(source: ExportSource) -> pd.DataFrame:
                 "participant": rating.participant,
                 "kind": "weighted" if rating.weighted else "raw",
                 **{key: rating.ratings.get(key) for key in subscales},
-                "score": round(rating.score, 2),
+                "score": _rounded("tlx_weighted" if rating.weighted else "tlx_raw", rating.score),
                 "notes": rating.notes,
                 "predicted_category": figures.get("category", ""),
                 "predicted_occurrences_per_day": figures.get("occurrences_per_day"),
@@ -276,14 +347,15 @@ def workload_table(source: ExportSource) -> pd.DataFrame:
 
 
 def assumptions_table(source: ExportSource) -> pd.DataFrame:
-    """Every assumption in force with its default, status and source."""
+    """Every assumption in force with its default, status (in the registry's words) and
+    source."""
     study = source.study
     rows = [
         {
             "key": row["key"],
             "value": compact_json(row["value"]),
             "default": compact_json(row["default"]),
-            "status": row["status"],
+            "status": ASSUMPTION_STATUS_WORDS[row["status"]].label,
             "source": row["source"],
         }
         for row in assumption_table(study.assumptions, study.scale)
@@ -292,7 +364,21 @@ def assumptions_table(source: ExportSource) -> pd.DataFrame:
 
 
 def methods_table() -> pd.DataFrame:
-    return _frame([{"name": name, "source": text} for name, text in METHODS], METHOD_COLUMNS)
+    """Every figure column of the workbook with its label, unit and methods section."""
+    document = methods_document()
+    rows = [
+        {
+            "sheet": sheet,
+            "columns": ", ".join(columns),
+            "name": spec.label,
+            "unit": spec.unit,
+            "method": spec.anchor,
+            "source": document.section(spec.anchor).summary,
+        }
+        for sheet in SHEETS
+        for columns, spec in figure_columns(sheet)
+    ]
+    return _frame(rows, METHOD_COLUMNS)
 
 
 def sheet_tables(source: ExportSource) -> dict[str, pd.DataFrame]:

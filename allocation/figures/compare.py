@@ -6,6 +6,7 @@ from __future__ import annotations
 from typing import Any
 
 from allocation.core.analysis.compare import OBJECTIVE_FIGURES, PlanDelta, Ranking
+from allocation.core.registry import FIGURES, figure_text
 from allocation.figures.base import short_text
 
 __all__ = ["FIGURE_COLOURS", "burden_moved_figure", "objective_figure"]
@@ -32,6 +33,7 @@ def burden_moved_figure(delta: PlanDelta, top: int = 30) -> dict[str, Any]:
     """Person seconds per day saved (−) or added (+) per task, largest first: plotly data."""
     shifts = [shift for shift in delta.shifts[:top] if shift.change != 0]
     changes = [shift.change for shift in shifts]
+    moved = FIGURES["burden_change"]
     return {
         "data": [
             {
@@ -39,9 +41,9 @@ def burden_moved_figure(delta: PlanDelta, top: int = 30) -> dict[str, Any]:
                 "orientation": "h",
                 "y": [_shift_label(shift) for shift in shifts],
                 "x": changes,
-                "customdata": [shift.task_id for shift in shifts],
+                "customdata": [figure_text(moved, change, signed=True) for change in changes],
                 "marker": {"color": [ADDED if change > 0 else SAVED for change in changes]},
-                "hovertemplate": "%{y}<br>%{x:+.1f} person s/day<extra></extra>",
+                "hovertemplate": "%{y}<br>%{customdata}<extra></extra>",
             }
         ],
         "layout": {
@@ -49,8 +51,8 @@ def burden_moved_figure(delta: PlanDelta, top: int = 30) -> dict[str, Any]:
             "margin": {"l": 300, "r": 20, "t": 10, "b": 50},
             "xaxis": {
                 "title": {
-                    "text": f"person s/day, {delta.plan} against {delta.baseline} "
-                    "(− saved, + added)"
+                    "text": f"{moved.label}, {moved.unit}, {delta.plan} against "
+                    f"{delta.baseline} (− saved, + added)"
                 },
                 "zeroline": True,
                 "zerolinecolor": "#1d2a3a",
@@ -83,7 +85,12 @@ def objective_figure(ranking: Ranking, labels: dict[str, str]) -> dict[str, Any]
             "barmode": "stack",
             "height": max(230, 90 + 42 * len(plans)),
             "margin": {"l": 20, "r": 20, "t": 10, "b": 50},
-            "xaxis": {"title": {"text": "score: weighted contributions (lower is better)"}},
+            "xaxis": {
+                "title": {
+                    "text": f"{FIGURES['objective_score'].label}: weighted contributions "
+                    "(lower is better)"
+                }
+            },
             "yaxis": {"autorange": "reversed", "type": "category", "automargin": True},
             "legend": {"orientation": "v", "x": 1.02, "y": 1, "traceorder": "normal"},
             "plot_bgcolor": "#ffffff",

@@ -15,9 +15,9 @@ from typing import Any
 
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.analysis.risk import risk_band
-from allocation.core.assumptions import AWARENESS_FACTORS
 from allocation.core.describe import seconds_text
 from allocation.core.model import Study
+from allocation.core.registry import AWARENESS_FACTORS, FIGURES, figure_text
 from allocation.core.vocabulary import SEVERITIES
 from allocation.figures.base import (
     AUTOMATION_COLOURS,
@@ -32,8 +32,8 @@ from allocation.figures.base import (
 
 __all__ = [
     "AWARENESS_COLOURS",
-    "AWARENESS_WORDS",
     "BAND_COLOURS",
+    "DAILY_FIGURES",
     "awareness_chart",
     "awareness_rows",
     "daily_figures_chart",
@@ -48,7 +48,8 @@ __all__ = [
 #: Risk policy bands: pale fills that keep the cell counts readable.
 BAND_COLOURS = {"acceptable": "#d3e7de", "review": "#f1dc9f", "unacceptable": "#e9a384"}
 BAND_CODES = {"acceptable": 0, "review": 1, "unacceptable": 2}
-#: The mode-awareness factors (DESIGN §3.4), each its own colour in every chart.
+#: The mode-awareness factors (Methods: awareness-factors), each its own colour in every
+#: chart; their words are the registry's.
 AWARENESS_COLOURS = {
     "automation": "#5b4b9a",
     "feedback": "#c2571a",
@@ -56,22 +57,16 @@ AWARENESS_COLOURS = {
     "mode_change": "#1d2a3a",
     "rarity": "#6fb3a2",
 }
-AWARENESS_WORDS = {
-    "automation": "Automation of decision and action",
-    "feedback": "Weak feedback",
-    "initiation": "Started by others",
-    "mode_change": "Holder changes between modes",
-    "rarity": "Rare hands-on practice",
-}
 # -- (a) daily figures per person ------------------------------------------------------
 
-#: The daily figures of DESIGN §3.1: (attribute, words, is a time in seconds).
+#: A person's daily figures (Methods: daily-figures), by their registry key, which is also
+#: their attribute of a person's figures.
 DAILY_FIGURES = (
-    ("burden_s_per_day", "Time (all of it)", True),
-    ("monitoring_s_per_day", "Monitoring (part of that time)", True),
-    ("interactions_per_day", "Interactions", False),
-    ("interruptions_per_day", "Interruptions", False),
-    ("night_interruptions_per_day", "Interruptions at night", False),
+    "burden_s_per_day",
+    "monitoring_s_per_day",
+    "interactions_per_day",
+    "interruptions_per_day",
+    "night_interruptions_per_day",
 )
 
 
@@ -87,19 +82,18 @@ def daily_figures_chart(analysis: PlanAnalysis) -> dict[str, Any]:
     for agent_id, person in analysis.people.items():
         name = escaped_text(study.agent(agent_id).name)
         for axis, timed in (("", True), ("2", False)):
-            figures = [item for item in DAILY_FIGURES if item[2] is timed]
-            values = [getattr(person, attribute) for attribute, _words, _timed in figures]
+            figures = [key for key in DAILY_FIGURES if FIGURES[key].seconds is timed]
+            values = [getattr(person, key) for key in figures]
             data.append(
                 {
                     "type": "bar",
                     "name": name,
                     "legendgroup": agent_id,
                     "showlegend": timed,
-                    "x": [words for _attribute, words, _timed in figures],
+                    "x": [FIGURES[key].label for key in figures],
                     "y": [value / 60 if timed else value for value in values],
                     "customdata": [
-                        seconds_text(value) + " a day" if timed else f"{value:.3g} a day"
-                        for value in values
+                        figure_text(key, value) for key, value in zip(figures, values, strict=True)
                     ],
                     "hovertemplate": "%{x}<br>" + name + ": %{customdata}<extra></extra>",
                     "marker": {"color": colours[agent_id]},
@@ -198,8 +192,8 @@ def goal_time_chart(analysis: PlanAnalysis) -> dict[str, Any]:
                 "name": name,
                 "y": labels,
                 "x": [value / 60 for value in seconds],
-                "customdata": [seconds_text(value) for value in seconds],
-                "hovertemplate": "%{y}<br>" + name + ": %{customdata} a day<extra></extra>",
+                "customdata": [figure_text("person_s_per_day", value) for value in seconds],
+                "hovertemplate": "%{y}<br>" + name + ": %{customdata}<extra></extra>",
                 "marker": {"color": colours[agent_id]},
             }
         )
@@ -339,14 +333,14 @@ def awareness_chart(analysis: PlanAnalysis, top: int = 30) -> dict[str, Any]:
             {
                 "type": "bar",
                 "orientation": "h",
-                "name": AWARENESS_WORDS[factor],
+                "name": AWARENESS_FACTORS[factor].label,
                 "y": labels,
                 "x": [row["contributions"][factor] for row in rows],
                 "customdata": [
                     f"factor {row['factors'][factor]:.2f} × weight {weight:g}" for row in rows
                 ],
                 "hovertemplate": "%{y}<br>"
-                + AWARENESS_WORDS[factor]
+                + AWARENESS_FACTORS[factor].label
                 + ": %{x:.3f} (%{customdata})<extra></extra>",
                 "marker": {"color": AWARENESS_COLOURS[factor]},
             }

@@ -2,9 +2,9 @@
 
 Pure functions, no Django: :func:`graph_figure` takes the positions from
 :func:`allocation.core.layout.layered_layout` and colours every task by its category
-under the chosen plan (DESIGN §2: the degrees of automation of its stages give person,
-device or shared). ``static/baton/charts.js`` renders the figure; a click on a task
-sends its id (the point's ``customdata``) to the details panel.
+under the chosen plan (the degrees of automation of its stages give person, device or
+shared; Methods: levels-of-automation). ``static/baton/charts.js`` renders the figure; a
+click on a task sends its id (the point's ``customdata``) to the details panel.
 
 Everything a study's author typed (titles, names) is HTML-escaped before it goes into
 hover text, which plotly renders as a small subset of HTML.
@@ -20,6 +20,8 @@ from allocation.core.analysis import PlanAnalysis
 from allocation.core.analysis.handovers import Handover
 from allocation.core.layout import Layout, PlacedEdge
 from allocation.core.model import Study
+from allocation.core.registry import CATEGORIES as CATEGORY_WORDS
+from allocation.core.registry import FIGURES, RISK_BANDS, figure_number, figure_text
 from allocation.figures.base import ACCENT, FONT, INK, INK_SOFT, escaped_text
 
 __all__ = [
@@ -52,12 +54,13 @@ class Category:
     description: str
 
 
-#: Categories in legend order. Person, device and shared come from the degrees of
-#: automation (DESIGN §2) and use the style sheet's teal, violet and ochre.
+#: Categories in legend order, named in the registry's words (a task the plan has not
+#: assigned yet is the graph's own). Person, device and shared come from the degrees of
+#: automation and use the style sheet's teal, violet and ochre.
 CATEGORIES = (
     Category(
         "person",
-        "Person",
+        CATEGORY_WORDS["person"].label,
         "#2f7d6d",
         "circle",
         "#ffffff",
@@ -65,7 +68,7 @@ CATEGORIES = (
     ),
     Category(
         "device",
-        "Device",
+        CATEGORY_WORDS["device"].label,
         "#5b4b9a",
         "square",
         "#ffffff",
@@ -73,7 +76,7 @@ CATEGORIES = (
     ),
     Category(
         "shared",
-        "Shared",
+        CATEGORY_WORDS["shared"].label,
         "#b08a1e",
         "diamond",
         "#ffffff",
@@ -81,7 +84,7 @@ CATEGORIES = (
     ),
     Category(
         "not_applicable",
-        "Not applicable",
+        CATEGORY_WORDS["not_applicable"].label,
         "#c8c2b6",
         "circle-x",
         "#6b6458",
@@ -164,7 +167,8 @@ def _node_hover(study: Study, task_id: str, category: str, analysis: PlanAnalysi
     if analysis is not None:
         figures = analysis.tasks[task_id]
         lines.append(f"held by: {_agent_name(study, figures.involved.principal)}")
-        lines.append(f"occurrences: {figures.per_day:.3g} a day")
+        occurs = FIGURES["occurrences_per_day"]
+        lines.append(f"{occurs.label.lower()}: {figure_text(occurs, figures.per_day)}")
     lines.append("<i>click for details</i>")
     return "<br>".join(lines)
 
@@ -176,9 +180,12 @@ def _handover_hover(study: Study, handover: Handover) -> str:
             f"<b>Handover</b> {escaped_text(site.from_task)} → "
             f"{escaped_text(site.to_task)} ({site.trigger})",
             f"{_agent_name(study, site.from_agent)} → {_agent_name(study, site.to_agent)}",
-            f"risk {handover.risk} ({handover.band}): severity {handover.severity} × "
+            f"{FIGURES['risk'].label.lower()} {handover.risk} "
+            f"({RISK_BANDS[handover.band].label.lower()}): severity {handover.severity} × "
             f"likelihood band {handover.likelihood_band}",
-            f"likelihood {handover.likelihood:.2f} · {site.per_day:.3g} a day",
+            f"{FIGURES['likelihood'].label.lower()} "
+            f"{figure_number('likelihood', handover.likelihood)} · "
+            f"{figure_text('handovers_per_day', site.per_day)}",
         )
     )
 

@@ -13,6 +13,7 @@ from collections.abc import Iterable, Mapping
 from typing import Any
 
 from allocation.core.analysis import PlanAnalysis
+from allocation.core.registry import FIGURES, figure_text
 from allocation.core.vocabulary import CHANNELS
 from allocation.figures.base import HUMAN_COLOURS, INK_SOFT, chart_axis, chart_layout, short_text
 
@@ -67,7 +68,8 @@ def task_rows(
                     if task.demands
                     else None
                 ),
-                "category": involved.category,
+                # A task the plan does not do has no category of its own.
+                "category": involved.category if involved.applies else "not_applicable",
             }
         )
     return rows
@@ -87,11 +89,19 @@ def tlx_scatter_chart(rows: list[dict[str, Any]]) -> dict[str, Any]:
             "text": [row["task"] for row in rated],
             "textposition": "top center",
             "customdata": [
-                [short_text(row["title"]), row["count"], row["low"], row["high"]] for row in rated
+                [
+                    short_text(row["title"]),
+                    row["count"],
+                    row["low"],
+                    row["high"],
+                    figure_text("person_s", row["person_s"]),
+                ]
+                for row in rated
             ],
-            "hovertemplate": "%{text} %{customdata[0]}<br>predicted %{x:.3g} s per occurrence"
-            "<br>mean TLX %{y:.1f} (%{customdata[1]} rating(s), %{customdata[2]:.1f} to "
-            "%{customdata[3]:.1f})<extra></extra>",
+            "hovertemplate": "%{text} %{customdata[0]}<br>"
+            + f"{FIGURES['person_s'].label}, predicted: "
+            + "%{customdata[4]}<br>mean TLX %{y:.1f} (%{customdata[1]} rating(s), "
+            "%{customdata[2]:.1f} to %{customdata[3]:.1f})<extra></extra>",
             "error_y": {
                 "type": "data",
                 "symmetric": False,
@@ -108,7 +118,10 @@ def tlx_scatter_chart(rows: list[dict[str, Any]]) -> dict[str, Any]:
     layout = chart_layout(
         height=360,
         showlegend=False,
-        xaxis=chart_axis("predicted person time per occurrence (s)", rangemode="tozero"),
+        xaxis=chart_axis(
+            f"{FIGURES['person_s'].label}, predicted ({FIGURES['person_s'].unit})",
+            rangemode="tozero",
+        ),
         yaxis=chart_axis("rated NASA-TLX score (0 to 100)", range=[0, 105]),
         margin={"l": 60, "r": 30, "t": 30, "b": 50},
     )

@@ -11,11 +11,10 @@ An item is one thing a remark can be about, named in the study's words:
   (``error_state:T2/schedule,hold``), the identity the plan comparison uses;
 - ``plan`` and ``study``: the plan, or the study as a whole.
 
-The *open* items of a plan (DESIGN §4 review; issue 7) are its assignments whose status
-is open or proposed, its handovers in the review or unacceptable band, its findings, and
-anything with an unresolved comment or an open decision. Remarks about a thing the plan
-no longer has (a finding that went away when the plan changed) are kept and shown as
-such.
+The *open* items of a plan are its assignments whose status is open or proposed, its
+handovers in the review or unacceptable band, its findings, and anything with an
+unresolved comment or an open decision. Remarks about a thing the plan no longer has (a
+finding that went away when the plan changed) are kept and shown as such.
 """
 
 from __future__ import annotations
@@ -31,7 +30,17 @@ from allocation.core import Study
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.analysis.findings import Finding
 from allocation.core.analysis.handovers import Handover
-from allocation.core.describe import seconds_text, severity_text
+from allocation.core.describe import severity_text
+from allocation.core.registry import (
+    ASSIGNMENT_STATUS_WORDS,
+    FINDING_KINDS,
+    HANDOVER_SOURCES,
+    RISK_BANDS,
+    figure,
+    figure_number,
+    figure_text,
+    finding_kind,
+)
 from allocation.core.scales import level_text, stage_levels
 from allocation.core.vocabulary import STAGES
 
@@ -49,12 +58,6 @@ __all__ = [
 OPEN_STATUSES = ("open", "proposed")
 #: Handover bands that call for a review.
 REVIEW_BANDS = ("review", "unacceptable")
-
-SOURCE_WORDS = {
-    "link": "link between tasks",
-    "shared": "within a shared task",
-    "mode": "mode change",
-}
 
 
 def handover_key(handover: Handover) -> str:
@@ -114,6 +117,11 @@ class ReviewItem:
         punctuation stay apart."""
         readable = re.sub(r"[^A-Za-z0-9_-]+", "-", f"{self.kind}-{self.key}").strip("-")
         return f"item-{readable}-{zlib.crc32(f'{self.kind}|{self.key}'.encode()):08x}"
+
+    @property
+    def kind_label(self) -> str:
+        """What the item is, in words."""
+        return m.ReviewTarget(self.kind).label
 
     @property
     def unresolved(self) -> int:
@@ -191,22 +199,21 @@ def _assignment_item(
         facts.append(("Accountable", _agent_name(study, assignment.accountable)))
     if assignment is not None and assignment.feedback:
         facts.append(("Feedback", assignment.feedback.replace("_", " ")))
-    facts.append(("Status", status or "not set"))
+    words = ASSIGNMENT_STATUS_WORDS[status].label if status else None
+    facts.append(("Status", words or "not set"))
     if analysis is not None and task_id in analysis.tasks:
         figures = analysis.tasks[task_id]
-        person = sum(figures.person_s_per_day.values())
-        words = f"{person:.3g} s/day"
-        if person >= 60:
-            words += f" ({seconds_text(person)} a day)"
-        facts.append(("Person time", words))
-        facts.append(("Occurrences", f"{figures.per_day:.3g} a day"))
-        aware = figures.awareness
-        facts.append(("Mode-awareness risk", "—" if aware is None else f"{aware.index:.2f}"))
+        for key, value in (
+            ("person_s_per_day", sum(figures.person_s_per_day.values())),
+            ("occurrences_per_day", figures.per_day),
+            ("awareness", None if figures.awareness is None else figures.awareness.index),
+        ):
+            facts.append(_figure_fact(key, value))
         crossing = sum(
             1 for h in analysis.handovers if task_id in (h.site.from_task, h.site.to_task)
         )
-        facts.append(("Handovers", str(crossing)))
-    reasons = [f"status {status}"] if status in OPEN_STATUSES else []
+        facts.append(_figure_fact("handovers", crossing))
+    reasons = [f"status {words.lower()}"] if words and status in OPEN_STATUSES else []
     return ReviewItem(
         kind=m.ReviewTarget.ASSIGNMENT,
         key=task_id,
@@ -218,6 +225,11 @@ def _assignment_item(
     )
 
 
+def _figure_fact(key: str, value: float | None) -> tuple[str, str]:
+    """A figure as a fact of an item: the registry's label and its value with its unit."""
+    return figure(key).label, figure_text(key, value)
+
+
 def _task_words(study: Study, task_id: str) -> str:
     task = study.tasks_by_id.get(task_id)
     return f"{task_id} ({task.title})" if task else task_id
@@ -225,7 +237,7 @@ def _task_words(study: Study, task_id: str) -> str:
 
 def _handover_item(study: Study, plan_id: str, handover: Handover) -> ReviewItem:
     site = handover.site
-    source = SOURCE_WORDS.get(site.source, site.source)
+    source = HANDOVER_SOURCES[site.source].label
     if site.stage:
         source += f" (to {site.stage})"
     if site.modes:
@@ -233,13 +245,18 @@ def _handover_item(study: Study, plan_id: str, handover: Handover) -> ReviewItem
     facts = [
         ("Who", f"{_agent_name(study, site.from_agent)} → {_agent_name(study, site.to_agent)}"),
         ("Where", source + (f", on {site.trigger!r}" if site.trigger else "")),
-        ("Occurrences", f"{site.per_day:.3g} a day"),
-        ("Likelihood", f"{handover.likelihood:.2f} (band {handover.likelihood_band})"),
+        _figure_fact("handovers_per_day", site.per_day),
+        (
+            figure("likelihood").label,
+            f"{figure_number('likelihood', handover.likelihood)} "
+            f"(band {handover.likelihood_band})",
+        ),
         ("Severity", severity_text(handover.severity)),
-        ("Risk", f"{handover.risk} ({handover.band})"),
+        (figure("risk").label, f"{handover.risk} ({RISK_BANDS[handover.band].label})"),
         ("Cue", (site.cue or "none").replace("_", " ")),
     ]
-    reasons = [f"{handover.band} band"] if handover.band in REVIEW_BANDS else []
+    band = RISK_BANDS[handover.band].label.lower()
+    reasons = [f"{band} band"] if handover.band in REVIEW_BANDS else []
     same = site.from_task == site.to_task
     tasks = _task_words(study, site.from_task)
     if not same:
@@ -257,7 +274,7 @@ def _handover_item(study: Study, plan_id: str, handover: Handover) -> ReviewItem
 
 def _finding_item(study: Study, plan_id: str, finding: Finding) -> ReviewItem:
     facts = [
-        ("Kind", finding.kind.replace("_", " ")),
+        ("Kind", finding_kind(finding.kind).label),
         ("Severity", severity_text(finding.severity)),
         ("Tasks", ", ".join(_task_words(study, t) for t in finding.tasks) or "—"),
     ]
@@ -269,11 +286,20 @@ def _finding_item(study: Study, plan_id: str, finding: Finding) -> ReviewItem:
         kind=m.ReviewTarget.FINDING,
         key=finding_key(finding),
         plan_key=plan_id,
-        title=f"Finding: {finding.kind.replace('_', ' ')} ({', '.join(finding.tasks) or '—'})",
+        title=f"Finding: {finding_kind(finding.kind).label} ({', '.join(finding.tasks) or '—'})",
         reasons=["raised by the analysis"],
         facts=facts,
         message=finding.message,
     )
+
+
+def _gone_words(kind: str, key: str) -> str:
+    """The key of a thing the plan no longer has, a finding's kind in words."""
+    if kind == m.ReviewTarget.FINDING:
+        found, _, rest = key.partition(":")
+        if found in FINDING_KINDS:
+            return f"{FINDING_KINDS[found].label} ({rest or '—'})"
+    return key
 
 
 def _gone_item(kind: str, plan_key: str, key: str) -> ReviewItem:
@@ -281,7 +307,7 @@ def _gone_item(kind: str, plan_key: str, key: str) -> ReviewItem:
         kind=kind,
         key=key,
         plan_key=plan_key,
-        title=f"{kind.capitalize()} {key}",
+        title=f"{m.ReviewTarget(kind).label} {_gone_words(kind, key)}",
         present=False,
         facts=[("Now", "no longer in the study or the plan")],
     )

@@ -1,4 +1,4 @@
-"""Optimistic versioning: a save names the version it started from (issue 8).
+"""Optimistic versioning: a save names the version it started from.
 
 Every row people edit carries ``version`` (1 when created, one more with every service
 write). A form sends back the version it was rendered from; a service given that

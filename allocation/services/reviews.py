@@ -1,8 +1,8 @@
 """Review writes: comments in threads, their resolution, and the decision log.
 
-Who may do what (issue 7): reviewers and above comment; editors and above decide and
-change a decision's status; a comment is resolved or reopened by an editor or above, or
-by its author. The views check the role too; these services do not rely on them.
+Who may do what: reviewers and above comment; editors and above decide and change a
+decision's status; a comment is resolved or reopened by an editor or above, or by its
+author. The views check the role too; these services do not rely on them.
 
 A comment or decision is about one thing of the study, named in the study's words (see
 :mod:`allocation.selectors.reviews` for the keys). The thing must exist when the remark is

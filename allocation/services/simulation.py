@@ -217,7 +217,7 @@ def simulation_cancel(*, run: m.SimulationRun, user: User | None = None) -> m.Si
     return run
 
 
-# -- restarting a run whose worker died (issue 8, faults) ------------------------------
+# -- restarting a run whose worker died ------------------------------------------------
 
 
 def simulation_may_restart(*, run: m.SimulationRun, user: User) -> bool:

@@ -22,6 +22,7 @@ from allocation.core import Problem, StudyInvalid
 from allocation.core.analysis.risk import resolve_policy
 from allocation.core.assumptions import METHOD_NOTES, assumption_table
 from allocation.core.reading import child_path
+from allocation.core.registry import ASSUMPTION_STATUS_WORDS, figure_text
 from allocation.figures import dashboards as dashboard_figures
 from allocation.services.assumptions import (
     ASSUMPTION_KEYS,
@@ -34,22 +35,16 @@ from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import conflict_context, posted_version
 
 POLICY = "risk_policy"
-#: The headline figures the box shows after an edit: key, words, decimals.
+#: The headline figures the box shows after an edit (the registry names and rounds them).
 HEADLINE_FIGURES = (
-    ("burden_s_per_day", "person time, s a day", 1),
-    ("interruptions_per_day", "interruptions a day", 2),
-    ("night_interruptions_per_day", "at night", 2),
-    ("handovers_to_review", "handovers to review", 0),
-    ("max_risk", "highest risk", 0),
-    ("mean_awareness", "mean awareness index", 3),
-    ("findings", "findings", 0),
+    "burden_s_per_day",
+    "interruptions_per_day",
+    "night_interruptions_per_day",
+    "handovers_to_review",
+    "max_risk",
+    "mean_awareness",
+    "findings",
 )
-STATUS_WORDS = {
-    "published": "published",
-    "memory": "published, from memory",
-    "practice": "common practice",
-    "tool assumption": "tool assumption",
-}
 
 
 def value_items(value: Any) -> list[tuple[str, str]] | None:
@@ -111,7 +106,7 @@ def _page(
         "study-assumptions",
         rows=rows,
         method_notes=[
-            {"key": key, "status": STATUS_WORDS.get(mark, mark), "text": words}
+            {"key": key, "status": ASSUMPTION_STATUS_WORDS[mark].label, "text": words}
             for key, mark, words in METHOD_NOTES
         ],
         headlines=_headlines(page),
@@ -139,7 +134,7 @@ def _row(
         text = value_text(override if item["overridden"] else item["default"])
     return {
         **item,
-        "status_words": STATUS_WORDS.get(item["status"], item["status"]),
+        "status_words": ASSUMPTION_STATUS_WORDS[item["status"]].label,
         "default_text": value_text(item["default"]),
         "default_items": value_items(item["default"]),
         "override_text": value_text(override) if item["overridden"] else "",
@@ -226,8 +221,8 @@ def _headlines(page: StudyPage, before: dict[str, dict] | None = None) -> dict[s
                 "plan": plan,
                 "url": _dashboard_url(page, plan.id),
                 "figures": [
-                    _figure(words, now[key], None if earlier is None else earlier[key], places)
-                    for key, words, places in HEADLINE_FIGURES
+                    _figure(key, now[key], None if earlier is None else earlier[key])
+                    for key in HEADLINE_FIGURES
                 ],
             }
         )
@@ -235,12 +230,12 @@ def _headlines(page: StudyPage, before: dict[str, dict] | None = None) -> dict[s
     return {"plans": plans, "ok": page.result.ok, "after_edit": before is not None, "moved": moved}
 
 
-def _figure(words: str, now: float, before: float | None, places: int) -> dict[str, Any]:
-    """A headline figure as text, marked when it moved at the precision shown."""
-    now_text = f"{now:.{places}f}"
-    before_text = None if before is None else f"{before:.{places}f}"
+def _figure(key: str, now: float, before: float | None) -> dict[str, Any]:
+    """A headline figure as the registry writes it, marked when it moved as shown."""
+    now_text = figure_text(key, now, unit=False)
+    before_text = None if before is None else figure_text(key, before, unit=False)
     return {
-        "words": words,
+        "key": key,
         "now": now_text,
         "before": before_text,
         "changed": before_text is not None and before_text != now_text,

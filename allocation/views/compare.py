@@ -1,4 +1,4 @@
-"""Compare plans (DESIGN §3.11): figures side by side, burden moved, handovers and
+"""Compare plans (Methods: comparison): figures side by side, burden moved, handovers and
 findings that appear or go, and the study objective with its weights and sensitivity.
 
 The plans come from the query string (``?baseline=a&plan=a&plan=b``), so a comparison
@@ -23,7 +23,6 @@ from allocation import models as m
 from allocation import services
 from allocation.core import StudyInvalid
 from allocation.core.analysis.compare import (
-    FIGURES,
     OBJECTIVE_FIGURES,
     Comparison,
     PlanDelta,
@@ -31,32 +30,17 @@ from allocation.core.analysis.compare import (
     weight_problems,
 )
 from allocation.core.assumptions import OBJECTIVE_WEIGHTS
-from allocation.core.describe import seconds_text
+from allocation.core.registry import figure, figure_number, figure_text
 from allocation.figures.compare import burden_moved_figure, objective_figure
 from allocation.views.common import StudyPage, study_page
 
 #: Tasks shown per plan in the burden-moved table and chart.
 TOP_TASKS = 30
 
-#: Decimal places per headline figure on this screen.
-DIGITS = {
-    "burden_s_per_day": 1,
-    "interruptions_per_day": 2,
-    "night_interruptions_per_day": 2,
-    "handovers": 0,
-    "handovers_per_day": 2,
-    "handovers_to_review": 0,
-    "max_risk": 0,
-    "mean_awareness": 3,
-    "cut_ratio": 3,
-    "modularity": 3,
-    "findings": 0,
-}
-
-#: What each weight stands for, beside its field in the weight form.
+#: What each weight stands for, beside its field in the weight form: the figure's label
+#: and unit.
 WEIGHT_LABELS = {
-    key: f"{FIGURES[key][0]}{' ' + FIGURES[key][1] if FIGURES[key][1] else ''}"
-    for key in OBJECTIVE_FIGURES
+    key: f"{figure(key).label} {figure(key).unit}".strip() for key in OBJECTIVE_FIGURES
 }
 
 
@@ -110,43 +94,20 @@ def _query(plans: list[str], focus: str = "") -> str:
     return urlencode(pairs)
 
 
-def _number(value: float, digits: int) -> str:
-    return f"{value:,.{digits}f}".replace("-", "−")
-
-
-def _signed(value: float, digits: int) -> str:
-    """A difference with its sign; one too small for ``digits`` keeps two significant
-    digits, so that a real change never reads as none."""
-    if value == 0:
-        return "±0"
-    text = _number(abs(value), digits)
-    if text.strip("0.,") == "":
-        text = f"{abs(value):.2g}"
-    return f"{'+' if value > 0 else '−'}{text}"
-
-
-def _rate(value: float) -> str:
-    """Occurrences per day: two decimals, or two significant digits when rarer."""
-    if value == 0 or value >= 0.01:
-        return f"{value:,.2f}"
-    return f"{value:.2g}"
-
-
-def _difference(difference: float | None, verdict: str, digits: int) -> str | None:
+def _difference(key: str, difference: float | None, verdict: str) -> str | None:
     """The difference to the baseline as shown; none for the baseline itself."""
     if difference is None:
         return None
-    return "±0" if verdict == "same" else _signed(difference, digits)
+    return "±0" if verdict == "same" else figure_number(key, difference, signed=True)
 
 
 def _figure_rows(rows, names: dict[str, str] | None = None) -> list[dict[str, Any]]:
     table = []
     for row in rows:
-        digits = DIGITS[row.key]
         cells = [
             {
-                "value": _number(value, digits),
-                "difference": _difference(difference, verdict, digits),
+                "value": figure_number(row.key, value),
+                "difference": _difference(row.key, difference, verdict),
                 "verdict": verdict,
             }
             for value, difference, verdict in zip(
@@ -157,6 +118,7 @@ def _figure_rows(rows, names: dict[str, str] | None = None) -> list[dict[str, An
             {
                 "label": row.label,
                 "unit": row.unit,
+                "anchor": figure(row.key).anchor,
                 "agent": row.agent,
                 "agent_name": (names or {}).get(row.agent or "", row.agent),
                 "direction": "lower is better" if row.lower_is_better else "higher is better",
@@ -168,7 +130,11 @@ def _figure_rows(rows, names: dict[str, str] | None = None) -> list[dict[str, An
 
 def _handover_rows(handovers) -> list[dict[str, Any]]:
     return [
-        {"handover": handover, "per_day": _rate(handover.site.per_day)} for handover in handovers
+        {
+            "handover": handover,
+            "per_day": figure_number("handovers_per_day", handover.site.per_day),
+        }
+        for handover in handovers
     ]
 
 
@@ -184,22 +150,21 @@ def _delta_context(delta: PlanDelta, comparison: Comparison) -> dict[str, Any]:
         "shifts": [
             {
                 "shift": shift,
-                "before": _number(shift.total_before, 1),
-                "after": _number(shift.total_after, 1),
-                "change": _signed(shift.change, 1),
+                "before": figure_number("person_s_per_day", shift.total_before),
+                "after": figure_number("person_s_per_day", shift.total_after),
+                "change": figure_number("burden_change", shift.change, signed=True),
                 "direction": "worse" if shift.change > 0 else "better" if shift.change else "same",
             }
             for shift in shown
         ],
         "unchanged": sum(1 for shift in delta.shifts if shift.change == 0),
         "hidden": max(0, len([s for s in delta.shifts if s.change != 0]) - len(shown)),
-        "saved": seconds_text(delta.seconds_saved),
+        "saved": figure_text("burden_change", delta.seconds_saved),
         "saved_tasks": sum(1 for shift in delta.shifts if shift.change < 0),
-        "added": seconds_text(delta.seconds_added),
+        "added": figure_text("burden_change", delta.seconds_added),
         "added_tasks": sum(1 for shift in delta.shifts if shift.change > 0),
-        "net": _signed(delta.burden_change, 1),
-        "net_text": ("+" if delta.burden_change > 0 else "−" if delta.burden_change else "±")
-        + seconds_text(abs(delta.burden_change)),
+        "net": figure_number("burden_change", delta.burden_change, signed=True),
+        "net_text": figure_text("burden_change", delta.burden_change, signed=True),
     }
 
 
@@ -210,9 +175,10 @@ def _objective_context(comparison: Comparison) -> dict[str, Any]:
             "plan": plan,
             "name": comparison.names[plan],
             "rank": ranking.rank(plan),
-            "score": f"{ranking.scores[plan]:.3f}",
+            "score": figure_number("objective_score", ranking.scores[plan]),
             "contributions": [
-                f"{ranking.contributions[plan][figure]:.3f}" for figure in OBJECTIVE_FIGURES
+                figure_number("objective_contribution", ranking.contributions[plan][key])
+                for key in OBJECTIVE_FIGURES
             ],
         }
         for plan in ranking.order
@@ -234,7 +200,7 @@ def _objective_context(comparison: Comparison) -> dict[str, Any]:
     ]
     return {
         "ranking_rows": rows,
-        "figure_labels": [WEIGHT_LABELS[figure] for figure in OBJECTIVE_FIGURES],
+        "figure_labels": [WEIGHT_LABELS[key] for key in OBJECTIVE_FIGURES],
         "sensitivity": sensitivity,
         "sensitive": any(row.changed for row in comparison.sensitivity),
         "contribution_figure": objective_figure(ranking, WEIGHT_LABELS),

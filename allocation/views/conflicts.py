@@ -1,4 +1,4 @@
-"""What a screen shows when a save meets a newer version (issue 8, optimistic versioning).
+"""What a screen shows when a save meets a newer version (optimistic versioning).
 
 The services refuse a stale save with :class:`~allocation.services.conflicts.EditConflict`
 carrying the row's current values; :func:`conflict_context` puts them beside the values

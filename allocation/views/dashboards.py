@@ -14,9 +14,14 @@ from django.views.decorators.http import require_GET
 
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.analysis.modecheck import MODE_FINDING_KINDS
-from allocation.core.analysis.report import METHODS
-from allocation.core.assumptions import AWARENESS_FACTORS
 from allocation.core.describe import seconds_text, severity_text
+from allocation.core.registry import (
+    AWARENESS_FACTORS,
+    HANDOVER_SOURCES,
+    LIKELIHOOD_FACTORS,
+    figure_text,
+    finding_kind,
+)
 from allocation.figures import dashboards as dashboard_figures
 from allocation.views.common import StudyPage, study_page
 
@@ -24,19 +29,26 @@ from allocation.views.common import StudyPage, study_page
 HANDOVERS_SHOWN = 50
 #: Tasks in the mode-awareness chart.
 AWARENESS_SHOWN = 30
-
-SOURCE_WORDS = {
-    "link": "link between tasks",
-    "shared": "within a shared task",
-    "mode": "mode change",
-}
-LIKELIHOOD_WORDS = {
-    "time": "time",
-    "load": "load",
-    "cue": "cue",
-    "automation_initiated": "initiation",
-    "awareness": "awareness",
-}
+#: The plan's headline figures, in the order the head of the page shows them.
+HEADLINE_FIGURES = (
+    "burden_s_per_day",
+    "interruptions_per_day",
+    "night_interruptions_per_day",
+    "handovers",
+    "handovers_to_review",
+    "findings",
+)
+#: A person's daily figures, the columns of the table of each person's day.
+PERSON_FIGURES = (
+    "burden_s_per_day",
+    "monitoring_s_per_day",
+    "interactions_per_day",
+    "interruptions_per_day",
+    "night_interruptions_per_day",
+    "awake_share_used",
+)
+#: The coherence figures and where the analysis keeps them.
+COHERENCE_FIGURES = ("cut_ratio", "modularity")
 
 
 @require_GET
@@ -58,7 +70,6 @@ def plan_dashboard(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
             for item in page.study.plans
         ],
         show_all=show_all,
-        methods={name.lower().replace(" ", "_"): text for name, text in METHODS},
     )
     analysis = page.analysis(chosen.id) if page.result.ok else None
     if analysis is not None:
@@ -108,17 +119,13 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
             ),
             reverse=True,
         )[:3]
+        figures = person.to_json()
         people.append(
             {
                 "name": study.agent(agent_id).name,
-                "burden": seconds_text(person.burden_s_per_day),
-                "monitoring": seconds_text(person.monitoring_s_per_day),
-                "interactions": person.interactions_per_day,
-                "interruptions": person.interruptions_per_day,
-                "night": person.night_interruptions_per_day,
-                "awake_share": f"{person.load * 100:.2g}%",
+                "cells": [figure_text(key, figures[key], unit=False) for key in PERSON_FIGURES],
                 "top_tasks": [
-                    {**link, "time": seconds_text(seconds)}
+                    {**link, "time": figure_text("person_s_per_day", seconds, unit=False)}
                     for link, (seconds, _task) in zip(
                         _task_links(page, [task for _s, task in top], plan_id), top, strict=True
                     )
@@ -130,9 +137,10 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
             **row,
             "link": _task_links(page, [row["task"]], plan_id)[0] if row["task"] else None,
             "times": [
-                seconds_text(row["seconds"].get(agent_id, 0.0)) for agent_id in analysis.people
+                figure_text("person_s_per_day", row["seconds"].get(agent_id, 0.0), unit=False)
+                for agent_id in analysis.people
             ],
-            "total": seconds_text(sum(row["seconds"].values())),
+            "total": figure_text("person_s_per_day", sum(row["seconds"].values()), unit=False),
         }
         for row in dashboard_figures.goal_person_time(analysis)
     ]
@@ -143,7 +151,7 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
             "link": _task_links(page, [row["task"]], plan_id)[0],
             "parts": [
                 {
-                    "words": dashboard_figures.AWARENESS_WORDS[factor],
+                    "words": AWARENESS_FACTORS[factor].label,
                     "factor": row["factors"][factor],
                     "contribution": row["contributions"][factor],
                 }
@@ -161,7 +169,8 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
     findings = [
         {
             "finding": finding,
-            "kind": finding.kind.replace("_", " "),
+            "kind": finding_kind(finding.kind).label,
+            "anchor": finding_kind(finding.kind).anchor,
             "severity": severity_text(finding.severity),
             "tasks": _task_links(page, finding.tasks, plan_id),
             "step_url": (
@@ -177,17 +186,24 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
         modes = [
             {
                 "mode": mode,
-                "share": f"{analysis.mode_share.get(mode.id, 0.0):.1%}",
+                "share": analysis.mode_share.get(mode.id, 0.0),
                 "time": seconds_text(analysis.mode_share.get(mode.id, 0.0) * 86400),
                 "initial": mode.id == analysis.plan.modes.initial,
             }
             for mode in analysis.plan.modes.states
         ]
-    kinds = Counter(finding.kind.replace("_", " ") for finding in analysis.findings)
+    kinds = Counter(finding_kind(finding.kind).label for finding in analysis.findings)
     counts = dashboard_figures.risk_matrix_counts(analysis)
+    headline = analysis.headline()
+    coherence = {
+        "cut_ratio": analysis.coherence.cut_ratio,
+        "modularity": analysis.coherence.modularity,
+    }
     return {
         "analysis": analysis,
-        "headline": analysis.headline(),
+        "headline": headline,
+        "headline_figures": [(key, headline[key]) for key in HEADLINE_FIGURES],
+        "person_figures": PERSON_FIGURES,
         "people": people,
         "people_names": [study.agent(agent_id).name for agent_id in analysis.people],
         "goals": goals,
@@ -203,6 +219,7 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
         "policy": analysis.policy,
         "band_labels": dashboard_figures.likelihood_band_labels(analysis.policy),
         "coherence": analysis.coherence,
+        "coherence_figures": [(key, coherence[key]) for key in COHERENCE_FIGURES],
         "figures": {
             "daily": dashboard_figures.daily_figures_chart(analysis),
             "goals": dashboard_figures.goal_time_chart(analysis),
@@ -216,7 +233,7 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
 
 def _handover_row(page: StudyPage, handover, plan_id: str) -> dict[str, Any]:
     site = handover.site
-    source = SOURCE_WORDS.get(site.source, site.source)
+    source = HANDOVER_SOURCES[site.source].label
     if site.source == "shared" and site.stage:
         source += f" (to {site.stage})"
     if site.source == "mode" and site.modes:
@@ -231,10 +248,10 @@ def _handover_row(page: StudyPage, handover, plan_id: str) -> dict[str, Any]:
         "from_agent": _agent_name(page, site.from_agent),
         "to_agent": _agent_name(page, site.to_agent),
         "contributions": [
-            {"words": LIKELIHOOD_WORDS.get(name, name), "value": value}
+            {"words": LIKELIHOOD_FACTORS[name].label, "value": value}
             for name, value in sorted(handover.contributions.items(), key=lambda kv: -kv[1])
             if value >= 0.005  # what rounds to 0.00 tells the reader nothing
         ],
-        "per_day": f"{site.per_day:.3g}",
+        "per_day": site.per_day,
         "severity": severity_text(handover.severity),
     }

@@ -1,5 +1,5 @@
 """The dependency graph: tasks in layers, coloured by category under a chosen plan, with a
-task's details beside it (DESIGN §4)."""
+task's details beside it."""
 
 from __future__ import annotations
 
@@ -24,6 +24,12 @@ from allocation.core.describe import (
 )
 from allocation.core.layout import goal_leaves, layered_layout, select_tasks
 from allocation.core.model import Study
+from allocation.core.registry import (
+    AWARENESS_FACTORS,
+    HANDOVER_SOURCES,
+    figure_number,
+    figure_text,
+)
 from allocation.core.vocabulary import CHANNELS, SEVERITIES, STAGE_NAMES, STAGES, VACP_ANCHORS
 from allocation.figures import graph as graph_figures
 from allocation.views.common import StudyPage, study_page
@@ -31,15 +37,6 @@ from allocation.views.common import StudyPage, study_page
 #: Above this many leaf tasks the graph opens on one goal (tool assumption: a few hundred
 #: nodes is about what a layered drawing shows legibly at once).
 LARGE_STUDY = 200
-
-AWARENESS_WORDS = {
-    "automation": "automation of decision and action",
-    "feedback": "weak feedback to the person",
-    "initiation": "started by someone else",
-    "mode_change": "holder changes between modes",
-    "rarity": "rare hands-on practice",
-}
-SOURCE_WORDS = {"link": "along a link", "shared": "within the task", "mode": "mode change"}
 
 
 @dataclass
@@ -292,7 +289,7 @@ def _under_plan(study: Study, analysis: PlanAnalysis, task_id: str) -> dict[str,
     aware = figures.awareness
     handovers = [
         {
-            "source": SOURCE_WORDS[h.site.source],
+            "source": HANDOVER_SOURCES[h.site.source].label,
             "from_task": h.site.from_task,
             "to_task": h.site.to_task,
             "from_agent": _agent_name(study, h.site.from_agent),
@@ -320,9 +317,12 @@ def _under_plan(study: Study, analysis: PlanAnalysis, task_id: str) -> dict[str,
         ],
         "levels": level_rows,
         "per_day": figures.per_day,
-        "person_s": seconds_text(figures.person_s),
+        "person_s": figure_text("person_s", figures.person_s),
         "person_s_per_day": [
-            {"name": _agent_name(study, agent_id), "seconds": seconds_text(seconds)}
+            {
+                "name": _agent_name(study, agent_id),
+                "seconds": figure_text("person_s_per_day", seconds),
+            }
             for agent_id, seconds in figures.person_s_per_day.items()
         ],
         "awareness": aware,
@@ -330,9 +330,9 @@ def _under_plan(study: Study, analysis: PlanAnalysis, task_id: str) -> dict[str,
         if aware is None
         else [
             {
-                "name": AWARENESS_WORDS.get(name, name),
-                "factor": value,
-                "contribution": aware.contributions.get(name, 0.0),
+                "name": AWARENESS_FACTORS[name].label,
+                "factor": figure_number(AWARENESS_FACTORS[name], value),
+                "contribution": figure_number("awareness", aware.contributions.get(name, 0.0)),
             }
             for name, value in aware.factors.items()
         ],

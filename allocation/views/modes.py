@@ -21,9 +21,9 @@ from allocation.core import Problem, StudyInvalid
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.analysis.findings import Finding
 from allocation.core.analysis.modecheck import MODE_FINDING_KINDS, Moment, walkthrough
-from allocation.core.analysis.report import METHODS
 from allocation.core.describe import severity_text
 from allocation.core.model import Assignment, Plan, Study
+from allocation.core.registry import finding_kind
 from allocation.core.writing import assignment_to_json
 from allocation.figures.modes import CAUSE_WORDS, CUE_LINES, mode_map_figure
 from allocation.forms.base import ItemForm
@@ -33,39 +33,6 @@ from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import conflict_context, posted_version
 
-#: Each kind of mode-map finding in a few words, for the findings list.
-KIND_WORDS = {
-    "uncued_change": (
-        "Change without a cue",
-        "The device changes mode by itself with nothing to tell the person, and who does "
-        "some task changes with it.",
-    ),
-    "ambiguous_indication": (
-        "Modes that look alike",
-        "Two modes show the same thing but differ in who does what, or in what the same "
-        "action of the person does.",
-    ),
-    "error_state": (
-        "Person and device disagree",
-        "A reachable situation where the mode the person believes and the mode the device "
-        "is in disagree on who does some task.",
-    ),
-    "unforeseen_transition": (
-        "Change the person cannot follow",
-        "The device can change mode in a way the person's picture does not follow.",
-    ),
-    "refused_action": (
-        "Action refused",
-        "The person tries an action their picture of the mode offers, and the device, in "
-        "its actual mode, does not accept it.",
-    ),
-    "unreachable_mode": ("Mode never reached", "No sequence of transitions reaches the mode."),
-    "no_way_back": (
-        "No way back",
-        "From the mode no path leads back to one where the person holds the safety-critical "
-        "tasks the map gives them elsewhere.",
-    ),
-}
 CUE_WORDS = {cue: words for cue, (_dash, _width, words) in CUE_LINES.items()}
 
 
@@ -184,7 +151,7 @@ def _region_context(page: StudyPage, plan: Plan) -> dict[str, Any]:
             {
                 "number": number,
                 "finding": finding,
-                "title": KIND_WORDS[finding.kind][0],
+                "title": finding_kind(finding.kind).label,
                 "severity": severity_text(finding.severity),
                 "mode_names": [
                     modes.by_id[mode_id].name if mode_id in modes.by_id else mode_id
@@ -198,12 +165,11 @@ def _region_context(page: StudyPage, plan: Plan) -> dict[str, Any]:
             for number, finding in enumerate(findings)
         ],
         "finding_counts": [
-            (KIND_WORDS[kind][0], count)
+            (finding_kind(kind).label, count)
             for kind in MODE_FINDING_KINDS
             if (count := sum(1 for f in findings if f.kind == kind))
         ],
-        "kinds": [(kind, *KIND_WORDS[kind]) for kind in MODE_FINDING_KINDS],
-        "method": dict(METHODS)["Mode-map verification"],
+        "kinds": [finding_kind(kind) for kind in MODE_FINDING_KINDS],
         "map_problems": _map_problems(page, plan),
         "leaves": study.leaves,
     }
@@ -747,8 +713,9 @@ def mode_finding(request: HttpRequest, pk: int, plan: str, finding: int) -> Http
         plan=chosen,
         finding=found,
         number=finding,
-        title=KIND_WORDS[found.kind][0],
-        explanation=KIND_WORDS[found.kind][1],
+        title=finding_kind(found.kind).label,
+        explanation=finding_kind(found.kind).explanation,
+        anchor=finding_kind(found.kind).anchor,
         severity=severity_text(found.severity),
         steps=[
             {

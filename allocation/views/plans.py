@@ -17,6 +17,7 @@ from allocation import services
 from allocation.core import Problem, Study, StudyInvalid
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.describe import task_outline
+from allocation.core.registry import ASSIGNMENT_STATUS_WORDS, figure_text
 from allocation.core.scales import level_text
 from allocation.core.vocabulary import ASSIGNMENT_STATUSES, CUES, INITIATORS, STAGES
 from allocation.core.writing import assignment_to_json
@@ -24,6 +25,18 @@ from allocation.forms.plans import WHO_CHOICES, AssignmentForm, BulkForm, PlanFo
 from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import conflict_context, posted_version
+
+#: The plan's figures beside the editor, and each person's (the registry names them).
+HEADLINE_FIGURES = (
+    "burden_s_per_day",
+    "interruptions_per_day",
+    "night_interruptions_per_day",
+    "handovers",
+    "handovers_to_review",
+    "max_risk",
+    "findings",
+)
+PERSON_FIGURES = ("burden_s_per_day", "interruptions_per_day", "night_interruptions_per_day")
 
 
 def _choices(study: Study) -> dict[str, Any]:
@@ -36,7 +49,7 @@ def _choices(study: Study) -> dict[str, Any]:
         "levels": level_choices(study.scale),
         "feedback": CUES,
         "initiators": INITIATORS,
-        "statuses": ASSIGNMENT_STATUSES,
+        "statuses": [(key, ASSIGNMENT_STATUS_WORDS[key].label) for key in ASSIGNMENT_STATUSES],
         "stages": STAGES,
         "per_stage_allowed": study.scale == "sv10",
     }
@@ -83,7 +96,7 @@ def _row(
         figures = analysis.tasks[task_id]
         involved = figures.involved
         row["figures"] = {
-            "category": involved.category if involved.applies else "not applicable",
+            "category": involved.category if involved.applies else "not_applicable",
             "holder": involved.principal,
             "person_s": figures.person_s,
             "per_day": figures.per_day,
@@ -99,10 +112,15 @@ def _row(
 def _headline(study: Study, analysis: PlanAnalysis | None) -> dict[str, Any] | None:
     if analysis is None:
         return None
+    figures = analysis.headline()
     return {
-        "figures": analysis.headline(),
+        "figures": [(key, figures[key]) for key in HEADLINE_FIGURES],
+        "columns": PERSON_FIGURES,
         "people": [
-            (study.agents_by_id[agent_id].name, person)
+            (
+                study.agents_by_id[agent_id].name,
+                [figure_text(key, getattr(person, key), unit=False) for key in PERSON_FIGURES],
+            )
             for agent_id, person in analysis.people.items()
         ],
     }

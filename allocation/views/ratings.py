@@ -14,8 +14,7 @@ from django.views.decorators.http import require_GET, require_POST
 
 from allocation import models as m
 from allocation import services
-from allocation.core.describe import seconds_text
-from allocation.core.simulation import FIGURE_WORDS
+from allocation.core.registry import figure, figure_number, figure_text
 from allocation.core.tlx import PAIRS, SUBSCALE_NAMES, SUBSCALES, check_ratings
 from allocation.core.vocabulary import CHANNELS
 from allocation.figures.ratings import task_rows, tlx_scatter_chart
@@ -34,11 +33,18 @@ def _page_url(pk: int, plan: str) -> str:
     return reverse("plan-ratings", args=[pk, plan])
 
 
+def _score_figure(rating: m.WorkloadRating) -> str:
+    """The registry's figure of a rating's score: weighted TLX with tallies, else raw."""
+    return "tlx_weighted" if rating.weights else "tlx_raw"
+
+
 def _rating_row(rating: m.WorkloadRating) -> dict[str, Any]:
     ratings, warnings = check_ratings(rating.ratings)
     raw = sum(ratings.values()) / len(SUBSCALES) if len(ratings) == len(SUBSCALES) else None
+    key = _score_figure(rating)
     return {
         "rating": rating,
+        "score": figure_number(key, rating.score),
         "cells": [
             {
                 "value": rating.ratings.get(key),
@@ -46,7 +52,7 @@ def _rating_row(rating: m.WorkloadRating) -> dict[str, Any]:
             }
             for key in SUBSCALES
         ],
-        "kind": "weighted" if rating.weights else "raw",
+        "kind": figure(key).label,
         "raw": raw,
         "off_marks": [SUBSCALE_NAMES[p.path.split(".")[1]] for p in warnings if not p.is_error],
         "by": rating.recorded_by.get_username() if rating.recorded_by else "—",
@@ -69,12 +75,22 @@ def _simulation(page: StudyPage, plan_id: str, people: list[str]) -> dict[str, A
             {
                 "name": agent.name,
                 "peaks": [
-                    figures.get(f"peak_{channel}", {"mean": None, "p95": None})
+                    {
+                        key: figure_number(f"peak_{channel}", value)
+                        for key, value in figures.get(
+                            f"peak_{channel}", {"mean": None, "p95": None}
+                        ).items()
+                    }
                     for channel in CHANNELS
                 ],
             }
         )
-    return {"run": run, "rows": rows, "label": FIGURE_WORDS["peak_visual"][1]}
+    return {
+        "run": run,
+        "rows": rows,
+        "columns": [f"peak_{channel}" for channel in CHANNELS],
+        "unit": figure(f"peak_{CHANNELS[0]}").unit,
+    }
 
 
 def _context(
@@ -120,9 +136,13 @@ def _context(
             ],
         )
         for task in tasks:
-            task["time"] = seconds_text(task["person_s"]) if task["person_s"] else "—"
+            task["time"] = (
+                figure_text("person_s", task["person_s"], unit=False) if task["person_s"] else "—"
+            )
             task["time_per_day"] = (
-                seconds_text(task["person_s_per_day"]) if task["person_s_per_day"] else "—"
+                figure_text("person_s_per_day", task["person_s_per_day"], unit=False)
+                if task["person_s_per_day"]
+                else "—"
             )
         people = list(analysis.people)
         context.update(
@@ -180,11 +200,11 @@ def plan_rating_record(request: HttpRequest, pk: int, plan: str) -> HttpResponse
                 for text in texts:
                     form.add_error(field if field in form.fields else None, text)
         else:
-            kind = "weighted" if rating.weights else "raw"
+            key = _score_figure(rating)
             messages.success(
                 request,
                 f"Recorded {rating.participant}'s ratings of {rating.task_key}: "
-                f"{kind} TLX {rating.score:.1f}.",
+                f"{figure(key).label} {figure_number(key, rating.score)}.",
             )
             if not request.htmx:
                 return redirect(_page_url(pk, plan) + f"#ratings-{rating.task_key}")

@@ -13,27 +13,34 @@ from django_htmx.http import HttpResponseClientRedirect
 
 from allocation import models as m
 from allocation import services
-from allocation.core.analysis.report import METHODS
+from allocation.core.methods import methods_document
 from allocation.selectors.reviews import ReviewItem, review_items, review_summary
 from allocation.services.conflicts import EditConflict
 from allocation.services.reviews import PLAN_KINDS
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import posted_version
 
-#: The methods behind the figures the review shows beside each item.
+#: The sections of the methods document behind the figures the review shows beside each
+#: item.
 REVIEW_METHODS = (
-    "Levels of automation",
-    "Person time",
-    "Responsibility and authority",
-    "Capability",
-    "Mode awareness",
-    "Handovers",
-    "Mode-map verification",
+    "levels-of-automation",
+    "person-time",
+    "monitoring",
+    "finding-capability",
+    "awareness-index",
+    "handovers",
+    "mode-check",
 )
 
 
-def _methods() -> list[tuple[str, str]]:
-    return [(name, text) for name, text in METHODS if name in REVIEW_METHODS]
+def _methods() -> list[dict[str, str]]:
+    """Each section's title, summary and anchor."""
+    document = methods_document()
+    return [
+        {"anchor": anchor, "title": section.title, "summary": section.summary}
+        for anchor in REVIEW_METHODS
+        for section in [document.section(anchor)]
+    ]
 
 
 def _rank(page: StudyPage, role: str) -> bool:

@@ -24,6 +24,7 @@ from allocation import models as m
 from allocation import selectors, services
 from allocation.core.describe import seconds_text
 from allocation.core.model import Plan
+from allocation.core.registry import figure_number
 from allocation.core.simulation import FIGURES
 from allocation.core.vocabulary import CHANNELS
 from allocation.figures.simulation import (
@@ -85,13 +86,16 @@ def _statistics_rows(summary: dict[str, Any], names: dict[str, str]) -> list[dic
                     "person": names.get(person, person),
                     "figure": label,
                     "unit": unit,
-                    "mean": stats["mean"],
-                    "p50": stats["p50"],
-                    "p95": stats["p95"],
+                    **_statistics(figure, stats),
                     "first": figure == SUMMARY_FIGURES[0],
                 }
             )
     return rows
+
+
+def _statistics(figure: str, stats: dict[str, float]) -> dict[str, str]:
+    """Mean, P50 and P95 of a simulated figure at the registry's precision."""
+    return {key: figure_number(figure, stats[key]) for key in ("mean", "p50", "p95")}
 
 
 def _result_context(
@@ -137,7 +141,9 @@ def _result_context(
                 "name": names.get(person, person),
                 "time": seconds_text(busiest[person]),
                 "stretches": len(day["people"][person]["segments"]),
-                "peak": max(day["people"][person]["occupancy"] or [0.0]),
+                "peak": figure_number(
+                    "peak_occupancy", max(day["people"][person]["occupancy"] or [0.0])
+                ),
             }
             for person in people
         ],
@@ -300,7 +306,7 @@ def study_simulation_compare(request: HttpRequest, pk: int) -> HttpResponse:
         if done and person is not None:
             values = run.result["simulation"]["figures"][person][figure]
             stats = run.result["summary"]["people"][person][figure]
-            row["stats"] = stats
+            row["stats"] = _statistics(figure, stats)
             series.append((plan.name, values))
         plans.append(row)
     label, unit = FIGURE_WORDS[figure]

@@ -23,14 +23,12 @@ from django.views.decorators.http import require_GET, require_POST
 from allocation import audit, services
 from allocation import models as m
 from allocation.core import StudyInvalid
-from allocation.core.analysis.compare import FIGURES
 from allocation.core.difference import KINDS, Change, Difference
+from allocation.core.registry import FIGURES, Figure, figure_number
 from allocation.selectors import snapshots as reads
 from allocation.views.common import StudyPage, study_page
-from allocation.views.compare import DIGITS
 
 NOW = "now"
-CHANGE_WORDS = {"added": "added", "removed": "removed", "changed": "changed"}
 
 
 def _short(sha256: str | None) -> str:
@@ -182,10 +180,10 @@ def _value_text(value: Any) -> str:
     return json.dumps(value, ensure_ascii=False, separators=(", ", ": "))
 
 
-def _figure(key: str, value: float | None) -> str:
-    if value is None:
-        return "—"
-    return f"{value:,.{DIGITS.get(key, 3)}f}".replace("-", "−")
+def _spec(key: str) -> Figure:
+    """The registry's figure of a headline key; a key a snapshot kept from a figure the
+    registry no longer has is shown under its own name, to three decimals."""
+    return FIGURES.get(key) or Figure(key, key, "", 3, "lower", "")
 
 
 def _change_rows(changes: list[Change]) -> list[dict[str, Any]]:
@@ -203,17 +201,17 @@ def _change_rows(changes: list[Change]) -> list[dict[str, Any]]:
 def _headline_groups(difference: Difference) -> list[dict[str, Any]]:
     groups: dict[str, list[dict[str, Any]]] = {}
     for row in difference.headlines:
-        label, unit, lower = FIGURES.get(row.figure, (row.figure, "", True))
+        spec = _spec(row.figure)
         change = row.change
         groups.setdefault(row.plan, []).append(
             {
-                "label": label,
-                "unit": unit,
-                "before": _figure(row.figure, row.before),
-                "after": _figure(row.figure, row.after),
-                "change": "" if change is None else _signed(row.figure, change),
+                "label": spec.label,
+                "unit": spec.unit,
+                "before": figure_number(spec, row.before),
+                "after": figure_number(spec, row.after),
+                "change": "" if change is None else _signed(spec, change),
                 # A plan present in one version only has nothing to compare with.
-                "verdict": "absent" if change is None else _verdict(change, lower, row.figure),
+                "verdict": "absent" if change is None else _verdict(spec, change),
             }
         )
     return [
@@ -226,17 +224,17 @@ def _headline_groups(difference: Difference) -> list[dict[str, Any]]:
     ]
 
 
-def _signed(key: str, value: float) -> str:
-    text = _figure(key, abs(value))
-    if text.strip("0.,") == "":
+def _signed(spec: Figure, value: float) -> str:
+    """A change at the figure's precision; one that rounds to nothing reads ``±0``."""
+    if round(value, spec.decimals) == 0:
         return "±0"
-    return ("+" if value > 0 else "−") + text
+    return figure_number(spec, value, signed=True)
 
 
-def _verdict(change: float, lower_is_better: bool, key: str) -> str:
-    if _signed(key, change) == "±0":
+def _verdict(spec: Figure, change: float) -> str:
+    if _signed(spec, change) == "±0":
         return "same"
-    return "better" if (change < 0) == lower_is_better else "worse"
+    return "better" if (change < 0) == spec.lower_is_better else "worse"
 
 
 def _version(page: StudyPage, asked: str) -> reads.Version | None:

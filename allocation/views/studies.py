@@ -125,7 +125,7 @@ def study_download(request: HttpRequest, pk: int) -> HttpResponse:
 @require_GET
 @login_required
 def plan_analysis_download(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
-    """The analysis file of one plan (DESIGN §6), as ``manage.py analyse --json`` writes it."""
+    """The analysis file of one plan, as ``manage.py analyse --json`` writes it."""
     study_row = selectors.study_for_user(user=request.user, pk=pk)
     analysis = selectors.plan_analysis(study_row, plan)
     if analysis is None:

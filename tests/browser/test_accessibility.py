@@ -17,6 +17,7 @@ def pages(pk: int, plan: str) -> list[str]:
     base = f"/studies/{pk}"
     return [
         "/",
+        "/methods/",
         f"{base}/",
         f"{base}/inventory",
         f"{base}/plans/{plan}/edit",

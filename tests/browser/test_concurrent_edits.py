@@ -1,4 +1,4 @@
-"""Two people, two browser sessions, one plan-editor row (issue 8, optimistic versioning).
+"""Two people, two browser sessions, one plan-editor row (optimistic versioning).
 
 Both open the editor at the same version of the assignment of T2; the first changes its
 rationale, then the second changes it too. The second save must not overwrite the first

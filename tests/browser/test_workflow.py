@@ -24,9 +24,9 @@ def add(page, kind: str, button: str, values: dict[str, str], selects: dict[str,
     expect(page.locator(f"#editor-{kind} form")).to_have_count(0)
 
 
-def headline_seconds(page) -> int:
-    text = page.locator("#plan-headline dd").first.inner_text()
-    return int(text.split()[0])
+def headline_person_time(page) -> str:
+    """The plan's person time as the headline writes it (the registry's words)."""
+    return page.locator("#plan-headline dd").first.inner_text()
 
 
 def set_row(page, task: str, **choices: str) -> None:
@@ -108,8 +108,9 @@ def test_build_allocate_change_compare_export(signed_in):
     page.wait_for_url("**/plans/carer-only/edit")
     for task in ("T1", "T2"):
         set_row(page, task, human="carer", who="person")
-    # Hand check: 2 a night x (5 s + 300 s) = 610 s a day for the carer.
-    assert headline_seconds(page) == 610
+    # Hand check: 2 a night x (5 s + 300 s) = 610 s a day for the carer, 10.17 min: three
+    # significant digits in the largest unit that reads well.
+    assert headline_person_time(page) == "10.2 min a day"
 
     # A second plan: the monitor notices; the carer's time falls by 2 x 5 s.
     page.click("text=New plan or copy")
@@ -119,7 +120,7 @@ def test_build_allocate_change_compare_export(signed_in):
     page.wait_for_url("**/plans/monitor-notices/edit")
     expect(page.locator(".plan-picker a.active")).to_have_text("Monitor notices")
     set_row(page, "T1", automation="monitor", who="device")
-    assert headline_seconds(page) == 600
+    assert headline_person_time(page) == "10 min a day"  # 600 s
     assert page.javascript_errors == []
 
     # Compare the two plans.

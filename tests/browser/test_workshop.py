@@ -47,7 +47,7 @@ def test_workshop_comment_decide_and_move_on(signed_in):
     page.locator("body").press("ArrowRight")
     expect(page).to_have_url(re.compile(r"/workshop\?item=2$"))
     expect(item.locator(".progress")).to_contain_text("Item 2 of 6")
-    expect(item.locator("h1")).to_contain_text("accountability")
+    expect(item.locator("h1")).to_contain_text("Accountable without holding the task")
     page.click("text=← Previous")
     expect(item.locator(".progress")).to_contain_text("Item 1 of 6")
     expect(item.locator(".thread")).to_contain_text("Does the display say <hold>?")

@@ -8,7 +8,7 @@ from typing import Any
 
 import pytest
 
-#: The home-heating study of DESIGN §5: valid, with no errors and no warnings.
+#: The home-heating test study (invented): valid, with no errors and no warnings.
 #: Paths used by the tests: tasks[0] G1 (a goal), tasks[1] T1, tasks[2] T2 (leaves);
 #: agents[0] resident (human), agents[1] thermostat (automation); events[0] leave;
 #: links[0] T1 -> T2; plans[0] manual, plans[1] auto with modes schedule and hold.

@@ -226,8 +226,9 @@ def test_sha256_matches_the_fips_check_value():
 def test_study_text_is_the_canonical_json_of_its_study_file():
     study = read_study(copy.deepcopy(HOME_HEATING))
     text = canonical_text(study)
-    # The design's example file is written back unchanged by the core (DESIGN §5), so
-    # its canonical text can be made from the file directly.
+    # The home-heating test file is written back unchanged by the core (import then export
+    # is lossless, test_roundtrip.py), so its canonical text can be made from the file
+    # directly.
     assert text == canonical_json(HOME_HEATING)
     assert json.loads(text) == study_to_json(study)
     assert study_digest(study) == digest(text)

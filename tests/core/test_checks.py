@@ -1,7 +1,7 @@
 """Cross-reference checks of a study (allocation.core.checks), through ``load_study``.
 
-Each test starts from the valid home-heating study of DESIGN §5 (the ``make_study``
-fixture), changes one thing, and asserts the exact JSON path and part of the message.
+Each test starts from the valid home-heating test study (the ``make_study`` fixture),
+changes one thing, and asserts the exact JSON path and part of the message.
 Expected paths, messages and cycles are worked out by hand from the changed study.
 """
 

@@ -1,6 +1,6 @@
 """Differences between two study files (allocation.core.difference), on hand-made pairs:
-each pair changes one thing of the design's home-heating study (DESIGN §5), and the
-expected changes are written out by hand."""
+each pair changes one thing of the home-heating test study (``tests/core/conftest.py``),
+and the expected changes are written out by hand."""
 
 from __future__ import annotations
 

@@ -1,6 +1,6 @@
 """Fuzzing the study-file reader: arbitrary JSON and mutated valid study files.
 
-The property is the reader's contract (allocation/core/FORMAT.md, DESIGN §2): reading
+The property is the reader's contract (allocation/core/FORMAT.md): reading
 never raises for bad input, every problem names a JSON path into the file, and a file
 that reads without errors writes back to a file that reads again to the same study
 (the round trip the import relies on). The strategies here are shared with the web
@@ -24,7 +24,7 @@ from tests.core.conftest import HOME_HEATING
 #: Inputs tried per target; tests/web/test_fuzz.py prints them when the session ends.
 TRIED: Counter[str] = Counter()
 
-#: Bounded so that the suite stays fast (issue 8: a few minutes for everything).
+#: Bounded so that the suite stays fast (a few minutes for everything).
 EXAMPLES = 150
 
 #: A path as the reader writes them: ``$``, then ``.key``, ``[index]`` or ``["odd key"]``

@@ -1,8 +1,8 @@
 """Shape checks of the study file (allocation.core.reading), through ``load_study``.
 
-Each test starts from the valid home-heating study of DESIGN §5 (the ``make_study``
-fixture), changes one thing, and asserts the exact JSON path and part of the message of
-the problem reported. The expected paths and messages are worked out by hand from
+Each test starts from the valid home-heating test study (the ``make_study`` fixture),
+changes one thing, and asserts the exact JSON path and part of the message of the problem
+reported. The expected paths and messages are worked out by hand from
 allocation/core/FORMAT.md.
 """
 

@@ -80,6 +80,16 @@ def test_numbers_take_the_figures_decimals_and_unit():
     assert figure_number("modularity", -0.2) == "−0.200"
 
 
+def test_a_rare_figure_never_reads_as_none():
+    # Once a year: 1/365 = 0.00274 a day, which two decimals would write 0.00; two
+    # significant digits keep it, written out in full (never as 1e-07).
+    assert figure_text("occurrences_per_day", 1 / 365) == "0.0027 a day"
+    assert figure_number("handovers_per_day", 1e-7) == "0.0000001"
+    assert figure_number("modularity", -0.00042) == "−0.00042"
+    # Zero is zero at the figure's precision.
+    assert figure_number("occurrences_per_day", 0) == "0.00"
+
+
 def test_differences_carry_their_sign_and_never_read_as_none():
     assert figure_number("interruptions_per_day", 1.5, signed=True) == "+1.50"
     assert figure_number("interruptions_per_day", 0, signed=True) == "±0"

@@ -1,4 +1,4 @@
-"""Import then export is lossless (DESIGN §5): ``study_to_json(read_study(x)) == x``.
+"""Import then export is lossless: ``study_to_json(read_study(x)) == x``.
 
 A hypothesis strategy builds valid study files of both scales, with every optional key
 present or absent at random; each must read without errors (warnings are allowed) and

@@ -1,4 +1,5 @@
-"""The day simulation (allocation.core.simulation; DESIGN §3.2, §3.3, §3.10).
+"""The day simulation (allocation.core.simulation; methods document, #timeline and
+#simulation).
 
 Checked against things outside the code: scipy.stats for the Poisson counts and the
 triangular durations, hand-worked timelines for occupancy and channel sums, hand-worked

@@ -1,5 +1,6 @@
-"""NASA-TLX scores (Hart & Staveland 1988): the check value of REFERENCES.md, the
-messages for bad ratings and comparisons, and properties that hold for every input.
+"""NASA-TLX scores (Hart & Staveland 1988): a worked check of the published weighted and
+raw formulas, the messages for bad ratings and comparisons, and properties that hold for
+every input.
 
 The tally check (Landau 1953) is compared with a brute-force enumeration of all 2^15
 ways to answer the 15 pairs.
@@ -24,13 +25,15 @@ from allocation.core.tlx import (
     weighted_tlx,
 )
 
-# REFERENCES.md, Hart & Staveland (1988), worked check (constructed, not from a source):
-# ratings 70, 20, 60, 40, 65, 30 with weights 5, 0, 3, 2, 4, 1 -> weighted 60.0, raw 47.5.
+# Worked by hand (constructed, not a published example) from the weighted score of Hart &
+# Staveland (1988), sum of weight x rating / 15, and the raw score of Byers, Bittner & Hill
+# (1989), the mean: ratings 70, 20, 60, 40, 65, 30 with weights 5, 0, 3, 2, 4, 1 ->
+# weighted 60.0, raw 47.5.
 CHECK_RATINGS = dict(zip(SUBSCALES, (70, 20, 60, 40, 65, 30), strict=True))
 CHECK_TALLIES = dict(zip(SUBSCALES, (5, 0, 3, 2, 4, 1), strict=True))
 
 
-def test_the_references_check_value():
+def test_the_hand_worked_check_value():
     """Weighted 60.0 = (350 + 0 + 180 + 80 + 260 + 30) / 15; raw 47.5 = 285 / 6."""
     result = tlx_score(CHECK_RATINGS, CHECK_TALLIES)
     assert result.weighted == pytest.approx(60.0)

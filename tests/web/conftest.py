@@ -14,7 +14,7 @@ from tests.core.conftest import HOME_HEATING
 
 @pytest.fixture
 def heating_document() -> dict:
-    """The design's home-heating study file (DESIGN §5), a fresh copy per test."""
+    """The home-heating test study file (tests/core/conftest.py), a fresh copy per test."""
     return copy.deepcopy(HOME_HEATING)
 
 

@@ -1,9 +1,9 @@
-"""The audit trail (issue 7, item 4): a change from every entry point is recorded with
+"""The audit trail: a change from every entry point is recorded with
 its user and source, with its values before and after; the History page filters, pages
 and exports it; entries are never changed.
 
-The expected before/after values are the home-heating study file of DESIGN §5 (the
-fixture), edited by hand: only the parts that differ are kept.
+The expected before/after values are the home-heating test study file (the fixture),
+edited by hand: only the parts that differ are kept.
 """
 
 from __future__ import annotations
@@ -68,7 +68,7 @@ def test_an_upload_is_recorded_as_import(client, owner, heating_document):
     (entry,) = entries(study)
     assert (entry.action, entry.source, entry.username) == ("study.import", "import", "olive")
     assert entry.target == "study home-heating"
-    # The whole study file is the "after" of an import (DESIGN §5 form).
+    # The whole study file is the "after" of an import (the study file's own form).
     assert entry.before is None and entry.after == selectors.study_document(study)
 
 

@@ -1,4 +1,4 @@
-"""Backup and restore (issue 8, part 6): ``manage.py backup``, ``backup --verify`` and
+"""Backup and restore: ``manage.py backup``, ``backup --verify`` and
 ``restore``.
 
 The references are outside the backup code: every model's rows as the ORM reads them

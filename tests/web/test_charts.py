@@ -1,6 +1,6 @@
 """Figure data from a plan's analysis, checked against values worked by hand.
 
-The home-heating study of DESIGN §5 (``tests.core.conftest.HOME_HEATING``), worked by hand
+The home-heating test study (``tests.core.conftest.HOME_HEATING``), worked by hand
 with Baton's defaults (``allocation.core.assumptions``):
 
 - plan ``manual``: the resident does T1 (typical 5 s) and T2 (typical 10 s), each once a

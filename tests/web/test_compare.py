@@ -1,6 +1,8 @@
-"""The compare screen (DESIGN §3.11, §4): full page, htmx fragments, and the weight form.
+"""The compare screen (methods document, #comparison): full page, htmx fragments, and
+the weight form.
 
-Expected values are worked by hand from DESIGN §3.1 on the design's home-heating study
+Expected values are worked by hand from the methods document (#person-time) on the
+home-heating test study
 (see tests/core/analysis/test_compare.py for the arithmetic): manual 15 person s/day,
 auto 52/3 = 17.33 (+2.33); task T2 +22/3 = +7.3, T1 −5.0. The objective with the
 default weights (tool assumption ``objective_weights``): auto is the worse plan in burden
@@ -76,7 +78,8 @@ def test_full_page_compares_all_plans_by_default(client, study, owner):
     # tests/core/analysis/test_compare.py) appear.
     assert "2 appear, 0 go, 0 in both." in page
     assert "5 appear, 1 go, 0 in both." in page
-    assert "accountability" in page and "capability" in page
+    # Finding kinds in the registry's words.
+    assert "Accountable without holding the task" in page and "Capability missing" in page
     # Objective: manual 0, auto 5 (hand-worked in tests/core/analysis/test_compare.py).
     assert ranking_rows(page) == [("manual", "0.000"), ("auto", "5.000")]
     assert '<script id="compare-contributions" type="application/json">' in page

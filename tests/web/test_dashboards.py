@@ -1,7 +1,8 @@
 """A plan's dashboards: full page, htmx fragments, show-all, a study with errors.
 
-Figures checked are worked by hand in ``tests/web/test_charts.py`` (home-heating study,
-DESIGN §5): in plan "auto" the resident spends 52/3 s a day (shown as 17.3 s).
+Figures checked are worked by hand in ``tests/web/test_charts.py`` (the home-heating
+study of ``tests/core/conftest.py``): in plan "auto" the resident spends 52/3 s a day
+(shown as 17.3 s).
 """
 
 from __future__ import annotations
@@ -136,7 +137,8 @@ def test_study_own_policy_is_named_not_called_an_example(client, study, owner):
     client.force_login(owner)
     page = client.get(dashboard(study)).content.decode()
     assert "study's own risk policy" in page and "example risk policy" not in page
-    assert "review (risk 4 or more)" in page
+    # The band in the registry's words.
+    assert "Review (risk 4 or more)" in page
 
 
 def test_user_text_is_escaped_in_tables_and_chart_data(client, owner, heating_document):
@@ -177,7 +179,7 @@ def test_tasks_link_to_their_plan_editor_row_and_goals_to_the_study_page(client,
     client.force_login(owner)
     page = client.get(dashboard(study)).content.decode()
     findings = page.split('id="findings"', 1)[1].split("</section>", 1)[0]
-    assert "accountability" in findings
+    assert "Accountable without holding the task" in findings
     assert f'href="{reverse("plan-editor", args=[study.pk, "auto"])}#row-T2"' in findings
     goals = page.split('id="goals"', 1)[1].split("</section>", 1)[0]
     assert f'href="{reverse("study-detail", args=[study.pk])}#tasks"><code>G1</code>' in goals

@@ -1,7 +1,7 @@
 """Exports of a plan: the allocation table (CSV, XLSX), the report (HTML, PDF), the study
 file from a snapshot, the download views and ``export_study --format``.
 
-Hand-worked values: under the plan "manual" of the home-heating study (DESIGN §5) the
+Hand-worked values: under the plan "manual" of the home-heating test study the
 resident does T1 (typical 5 s) and T2 (typical 10 s) once a day (the "leave" event at
 08:15, T2 follows T1 with probability 1), so person time is 5 s and 10 s a day and every
 stage degree is 0. Under "auto", T2 is shared at level 7 on the ten-level scale, so each
@@ -221,9 +221,27 @@ def test_xlsx_sheets_about_and_allocation_read_back_equal_the_table(auto):
     assert links.loc[0, "lag_s"] == "[0,60]" and links.loc[0, "kind"] == "precedes"
     assert len(workbook["handovers"]) == len(auto.analysis.handovers)
     assert len(workbook["findings"]) == len(auto.analysis.findings)
+    # A finding's kind is kept as a key and put in the registry's words beside it (in plan
+    # "auto" the resident is accountable for T2, which the thermostat holds).
+    findings = workbook["findings"]
+    words = dict(zip(findings["kind"], findings["kind_words"], strict=True))
+    assert words["accountability"] == "Accountable without holding the task"
+    assert words["ambiguous_indication"] == "Modes that look alike"
     assert len(workbook["workload"]) == 0
     assert "monitoring_s" in set(workbook["assumptions"]["key"])
-    assert "Handovers" in set(workbook["methods"]["name"])
+    # The methods sheet names each figure column with the registry's label, unit and the
+    # anchor of its section of the methods document; every column it names exists.
+    methods = workbook["methods"]
+    person = methods[methods["columns"] == "person_s_per_day"].iloc[0]
+    assert (person["sheet"], person["name"], person["unit"], person["method"]) == (
+        "allocation",
+        "Person time on the task",
+        "s a day",
+        "person-time",
+    )
+    assert "Likelihood index" in set(methods["name"])
+    for sheet, columns in zip(methods["sheet"], methods["columns"], strict=True):
+        assert set(columns.split(", ")) <= set(workbook[sheet].columns), (sheet, columns)
     cautions = pd.read_excel(io.BytesIO(data), sheet_name="cautions", header=None)
     assert cautions.shape == (1, 1) and cautions.iloc[0, 0] == CAUTIONS
 

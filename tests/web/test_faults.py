@@ -1,4 +1,4 @@
-"""Faults (issue 8): the database going away mid-request, an import killed mid-write, a
+"""Faults: the database going away mid-request, an import killed mid-write, a
 simulation whose worker died, and SQLite in WAL mode with a busy timeout.
 
 The references are outside the code under test: the database's own rows, read before and

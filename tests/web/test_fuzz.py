@@ -1,7 +1,7 @@
-"""Bad input, fuzzed (issue 8, part 3): the study upload, the spreadsheet import and
+"""Bad input, fuzzed: the study upload, the spreadsheet import and
 every form, through Django's test client as a signed-in owner.
 
-The properties are the project's rules (common brief, DESIGN §7): no input gives a
+The properties are the project's rules for bad input: no input gives a
 server error (the test client re-raises any exception a view lets through); every
 rejection is a message saying where the problem is (a JSON path for study files; sheet,
 row and column for spreadsheets; the field for forms); and a rejected input leaves the
@@ -47,7 +47,7 @@ from tests.web.test_spreadsheets import (
     good_workbook,
 )
 
-#: Bounded per target so the whole suite stays within a few minutes (issue 8);
+#: Bounded per target so the whole suite stays within a few minutes;
 #: BATON_FUZZ_SCALE=4 (say) multiplies them for a longer hunt.
 SCALE = float(os.environ.get("BATON_FUZZ_SCALE", "1"))
 UPLOAD_EXAMPLES = max(1, int(120 * SCALE))

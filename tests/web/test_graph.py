@@ -2,7 +2,7 @@
 data, and a task's details panel (as a fragment and as a page).
 
 The expected categories, holders and handovers are worked by hand from the study in
-:func:`graph_document` and DESIGN §2-§3 (category from the stage degrees; principal holder
+:func:`graph_document` and the methods document (category from the stage degrees; principal holder
 the automation when its stage-weighted degree is above 0.5; a link handover where the two
 tasks' principal holders differ).
 """
@@ -198,7 +198,7 @@ def test_node_colours_are_the_categories_under_the_plan(
             category = CATEGORY_BY_KEY[trace["meta"]]
             assert trace["marker"]["color"] == category.colour
             assert trace["marker"]["symbol"] == category.symbol
-    # The analysis file of DESIGN §6 agrees on every applicable task.
+    # The analysis file agrees on every applicable task.
     analysis = client.get(reverse("plan-analysis-download", args=[graph_study.pk, plan])).json()
     for task, category in expected.items():
         if category in ("person", "device", "shared"):
@@ -241,7 +241,8 @@ def test_handover_links_are_drawn_thick_in_the_accent(client, graph_study, owner
     by_target = {h.site.to_task: h for h in analysis.handovers if h.site.source == "link"}
     for target, hover in zip(markers["customdata"], markers["hovertext"], strict=True):
         handover = by_target[target]
-        assert f"risk {handover.risk} ({handover.band})" in hover
+        # The registry's words: "risk score", the band's label.
+        assert f"risk score {handover.risk} ({handover.band})" in hover
     assert "Thermostat → Resident" in markers["hovertext"][0]
 
 
@@ -256,7 +257,7 @@ def test_hover_text_names_the_task_holder_and_rate(client, graph_study, owner):
     }
     assert hovers["T4"].startswith("<b>T4</b> Log the pressure")
     assert "held by: Thermostat" in hovers["T4"]
-    assert "occurrences: 1 a day" in hovers["T4"]  # per_day 1, hand-worked
+    assert "occurrences: 1.00 a day" in hovers["T4"]  # per_day 1, hand-worked
     # The goal's title was typed as "Keep the boiler <b>safe</b>": escaped, not markup.
     assert "goal: G2 Keep the boiler &lt;b&gt;safe&lt;/b&gt;" in hovers["T4"]
 
@@ -364,9 +365,9 @@ def test_details_page_shows_the_task_under_the_plan(client, study, owner):
         "executes automatically, then necessarily informs the human",  # sv10 level 7
         "0.67",
         "Mode awareness",
-        "Index <strong>",
-        "automation of decision and action",
-        "mode change",  # the hold mode hands T2 to the resident
+        "Mode-awareness index <strong>",  # the registry's label
+        "Automation of decision and action",
+        "Mode change",  # the hold mode hands T2 to the resident
         "Back to the graph",
         CAUTIONS[:60],
     ):
@@ -375,7 +376,8 @@ def test_details_page_shows_the_task_under_the_plan(client, study, owner):
     analysis_json = client.get(reverse("plan-analysis-download", args=[study.pk, "auto"])).json()
     awareness = analysis_json["tasks"]["T2"]["awareness"]
     assert details["awareness"].index == pytest.approx(awareness)
-    assert f"Index <strong>{awareness:.2f}</strong>" in page
+    # At the registry's precision for the index (three decimals).
+    assert f"Mode-awareness index <strong>{awareness:.3f}</strong>" in page
     assert [row["stage"] for row in details["levels"]] == [
         "Information acquisition",
         "Information analysis",

@@ -1,7 +1,7 @@
 """The mode-map screens: the diagram, the findings with their step-through, and the
 editor of modes, overrides and transitions.
 
-The study is the design's home-heating example (DESIGN §5): in plan ``auto`` the
+The study is the home-heating test study (tests/core/conftest.py): in plan ``auto`` the
 thermostat follows its schedule until the resident turns the dial (mode ``hold``, where
 the resident holds T2); the next period returns to the schedule with no cue. Worked by
 hand from the composition rules (Degani & Heymann 2002, as ``modecheck`` states them):

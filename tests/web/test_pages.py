@@ -127,7 +127,8 @@ def test_htmx_is_served_locally_not_from_a_cdn(client, db):
 def test_study_page_shows_each_plans_headline_figures(client, study, owner):
     client.force_login(owner)
     page = client.get(reverse("study-detail", args=[study.pk])).content.decode()
-    assert "Person time / day" in page and "analysis file" in page
+    # The registry's label with the column's unit.
+    assert 'Person time <span class="unit">a day</span>' in page and "analysis file" in page
     assert reverse("plan-analysis-download", args=[study.pk, "auto"]) in page
 
 

@@ -7,6 +7,7 @@ from django.urls import reverse
 from allocation import models as m
 from allocation import selectors
 from allocation.core.analysis import analyse_plan
+from allocation.core.registry import figure_text
 
 
 def editor(pk: int, plan: str = "manual") -> str:
@@ -40,7 +41,7 @@ def test_row_save_answers_the_row_and_the_headline_out_of_band(client, study, ow
     stored = selectors.study_document(study)["plans"][0]["assignments"]["T2"]
     assert stored == {"human": "resident", "automation": "thermostat", "levels": 7}
     result = analyse_plan(selectors.study_load(study).study, "manual")
-    assert f"{result.headline()['burden_s_per_day']:.0f} s/day" in fragment
+    assert figure_text("burden_s_per_day", result.headline()["burden_s_per_day"]) in fragment
 
 
 def test_row_with_a_missing_device_keeps_the_choices_and_saves_nothing(client, study, owner):

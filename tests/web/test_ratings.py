@@ -1,10 +1,11 @@
 """The workload ratings screen: recording NASA-TLX ratings by role, the scores stored
-(the check value of REFERENCES.md, Hart & Staveland 1988), the messages for bad input,
+(a hand-worked check of Hart & Staveland's 1988 formula), the messages for bad input,
 the audit entries, and the ratings shown beside Baton's predicted figures.
 
 Predicted figures are checked against hand-worked values of the home-heating study
-(DESIGN §5): under plan "manual" the resident does T1 and T2 by hand, so the person time
-per occurrence is the whole typical duration (DESIGN §3.1): 5 s for T1, 10 s for T2.
+(tests/core/conftest.py): under plan "manual" the resident does T1 and T2 by hand, so the
+person time per occurrence is the whole typical duration (Methods, #person-time): 5 s
+for T1, 10 s for T2.
 """
 
 from __future__ import annotations
@@ -22,8 +23,10 @@ from allocation.core.tlx import PAIRS, SUBSCALES
 HTMX = {"HTTP_HX_REQUEST": "true"}
 IMMEDIATE = {"default": {"BACKEND": "django_tasks.backends.immediate.ImmediateBackend"}}
 
-# REFERENCES.md, Hart & Staveland (1988), worked check (constructed, not from a source):
-# ratings 70, 20, 60, 40, 65, 30 with weights 5, 0, 3, 2, 4, 1 -> weighted 60.0, raw 47.5.
+# Worked by hand (constructed, not a published example) from the weighted score of Hart &
+# Staveland (1988), sum of weight x rating / 15, and the raw score of Byers, Bittner & Hill
+# (1989), the mean: ratings 70, 20, 60, 40, 65, 30 with weights 5, 0, 3, 2, 4, 1 ->
+# weighted (350 + 0 + 180 + 80 + 260 + 30) / 15 = 60.0, raw 285 / 6 = 47.5.
 CHECK_RATINGS = dict(zip(SUBSCALES, (70, 20, 60, 40, 65, 30), strict=True))
 CHECK_TALLIES = dict(zip(SUBSCALES, (5, 0, 3, 2, 4, 1), strict=True))
 # Choosing, in each pair, the subscale with the larger tally gives exactly those tallies.
@@ -106,13 +109,13 @@ def test_a_reviewer_records_a_weighted_rating_from_the_fifteen_pairs(as_role, st
     assert response.status_code == 302
     assert response["Location"] == page_url(study) + "#ratings-T2"
     rating = m.WorkloadRating.objects.get()
-    assert rating.score == pytest.approx(60.0)  # the REFERENCES.md check value
+    assert rating.score == pytest.approx(60.0)  # the hand-worked check value above
     assert rating.weights == CHECK_TALLIES and rating.ratings == CHECK_RATINGS
     assert (rating.plan_key, rating.task_key, rating.participant) == ("manual", "T2", "P01")
     entry = m.AuditEntry.objects.get(action="rating.record")
     assert entry.target == "plan manual / task T2" and entry.after["score"] == 60.0
     page = client.get(response["Location"]).content.decode()
-    assert "Recorded P01&#x27;s ratings of T2: weighted TLX 60.0." in page
+    assert "Recorded P01&#x27;s ratings of T2: Weighted TLX 60.0." in page
     t2 = page.split('<tr id="compare-T2"')[1].split("</tr>")[0]
     # The rating beside the prediction: mean 60.0, raw 47.5, predicted 10 s.
     assert "<strong>60.0</strong>" in t2 and "47.5" in t2 and "10 s" in t2
@@ -206,7 +209,7 @@ def test_recording_through_htmx_answers_with_the_region(as_role, study):
     page = response.content.decode()
     assert response.status_code == 200
     assert page.startswith('<div id="ratings"') and "<html" not in page
-    assert "weighted TLX 60.0" in page
+    assert "Weighted TLX 60.0" in page
     bad = client.post(record_url(study, "auto"), form_data(physical="x"), **HTMX)
     assert bad.status_code == 200 and "Enter a number." in bad.content.decode()
 
@@ -275,7 +278,8 @@ def test_simulated_channel_peaks_from_a_finished_run(as_role, study, owner, sett
     page = client.get(page_url(study)).content.decode()
     assert "From the simulation of 3 days with seed 2" in page
     peak = run.result["summary"]["people"]["resident"]["peak_visual"]
-    assert f"{peak['mean']:.2f} · {peak['p95']:.2f}" in page
+    # At the registry's precision for a peak demand (one decimal).
+    assert f"{peak['mean']:.1f} · {peak['p95']:.1f}" in page
 
 
 def test_the_service_checks_the_role_itself(study, member_of):

@@ -1,19 +1,19 @@
-"""Comments, decisions and the workshop view (issue 7, item 3).
+"""Comments, decisions and the workshop view.
 
-The expected open items are worked by hand from the home-heating study of DESIGN §5
+The expected open items are worked by hand from the home-heating test study
 (tests/core/conftest.py):
 
 - plan ``manual``: T1 and T2 have no status, no handover (the resident holds both), one
   finding: the resident does T1, which needs sensing, without that capability
   (Feigh & Pritchett 2014, requirement 1). One open item.
 - plan ``auto``: T2 is ``proposed``; its two handovers are mode changes of T2 with
-  severity 2 (DESIGN §3.6: risk = severity x likelihood band): schedule -> hold has a
+  severity 2 (Methods, #handover-risk: risk = severity x likelihood band): schedule -> hold has a
   likelihood of 0.46, band 3 of the example policy's bands (0.2, 0.4, 0.6, 0.8), risk 6;
   hold -> schedule 0.34, band 2, risk 4; both below the example policy's review
   threshold of 10, so neither is open. Five findings: accountability, ambiguous
   indication, error state, uncued change, unforeseen transition. Six open items.
 - T2's person time under ``auto``: level 7 on every stage gives d = (7 - 1) / 9 = 2/3
-  (Parasuraman et al. 2000 levels, DESIGN §3.1), so 10 s x 1/3 + 4 s supervision at
+  (Parasuraman et al. 2000 levels; Methods, #person-time), so 10 s x 1/3 + 4 s supervision at
   level 7 + 10 s monitoring (the accountable resident does not hold it; Pritchett, Kim
   & Feigh 2014) = 17.33 s per occurrence, once a day.
 """
@@ -75,7 +75,8 @@ def test_a_handover_in_the_review_band_is_open(owner, heating_document):
     handovers = [item for item in items if item.kind == "handover"]
     assert [item.key for item in handovers] == ["T2>T2@schedule>hold"]
     assert handovers[0].reasons == ["review band"]
-    assert ("Risk", "6 (review)") in handovers[0].facts
+    # The registry's label and band words.
+    assert ("Risk score", "6 (Review)") in handovers[0].facts
 
 
 def test_assignment_item_shows_who_level_words_and_figures(study):
@@ -84,9 +85,10 @@ def test_assignment_item_shows_who_level_words_and_figures(study):
     assert facts["Who"] == "Resident with Thermostat"
     # Sheridan & Verplank (1978) level 7, as Parasuraman et al. (2000) Table I words it.
     assert facts["Level"] == "level 7: executes automatically, then necessarily informs the human"
-    assert facts["Person time"].startswith("17.3 s/day")
-    assert facts["Status"] == "proposed"
-    assert facts["Handovers"] == "2"
+    # Figures and the status in the registry's words (17.33 s reads 17.3 s).
+    assert facts["Person time on the task"] == "17.3 s a day"
+    assert facts["Status"] == "Proposed"
+    assert facts["Handover points"] == "2"
     assert item.message == "Set-back saves energy without effort."
 
 
@@ -412,18 +414,19 @@ def test_workshop_walks_the_open_items_one_by_one(client, study):
     base = url("plan-workshop", study)
     first = client.get(base).content.decode()
     assert "Item <strong>1</strong> of <strong>6</strong>" in first
-    assert "T2 Lower the set point" in first and "17.3 s/day" in first
+    assert "T2 Lower the set point" in first and "17.3 s a day" in first
     assert f'rel="next" href="{base}?item=2"' in first and 'rel="prev"' not in first
     second = client.get(base + "?item=2").content.decode()
     assert "Item <strong>2</strong> of <strong>6</strong>" in second
-    assert "Finding: accountability (T2)" in second and "they must monitor it" in second
+    assert "Finding: Accountable without holding the task (T2)" in second
+    assert "they must monitor it" in second
     assert f'rel="prev" href="{base}?item=1"' in second
     last = client.get(base + "?item=99").content.decode()  # past the end: the last item
     assert "Item <strong>6</strong> of <strong>6</strong>" in last
-    assert "unforeseen transition" in last and 'rel="next"' not in last
+    assert "Change the person cannot follow" in last and 'rel="next"' not in last
     fragment = client.get(base + "?item=4", headers={"HX-Request": "true"}).content.decode()
     assert fragment.lstrip().startswith('<section id="workshop-item"') and "<html" not in fragment
-    assert "Finding: error state (T2)" in fragment
+    assert "Finding: Person and device disagree (T2)" in fragment
 
 
 def test_workshop_decision_and_comment_stay_on_the_item(client, study, member_of):

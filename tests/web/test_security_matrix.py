@@ -33,7 +33,7 @@ V, R, E = m.Role.VIEWER, m.Role.REVIEWER, m.Role.EDITOR
 
 #: Every study URL: the lowest role that may GET it and that may POST to it (None: the
 #: URL does not take the method, 405). Simulation runs are computations on the stored
-#: study, not changes to it, so any member may ask for one (issue 6).
+#: study, not changes to it, so any member may ask for one.
 STUDY_RULES: dict[str, tuple[str | None, str | None]] = {
     "study-detail": (V, None),
     "study-download": (V, None),
@@ -104,6 +104,7 @@ OK = "ok"  # accepted: not 403, 404, 405 nor a server error
 #: Only staff may use the admin, and no study role makes anyone staff.
 OTHER_RULES: dict[str, dict[str, tuple[object, object]]] = {
     "study-list": {"anonymous": (LOGIN, 405), "signed-in": (200, 405)},
+    "methods": {"anonymous": (LOGIN, 405), "signed-in": (200, 405)},
     "study-upload": {"anonymous": (405, LOGIN), "signed-in": (405, OK)},
     "study-new": {"anonymous": (405, LOGIN), "signed-in": (405, OK)},
     "login": {"anonymous": (200, 200), "signed-in": (200, 200)},

@@ -1,5 +1,6 @@
 """Simulation runs in the background: requests, reuse, chunks, cancelling, study changes,
-the database worker, the ``simulate`` command and ``start``'s worker (DESIGN §3.10).
+the database worker, the ``simulate`` command and ``start``'s worker (methods document,
+#simulation).
 
 The reference for every stored result is the core's own one-process run,
 ``simulate(study, plan, days=N, seed=S)``: a run spread over chunks, tasks and workers
@@ -499,7 +500,8 @@ def test_simulate_prints_a_table_per_person_and_the_chains(heating_document, tmp
     assert "30 simulated days, seed 4" in output
     assert "Resident (per day)" in output
     row = next(line for line in output.splitlines() if line.startswith("Person time, s a day"))
-    assert row.split()[-3:] == [f"{burden[k]:.0f}" for k in ("mean", "p50", "p95")]
+    # At the registry's precision for person time (one decimal, thousands grouped).
+    assert row.split()[-3:] == [f"{burden[k]:,.1f}" for k in ("mean", "p50", "p95")]
     assert "Leave home" in output and "missed" in output
     words = " ".join(output.split())  # the method note and cautions are wrapped
     assert "Cautions: Baton supports human-factors analysis" in words

@@ -2,7 +2,7 @@
 
 The files are made here, cell by cell, in the layout the exports write (allocation.exports;
 its writers are used only in the round trips); what each should do to the home-heating
-study of DESIGN §5 is worked out by hand in each test and compared with what the
+test study (tests/core/conftest.py) is worked out by hand in each test and compared with what the
 database holds afterwards.
 """
 
@@ -544,7 +544,7 @@ def test_applying_is_audited_with_the_changes_before_and_after(client, study, ed
     assert entry.after["file"]["name"] == "g.xlsx" and len(entry.after["file"]["sha256"]) == 64
 
 
-#: T2 of the home-heating study (DESIGN §5), as stored before the import.
+#: T2 of the home-heating test study, as stored before the import.
 HOME_T2 = {
     "id": "T2",
     "parent": "G1",

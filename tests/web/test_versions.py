@@ -1,4 +1,4 @@
-"""Optimistic versioning (issue 8): a save names the version it started from.
+"""Optimistic versioning: a save names the version it started from.
 
 The reference for every case is the lost-update anomaly as Berenson et al. (1995, "A
 critique of ANSI SQL isolation levels", phenomenon P4) describe it: two people read a

@@ -10,9 +10,9 @@ from typing import Any
 
 from ..assumptions import METHOD_NOTES, assumption_table
 from ..cautions import CAUTIONS
-from ..describe import seconds_text
 from ..methods import methods_document
 from ..model import Study
+from ..registry import CATEGORIES, FIGURES, HANDOVER_SOURCES, RISK_BANDS, figure_text, finding_kind
 from ..scales import level_text, shared_levels, single_level
 from ..vocabulary import STAGES
 from .involvement import Involvement
@@ -149,63 +149,96 @@ def _table(rows: list[list[str]]) -> list[str]:
 
 
 def text_report(result: PlanAnalysis, *, top: int = 10) -> str:
-    """A readable report of one plan's analysis, for the command line."""
+    """A readable report of one plan's analysis, for the command line, every figure named
+    and rounded by the registry."""
     study, plan = result.study, result.plan
     lines = [f"{study.title} — plan {plan.id}: {plan.name}", ""]
     lines.append("People (per day)")
-    rows = [["person", "burden", "interactions", "interruptions", "at night", "monitoring"]]
+    people = (
+        "burden_s_per_day",
+        "interactions_per_day",
+        "interruptions_per_day",
+        "night_interruptions_per_day",
+        "monitoring_s_per_day",
+    )
+    rows = [["Person", *(FIGURES[key].heading for key in people)]]
     for agent_id, person in result.people.items():
+        daily = person.to_json()
         rows.append(
             [
                 study.agents_by_id[agent_id].name,
-                seconds_text(person.burden_s_per_day),
-                f"{person.interactions_per_day:.1f}",
-                f"{person.interruptions_per_day:.1f}",
-                f"{person.night_interruptions_per_day:.2f}",
-                seconds_text(person.monitoring_s_per_day),
+                *(figure_text(key, daily[key], unit=False) for key in people),
             ]
         )
     lines += _table(rows) + [""]
     counts: dict[str, int] = {}
     for figures in result.tasks.values():
-        key = figures.involved.category if figures.involved.applies else "not applicable"
+        key = figures.involved.category if figures.involved.applies else "not_applicable"
         counts[key] = counts.get(key, 0) + 1
-    lines.append("Tasks by category: " + ", ".join(f"{k} {v}" for k, v in sorted(counts.items())))
     lines.append(
-        f"Coherence: cut ratio {result.coherence.cut_ratio:.3f}, modularity "
-        f"{result.coherence.modularity:.3f}"
+        "Tasks by category: "
+        + ", ".join(f"{CATEGORIES[key].label.lower()} {counts[key]}" for key in sorted(counts))
+    )
+    lines.append(
+        "Coherence: "
+        + ", ".join(
+            f"{FIGURES[key].label.lower()} {figure_text(key, value)}"
+            for key, value in (
+                ("cut_ratio", result.coherence.cut_ratio),
+                ("modularity", result.coherence.modularity),
+            )
+        )
     )
     if result.mode_share:
-        shares = ", ".join(f"{mode} {share:.1%}" for mode, share in result.mode_share.items())
-        lines.append(f"Share of the day in each mode: {shares}")
+        shares = ", ".join(
+            f"{mode} {figure_text('mode_share', share)}"
+            for mode, share in result.mode_share.items()
+        )
+        lines.append(f"{FIGURES['mode_share'].label}: {shares}")
     lines += [
         "",
         f"Handovers: {len(result.handovers)} (top {min(top, len(result.handovers))} by risk)",
     ]
     rows = [
-        ["source", "from", "to", "agents", "per day", "time ratio", "likelihood", "risk", "band"]
+        [
+            "Source",
+            "From",
+            "To",
+            "Agents",
+            FIGURES["handovers_per_day"].heading,
+            FIGURES["time_ratio"].heading,
+            FIGURES["likelihood"].heading,
+            FIGURES["risk"].heading,
+            "Band",
+        ]
     ]
     for handover in result.handovers[:top]:
         site = handover.site
-        ratio = "—" if handover.time_ratio is None else f"{handover.time_ratio:.2f}"
         rows.append(
             [
-                site.source,
+                HANDOVER_SOURCES[site.source].label,
                 site.from_task,
                 site.to_task,
                 f"{site.from_agent} -> {site.to_agent}",
-                f"{site.per_day:.2f}",
-                ratio,
-                f"{handover.likelihood:.2f}",
-                str(handover.risk),
-                handover.band,
+                figure_text("handovers_per_day", site.per_day, unit=False),
+                figure_text("time_ratio", handover.time_ratio),
+                figure_text("likelihood", handover.likelihood),
+                figure_text("risk", handover.risk),
+                RISK_BANDS[handover.band].label,
             ]
         )
     lines += _table(rows) + [""]
-    lines.append(f"Findings: {len(result.findings)}")
+    lines.append(f"{FIGURES['findings'].label}: {len(result.findings)}")
     for finding in result.findings[:top]:
-        lines.append(f"  [{finding.kind}, severity {finding.severity}] {finding.message}")
+        kind = finding_kind(finding.kind).label
+        lines.append(f"  [{kind}, severity {finding.severity}] {finding.message}")
     if result.policy.get("is_example"):
         lines += ["", f"Risk policy: {result.policy['note']}"]
-    lines += ["", "Cautions: " + CAUTIONS]
+    lines += [
+        "",
+        "Methods: Baton's methods document (the Methods page), sections #daily-figures, "
+        "#handovers, #coherence and #findings.",
+        "",
+    ]
+    lines += ["Cautions: " + CAUTIONS]
     return "\n".join(lines) + "\n"

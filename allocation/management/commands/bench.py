@@ -24,6 +24,7 @@ from allocation.core.analysis.modecheck import verify_mode_map
 from allocation.core.assumptions import resolve_assumptions
 from allocation.core.canonical import BATON_1, CURRENT_FORM, canonical_json, digest, verify
 from allocation.core.graph import task_graph
+from allocation.core.registry import FIGURES, figure_text
 from allocation.core.simulation import simulate
 from allocation.core.synthetic import synthetic_study
 from allocation.core.writing import study_to_json
@@ -206,7 +207,8 @@ class Command(BaseCommand):
         self.stdout.write(
             f"day simulation of {plan}: {SIMULATION_DAYS:,} days in {simulation_s:.2f} s "
             f"({simulation_s / SIMULATION_DAYS * 1000:.2f} ms a day, "
-            f"{occurrences / SIMULATION_DAYS:,.0f} person involvements a day); one analysis "
+            f"{FIGURES['interactions_per_day'].label.lower()} "
+            f"{figure_text('interactions_per_day', occurrences / SIMULATION_DAYS)}); one analysis "
             f"{analysis_s * 1000:.1f} ms"
         )
         self.stdout.write(

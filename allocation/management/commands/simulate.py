@@ -19,36 +19,40 @@ from django.core.management.base import BaseCommand, CommandError
 
 from allocation import services
 from allocation.core.cautions import CAUTIONS
-from allocation.core.simulation import CHUNK_DAYS, FIGURES, simulate
-from allocation.core.simulation import FIGURE_WORDS as SCREEN_WORDS
-from allocation.core.vocabulary import CHANNELS
+from allocation.core.methods import methods_document
+from allocation.core.registry import FIGURES as REGISTRY
+from allocation.core.registry import SIMULATED, figure_number
+from allocation.core.simulation import CHUNK_DAYS, FIGURE_WORDS, FIGURES, simulate
 
 from ._study import problem_lines, study_result_from_reference
 
-#: How each figure is shown: its words and unit (as on the screen) and a format.
-FORMATS = {
-    "burden_s": "{:.0f}",
-    "monitoring_s": "{:.0f}",
-    "interactions": "{:.2f}",
-    "interruptions": "{:.2f}",
-    "night_interruptions": "{:.2f}",
-    "peak_occupancy": "{:.2f}",
-    "overload_min": "{:.1f}",
-    **{f"peak_{c}": "{:.1f}" for c in CHANNELS},
-    **{f"overload_s_{c}": "{:.0f}" for c in CHANNELS},
-}
-FIGURE_WORDS: dict[str, tuple[str, str]] = {
-    name: (f"{label}, {unit}", FORMATS[name]) for name, (label, unit) in SCREEN_WORDS.items()
-}
+#: The sections of Baton's methods document the report's method note sums up.
+METHOD_SECTIONS = ("simulation", "occupancy", "channel-demand", "simulation-statistics")
 
-METHOD = (
-    "Method: Monte Carlo over simulated days (DESIGN §3.10): event times, Poisson rates, "
-    "triangular durations and response latencies, sampled lags and mode changes; "
-    "occupancy per bin (time-line analysis, NATO AC/243 (Panel 8) TR/7, 1992) and VACP "
-    "channel sums (McCracken & Aldrich 1984). P50 and P95 interpolate between order "
-    "statistics (Hyndman & Fan 1996, definition 7). Demands of supervision and "
-    "monitoring and the overload limits are tool assumptions (see the Assumptions page)."
-)
+
+def method_text() -> str:
+    """The method note: the summaries of :data:`METHOD_SECTIONS`, each with its anchor."""
+    document = methods_document()
+    notes = [f"[#{anchor}] {document.section(anchor).summary}" for anchor in METHOD_SECTIONS]
+    notes.append(
+        "Demands of supervision and monitoring and the overload limits are tool assumptions "
+        "(see the Assumptions page)."
+    )
+    return "Method (Baton's methods document): " + " ".join(notes)
+
+
+def _words(name: str) -> str:
+    """A figure's label and unit, as the registry gives them (``Person time, s a day``)."""
+    label, unit = FIGURE_WORDS.get(name, (name, ""))
+    return f"{label}, {unit}" if unit else label
+
+
+def _number(name: str, value: float) -> str:
+    """A figure at the registry's precision; a figure it does not know to three digits."""
+    if SIMULATED.get(name, name) in REGISTRY:
+        return figure_number(name, value)
+    return f"{value:.3g}"
+
 
 #: Runs longer than this report their progress on stderr.
 PROGRESS_AFTER_DAYS = 4 * CHUNK_DAYS
@@ -133,27 +137,27 @@ def summary_text(study: Any, summary: dict[str, Any]) -> str:
         for name in [*FIGURES, *sorted(set(figures) - set(FIGURES))]:
             if name not in figures:
                 continue
-            words, form = FIGURE_WORDS.get(name, (name, "{:.3g}"))
-            rows.append([words, *(form.format(figures[name][k]) for k in ("mean", "p50", "p95"))])
+            stats = figures[name]
+            rows.append([_words(name), *(_number(name, stats[k]) for k in ("mean", "p50", "p95"))])
         lines += _table(rows, numeric_from=1) + [""]
     chains = summary["chains"]
     if chains:
-        lines.append("Chains with a window: share of happenings missing one")
-        rows = [["chain", "happenings", "missed"]]
+        lines.append("Chains with a window: the share of their windows missed")
+        rows = [["chain", "happenings", REGISTRY["missed_share"].heading]]
         for chain in chains:
             rows.append(
                 [chain["name"] or chain["trigger"], f"{chain['happenings']:,}"]
-                + [f"{chain['missed_share']:.1%}"]
+                + [figure_number("missed_share", chain["missed_share"])]
             )
             for item in chain["tasks"]:
                 rows.append(
                     [f"  task {item['task']}", f"{item['occurrences']:,}"]
-                    + [f"{item['missed_share']:.1%}"]
+                    + [figure_number("missed_share", item["missed_share"])]
                 )
         lines += _table(rows, numeric_from=1) + [""]
     else:
         lines += ["No chain has a task with a window.", ""]
-    lines += [textwrap.fill(METHOD, 88), "", textwrap.fill("Cautions: " + CAUTIONS, 88)]
+    lines += [textwrap.fill(method_text(), 88), "", textwrap.fill("Cautions: " + CAUTIONS, 88)]
     return "\n".join(lines) + "\n"
 
 

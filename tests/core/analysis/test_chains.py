@@ -1,10 +1,11 @@
-"""Chains and deadlines (allocation.core.analysis.chains), DESIGN §3.9: earliest, typical
-and latest start and finish of each task of a chain, against its window.
+"""Chains and deadlines (allocation.core.analysis.chains; methods document,
+#chain-timing): earliest, typical and latest start and finish of each task of a chain,
+against its window.
 
-All timings are worked by hand from the rules of DESIGN §2 ("within a chain a task starts
-when all its predecessors in that chain are done, plus the link lag, plus the receiving
-agent's response latency when the work changes hands"); a lag [min, max] is typically
-its midpoint.
+All timings are worked by hand from the rules of the methods document (a task "is ready
+when all its predecessors in the chain that can occur are done, each plus its link lag
+(typical = midpoint), and starts then plus the receiving holder's response latency where
+the work changes hands").
 """
 
 from __future__ import annotations

@@ -1,11 +1,11 @@
-"""Coherence of an allocation (allocation.core.analysis.coherence), DESIGN §3.7: the
-share of link weight crossing agents, and Newman's modularity of the partition of the
-tasks by principal holder.
+"""Coherence of an allocation (allocation.core.analysis.coherence; methods document,
+#coherence): the share of link weight crossing agents, and Newman's modularity of the
+partition of the tasks by principal holder.
 
 networkx is the reference on random graphs (``networkx.community.modularity`` on a graph
 the test builds itself, summing the weights of links between the same two tasks); the
-formula Q = sum_c [L_c/m - (k_c/2m)^2] (REFERENCES.md: Newman 2006, checked) is also
-evaluated directly; the two-triangles value 5/14 is REFERENCES.md's check value.
+formula Q = sum_c [L_c/m - (k_c/2m)^2] (Newman 2006, PNAS 103(23)) is also evaluated
+directly; the two-triangles value 5/14 is worked by hand from that formula.
 """
 
 from __future__ import annotations
@@ -32,7 +32,7 @@ TRIANGLES = [
 
 
 def test_two_triangles_joined_by_one_edge():
-    """REFERENCES.md: Newman 2006 check value (checked, agrees with networkx): two
+    """Newman (2006)'s modularity, worked by hand (and agreeing with networkx): two
     triangles joined by one edge, split into the triangles, Q = 5/14.
 
     Hand-worked: m = 7; each triangle has L_c = 3 and k_c = 7, so
@@ -47,7 +47,7 @@ def test_two_triangles_joined_by_one_edge():
 
 
 def test_one_holder_has_no_modularity_and_no_cut():
-    # REFERENCES.md: Newman 2006, one community -> Q = 0 (checked).
+    # Newman (2006): one community -> Q = 1 - 1 = 0.
     holders = dict.fromkeys(("t1", "t2", "t3", "t4", "t5", "t6"), "A")
     result = coherence(holders, TRIANGLES)
     assert result.modularity == pytest.approx(0.0)
@@ -80,7 +80,7 @@ def test_no_links_means_no_modularity_and_no_cut():
 
 def newman(holders: dict[str, str], links: list[tuple[str, str, float]]) -> float:
     """Q = sum over groups c of [L_c/m - (k_c/2m)^2] on the weighted, undirected graph
-    (REFERENCES.md: Newman 2006, checked), written out from the formula."""
+    (Newman 2006, PNAS 103(23)), written out from the formula."""
     weight: dict[frozenset, float] = defaultdict(float)
     for source, target, w in links:
         if source != target and w > 0:

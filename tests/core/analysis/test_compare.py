@@ -1,9 +1,9 @@
-"""Plans side by side and the study objective (allocation.core.analysis.compare),
-DESIGN §3.11.
+"""Plans side by side and the study objective (allocation.core.analysis.compare; methods
+document, #comparison).
 
 The objective's values are worked by hand below from its definition (a weighted sum of
 min-max normalised figures: a tool assumption, so the arithmetic itself is the check).
-The burden moved on the home-heating study is worked by hand from DESIGN §3.1
+The burden moved on the home-heating study is worked by hand from Methods, #person-time
 (person_s = sum of split x duration x (1 - d) + supervision, sv10 d = (L - 1) / 9,
 supervision at level 7 = 4 s, monitoring 10 s: the tool assumptions' defaults).
 """
@@ -271,7 +271,7 @@ def heating():
 
 
 def test_home_heating_by_hand():
-    """DESIGN §5's study, manual (baseline) against auto, each task once a day.
+    """The home-heating test study, manual (baseline) against auto, each task once a day.
 
     manual: T1 human only, 5 s; T2 human only, 10 s: 15 s/day.
     auto: T1 automation only, 0 s; T2 level 7 in every stage, d = 6/9, so the resident
@@ -308,7 +308,7 @@ def test_home_heating_by_hand():
     ]
     added = [finding_key(f) for f in delta.findings_added]
     assert ("accountability", ("T2",), (), ("resident", "thermostat")) in added
-    # The auto plan's mode map (DESIGN §5): schedule and hold show the same "clock symbol"
+    # The auto plan's mode map: schedule and hold show the same "clock symbol"
     # but hold gives T2 to the resident; "next period" returns to schedule by the
     # automation with no cue. Hand-worked: one finding of each of these four kinds.
     assert sorted(key[0] for key in added if key[0] != "accountability") == [

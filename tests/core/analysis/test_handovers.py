@@ -1,8 +1,10 @@
 """Handovers (allocation.core.analysis.handovers), their risk (…analysis.risk) and the
-mode-awareness index (…analysis.awareness), DESIGN §3.4 and §3.6.
+mode-awareness index (…analysis.awareness); methods document, #awareness-index and
+#handovers.
 
 The likelihood is a weighted noisy-OR, 1 - prod(1 - w_f * f_f), worked by hand with the
-weights given in the test. The properties are those DESIGN states: a stronger cue (none,
+weights given in the test. The properties are those the methods document states: a
+stronger cue (none,
 on request, display, alert, alert needing confirmation, in that order of strength) never
 makes a handover likelier nor the person less aware; a wider window never tightens the
 time budget.
@@ -29,7 +31,7 @@ from allocation.core.analysis.risk import (
 from allocation.core.assumptions import resolve_assumptions
 from allocation.core.model import Agent, Assignment, Range, Study, Task
 
-#: DESIGN §3.4 / §5: the kinds of feedback and cue, weakest first.
+#: The kinds of feedback and cue, weakest first (methods document, #awareness-factors).
 CUES = ("none", "on_request", "display", "alert", "alert_confirm")
 DEFAULTS = resolve_assumptions({}, "sv10")
 POLICY = resolve_policy({})
@@ -144,7 +146,7 @@ def test_an_automation_receiver_is_not_cued():
 
 
 def test_the_default_policy_is_an_example_and_says_so():
-    """DESIGN §3.6: the default policy is an example only and says so (ISO 14971: the
+    """Methods, #handover-risk: the default policy is an example only and says so (ISO 14971: the
     manufacturer sets its own). The values read here are the inputs of the next tests."""
     assert POLICY["is_example"] is True
     assert "Example" in POLICY["note"] and "ISO 14971" in POLICY["note"]
@@ -208,7 +210,7 @@ def test_the_default_cue_weakness_falls_with_cue_strength():
 
 @st.composite
 def cue_pair(draw) -> tuple[str, str]:
-    """(weaker, stronger): two cues in DESIGN's order, the second at least as strong."""
+    """(weaker, stronger): two cues in that order, the second at least as strong."""
     weak = draw(st.integers(min_value=0, max_value=len(CUES) - 1))
     strong = draw(st.integers(min_value=weak, max_value=len(CUES) - 1))
     return CUES[weak], CUES[strong]
@@ -279,7 +281,8 @@ def test_a_stronger_cue_never_raises_the_awareness_index(
     base, pair, other, initiator, per_day, which
 ):
     """The same task twice, differing only in the feedback it gives or in the cue of a
-    mode change that moves it: the stronger one never scores worse (DESIGN §3.4)."""
+    mode change that moves it: the stronger one never scores worse (Methods,
+    #awareness-factors)."""
     weak, strong = pair
     if which == "feedback":
         weaker = aware_index(replace(base, feedback=weak), initiator, per_day, other)

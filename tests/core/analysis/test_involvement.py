@@ -1,15 +1,16 @@
 """Degrees, principal holder and person time of one assignment
-(allocation.core.analysis.involvement), DESIGN §3.1 and §3.5.
+(allocation.core.analysis.involvement; methods document, #person-time, #supervision and
+#monitoring).
 
-Every expected figure is hand-worked from DESIGN §3.1::
+Every expected figure is hand-worked from the methods document's formulas::
 
     person_s = sum over stages of split_s * duration * (1 - d_s) + supervision
     supervision = max(supervision_s[L_decision], supervision_s[L_action])
 
-with d = (L - 1) / 9 on sv10 and the role matrix of REFERENCES.md on ek10. The default
-supervision table is a tool assumption whose numbers DESIGN does not give; the tests read
-it from the resolved assumptions (as an input, not an expected result), and use DESIGN's
-statement that levels 1-4 and 10 cost nothing by default.
+with d = (L - 1) / 9 on sv10 and Endsley & Kaber's (1999) role matrix (from memory) on
+ek10. The default supervision table is a tool assumption; the tests read it from the
+resolved assumptions (as an input, not an expected result), and use the methods
+document's statement (#supervision) that levels 1 to 4 and 10 cost nothing by default.
 """
 
 from __future__ import annotations
@@ -90,7 +91,7 @@ def test_supervision_is_the_larger_of_the_decision_and_action_costs():
 
 def test_acquisition_and_analysis_levels_cost_no_supervision():
     """Supervision reads the decision and action levels only: here both are 1, which
-    costs nothing by default (DESIGN §3.1: levels 1-4 and 10 cost none)."""
+    costs nothing by default (Methods, #supervision: levels 1 to 4 and 10 cost none)."""
     levels = {"acquisition": 6, "analysis": 5, "decision": 1, "action": 1}
     result = involved({**SHARED, "levels": levels})
     # active = 15*(1-5/9) + 15*(1-4/9) + 15 + 15 = 6.666... + 8.333... + 30 = 45
@@ -102,7 +103,7 @@ def test_an_uneven_split_weighs_the_stages():
     """Duration typical 90 s, split 0.5/0.3/0.1/0.1, levels {10, 7, 4, 1}.
 
     active = 45*(1-1) + 27*(1-6/9) + 9*(1-3/9) + 9*(1-0) = 0 + 9 + 6 + 9 = 24 s
-    supervision = max(sup[4], sup[1]) = 0 (DESIGN §3.1: 1-4 cost none by default)
+    supervision = max(sup[4], sup[1]) = 0 (Methods, #supervision: 1 to 4 cost none by default)
     """
     split = {"acquisition": 0.5, "analysis": 0.3, "decision": 0.1, "action": 0.1}
     levels = {"acquisition": 10, "analysis": 7, "decision": 4, "action": 1}
@@ -113,7 +114,7 @@ def test_an_uneven_split_weighs_the_stages():
 
 
 def test_the_default_sv10_table_charges_levels_5_to_9_only():
-    """DESIGN §3.1: approving (5), a veto window (6), a notification (7), looking things
+    """Methods, #supervision: approving (5), a veto window (6), a notification (7), looking things
     up (8, 9) cost time; levels 1-4 and 10 cost none by default."""
     assert [SUP[str(level)] for level in (1, 2, 3, 4, 10)] == [0] * 5
     assert all(SUP[str(level)] > 0 for level in range(5, 10))
@@ -177,7 +178,7 @@ def test_a_single_number_duration_is_its_own_typical():
             {"acquisition": 0.5, "analysis": 0.3, "decision": 0.1, "action": 0.1},
             "pump",
         ),
-        # ek10 (role matrix, REFERENCES.md, memory), equal split:
+        # ek10 (Endsley & Kaber 1999 role matrix, from memory), equal split:
         # 4 -> 0.25*(0.5+0.5+0+0.5) = 0.375 human; 5 -> 0.25*(0.5+0.5+0+1) = 0.5 human;
         # 6 -> 0.25*(0.5+0.5+0.5+1) = 0.625 automation.
         ("ek10", 4, None, "pat"),
@@ -227,7 +228,7 @@ def test_sole_agents_are_principal():
     assert involved({"automation": "pump"}).principal == "pump"
 
 
-# -- monitoring by an accountable person who does not hold the task (DESIGN §3.5) ------
+# -- monitoring by an accountable person who does not hold the task (Methods, #monitoring)
 
 
 def test_an_accountable_human_monitors_when_the_automation_holds_the_task():
@@ -307,9 +308,9 @@ def test_ek10_person_time_and_supervision_by_level():
 
 @pytest.mark.parametrize("level", range(1, 11))
 def test_ek10_default_supervision_follows_the_implementing_role(level):
-    """DESIGN §3.1: ek10 levels map by their Selecting and Implementing roles, as sv10
+    """Methods, #supervision: ek10 levels map by their Selecting and Implementing roles, as sv10
     levels 1-4 (the computer does not act) and 10 (nobody is told) cost none. Read with
-    the role matrix of REFERENCES.md (memory): where the person takes part in
+    Endsley & Kaber's (1999) role matrix (memory): where the person takes part in
     implementing (I = H or H/C), or at Full Automation, no supervision; where the
     computer implements and the person still has a role, some."""
     table = resolve_assumptions({}, "ek10")["supervision_s"]
@@ -383,7 +384,7 @@ NOT_RISING = [
 def test_raising_a_level_never_raises_person_time_where_the_table_does_not_rise(
     levels, stage, rise, split, duration
 ):
-    """Person time of DESIGN §3.1 (active + supervision) never rises with a level,
+    """Person time (Methods, #person-time: active + supervision) never rises with a level,
     provided the supervision table does not rise between the two levels.
 
     That proviso is needed on purpose: the default table makes 4 -> 5 a possible rise,
@@ -394,7 +395,7 @@ def test_raising_a_level_never_raises_person_time_where_the_table_does_not_rise(
     any level to 10.
 
     It is about the assignment's own person time: an accountable person's monitoring
-    (DESIGN §3.5) is added on top when a raise passes the task to the automation (see
+    (Methods, #monitoring) is added on top when a raise passes the task to the automation (see
     test_monitoring_can_start_when_a_raise_passes_the_task_to_the_automation).
     """
     low, high = rise
@@ -411,7 +412,7 @@ def test_the_pairs_drawn_cover_levels_one_to_four_and_six_upward():
 
 def test_approving_can_cost_more_than_the_automation_saves():
     """Decision 4 -> 5 on a 1 s task, equal split: active falls by 0.25*1*(1/9) = 0.028 s,
-    supervision rises from sup[4] = 0 to sup[5] > 0 (DESIGN §3.1)."""
+    supervision rises from sup[4] = 0 to sup[5] > 0 (Methods, #supervision)."""
     base = {"acquisition": 1, "analysis": 1, "decision": 4, "action": 1}
     split = dict.fromkeys(STAGES, 0.25)
     before = person_time(base, split, 1.0)

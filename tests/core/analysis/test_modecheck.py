@@ -1,4 +1,4 @@
-"""Mode-map verification (allocation.core.analysis.modecheck, DESIGN §3.8).
+"""Mode-map verification (allocation.core.analysis.modecheck; methods document, #mode-check).
 
 The expected findings and witnesses are worked by hand from the composition rules of
 Degani & Heymann (2002) as the module states them: a state is (actual, believed); the

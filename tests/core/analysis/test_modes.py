@@ -156,7 +156,7 @@ def test_an_unknown_initial_mode_gives_no_shares():
 
 
 def test_a_mode_override_replaces_the_plan_assignment(make_study):
-    """Home heating (DESIGN §5): in mode ``hold`` the resident holds T2 alone; in mode
+    """Home heating (test study): in mode ``hold`` the resident holds T2 alone; in mode
     ``schedule`` and with no mode, the plan's shared assignment applies."""
     study = read_study(make_study())
     plan = study.plan("auto")

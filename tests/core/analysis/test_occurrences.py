@@ -1,5 +1,5 @@
 """Occurrences per day (allocation.core.analysis.occurrences) and when in the day they
-fall (allocation.core.analysis.timeofday), DESIGN §2 "How tasks occur" and §3.1.
+fall (allocation.core.analysis.timeofday); methods document, #occurrences and #time-of-day.
 
 The small cases are worked by hand. The Monte Carlo check simulates days with numpy (the
 reference): Poisson counts for rate events, Bernoulli draws for each link and event

@@ -1,10 +1,10 @@
 """Whole-plan analysis (allocation.core.analysis.plan) and the analysis file
-(…analysis.report), DESIGN §3 and §6, on the three example studies.
+(…analysis.report, ``baton.analysis`` version 1), on the three example studies.
 
-The keys are DESIGN §6's, written out here; the cautions are DESIGN §7's words. The
-plausibility checks on the insulin example follow from what its plans are (invented
-examples, DESIGN §7): the full loop takes work off the person that injections leave
-with them, and only plans with a mode map hand tasks over between modes.
+The keys the analysis file promises are written out here; the cautions are the README's
+words ("Cautions"). The plausibility checks on the insulin example follow from what its
+plans are (invented examples): the full loop takes work off the person that injections
+leave with them, and only plans with a mode map hand tasks over between modes.
 """
 
 from __future__ import annotations
@@ -28,7 +28,7 @@ from allocation.examples import example_paths
 
 from .studies import PUMP, analyse, leaf
 
-#: DESIGN §6, the keys the analysis file must have (more are allowed, never fewer).
+#: The keys the analysis file must have (more are allowed, never fewer).
 TOP_KEYS = {
     "format",
     "version",
@@ -65,7 +65,7 @@ HANDOVER_KEYS = {
 COHERENCE_KEYS = {"cut_ratio", "modularity"}
 FINDING_KEYS = {"kind", "severity", "tasks", "modes", "events", "message"}
 
-#: DESIGN §7, sentences of the cautions every export carries.
+#: Sentences of the cautions every export carries, as the README's "Cautions" gives them.
 CAUTION_SENTENCES = (
     "Baton supports human-factors analysis; it does not replace usability engineering with "
     "representative users (IEC 62366-1), risk management (ISO 14971), clinical judgement, or "
@@ -132,8 +132,8 @@ def test_every_example_plan_gives_the_design_analysis_file(name, plan_id):
 
 @pytest.mark.parametrize(("name", "plan_id"), EXAMPLE_PLANS)
 def test_daily_figures_hang_together(name, plan_id):
-    """DESIGN §3.1: burden counts all of a person's time, monitoring included; the tasks'
-    person time per day adds up to it; interruptions are some of the interactions, and
+    """Methods, #person-time: burden counts all of a person's time, monitoring included;
+    the tasks' person time per day adds up to it; interruptions are some of the interactions, and
     night interruptions some of the interruptions."""
     result = analysed(name, plan_id)
     for agent_id, person in result.people.items():

@@ -1,9 +1,11 @@
 """Levels of automation (allocation.core.scales): the two scales as data, stage degrees,
 the overall degree of automation and the category.
 
-The level texts and the role matrix are written out here from REFERENCES.md, not copied
-from the code, and compared word for word and cell for cell. Stage degrees follow the
-rules of DESIGN §2 (sv10: d = (L - 1) / 9; ek10: H = 0, H/C = 0.5, C = 1), worked by hand.
+The level texts and the role matrix are written out here from the published sources
+(Parasuraman, Sheridan & Wickens 2000, Table I; Endsley & Kaber 1999), not copied from
+the code, and compared word for word and cell for cell. Stage degrees follow the rules of
+the methods document, #levels-of-automation (sv10: d = (L - 1) / 9; ek10: H = 0,
+H/C = 0.5, C = 1), worked by hand.
 """
 
 from __future__ import annotations
@@ -25,8 +27,8 @@ from allocation.core.scales import (
 
 STAGES = ("acquisition", "analysis", "decision", "action")
 
-#: REFERENCES.md: Parasuraman et al. 2000, Table I, after Sheridan & Verplank 1978
-#: (checked). "The computer ..."
+#: Parasuraman, Sheridan & Wickens (2000), IEEE Trans. SMC-A 30(3), Table I, after
+#: Sheridan & Verplank (1978). "The computer ..."
 SV10_EXPECTED = {
     1: "offers no assistance: human must take all decisions and actions",
     2: "offers a complete set of decision/action alternatives",
@@ -40,9 +42,10 @@ SV10_EXPECTED = {
     10: "decides everything, acts autonomously, ignoring the human",
 }
 
-#: REFERENCES.md: Endsley & Kaber 1999. Level names checked (via Beer, Fisk & Rogers
-#: 2014, Table 3); the role matrix is memory, per REFERENCES.md (matches a public
-#: reproduction cell for cell). Columns: Monitoring, Generating, Selecting, Implementing.
+#: Endsley & Kaber (1999), Ergonomics 42(3). Level names as tabulated by Beer, Fisk &
+#: Rogers (2014), J. Human-Robot Interaction 3(2), Table 3; the role matrix recalled from
+#: Endsley & Kaber (1999), from memory. Columns: Monitoring, Generating, Selecting,
+#: Implementing.
 EK10_TABLE = """
 | 1  | Manual Control            | H   | H   | H   | H   |
 | 2  | Action Support            | H/C | H   | H   | H/C |
@@ -76,18 +79,18 @@ def shared(levels: int | dict[str, int]) -> Assignment:
 
 
 def test_sv10_has_ten_levels_with_the_published_words():
-    # REFERENCES.md: Parasuraman et al. 2000, Table I (checked).
+    # Parasuraman, Sheridan & Wickens (2000), Table I.
     assert SV10_LEVELS == SV10_EXPECTED
 
 
 @pytest.mark.parametrize("level", range(1, 11))
 def test_level_text_gives_the_sv10_words(level):
-    # REFERENCES.md: Parasuraman et al. 2000, Table I (checked).
+    # Parasuraman, Sheridan & Wickens (2000), Table I.
     assert level_text("sv10", level) == SV10_EXPECTED[level]
 
 
 def test_ek10_names_and_role_matrix_match_the_table_cell_for_cell():
-    # REFERENCES.md: Endsley & Kaber 1999; names checked, role matrix memory.
+    # Endsley & Kaber (1999): names via Beer, Fisk & Rogers (2014), role matrix from memory.
     expected = ek10_expected()
     assert sorted(expected) == list(range(1, 11))
     assert {level: (name, tuple(roles)) for level, (name, roles) in EK10_LEVELS.items()} == (
@@ -97,7 +100,7 @@ def test_ek10_names_and_role_matrix_match_the_table_cell_for_cell():
 
 @pytest.mark.parametrize("level", range(1, 11))
 def test_level_text_gives_the_ek10_name(level):
-    # REFERENCES.md: Endsley & Kaber 1999 level names (checked).
+    # Endsley & Kaber (1999) level names (via Beer, Fisk & Rogers 2014, Table 3).
     assert level_text("ek10", level) == ek10_expected()[level][0]
 
 
@@ -106,7 +109,7 @@ def test_level_text_gives_the_ek10_name(level):
 
 @pytest.mark.parametrize(
     ("level", "degree"),
-    # DESIGN §2: d = (L - 1) / 9, worked by hand.
+    # Methods, #levels-of-automation: d = (L - 1) / 9, worked by hand.
     [(1, 0.0), (4, 3 / 9), (5, 4 / 9), (7, 6 / 9), (10, 1.0)],
 )
 def test_one_sv10_level_for_all_stages_gives_the_same_degree_everywhere(level, degree):
@@ -124,7 +127,7 @@ def test_sv10_levels_per_stage_give_a_degree_per_stage():
 
 @pytest.mark.parametrize(
     ("level", "degrees"),
-    # REFERENCES.md role matrix (memory) with DESIGN §2's H = 0, H/C = 0.5, C = 1.
+    # Endsley & Kaber's (1999) role matrix (memory), H = 0, H/C = 0.5, C = 1 (Methods).
     [
         (1, [0.0, 0.0, 0.0, 0.0]),
         (2, [0.5, 0.0, 0.0, 0.5]),
@@ -144,7 +147,8 @@ def test_ek10_levels_give_degrees_through_the_role_matrix(level, degrees):
 
 @pytest.mark.parametrize("scale", ["sv10", "ek10"])
 def test_human_only_is_all_zero_and_automation_only_all_one(scale):
-    # DESIGN §2: human-only and automation-only assignments need no levels.
+    # Methods, #levels-of-automation: human-only and automation-only assignments need no
+    # levels.
     assert stage_degrees(Assignment(human="pat"), scale) == dict.fromkeys(STAGES, 0.0)
     assert stage_degrees(Assignment(automation="pump"), scale) == dict.fromkeys(STAGES, 1.0)
 
@@ -159,7 +163,7 @@ def test_an_assignment_that_does_not_apply_is_all_zero(scale):
 
 @pytest.mark.parametrize(
     ("assignment", "scale", "category"),
-    # DESIGN §2: all 0 -> person, all 1 -> device, otherwise shared.
+    # Methods, #levels-of-automation: all 0 -> person, all 1 -> device, otherwise shared.
     [
         (Assignment(human="pat"), "sv10", "person"),
         (Assignment(automation="pump"), "sv10", "device"),
@@ -198,7 +202,8 @@ def level_rise(draw):
     stages=st.lists(st.sampled_from(STAGES), min_size=2, max_size=2, unique=True),
 )
 def test_a_later_stage_at_the_same_level_gives_a_higher_doa(level, stages):
-    """REFERENCES.md: Onnasch et al. 2014 (checked, abstract): DOA rises with later stages.
+    """Onnasch, Wickens, Li & Manzey (2014), Human Factors 56(3), abstract: DOA rises with
+    later stages.
 
     The level is put on one stage with the others at 1; moving it to a later stage must
     raise the overall degree.
@@ -218,7 +223,8 @@ def test_a_later_stage_at_the_same_level_gives_a_higher_doa(level, stages):
     rise=level_rise(),
 )
 def test_a_higher_level_gives_a_higher_doa(levels, stage, rise):
-    """REFERENCES.md: Onnasch et al. 2014 (checked, abstract): DOA rises with higher levels."""
+    """Onnasch, Wickens, Li & Manzey (2014), Human Factors 56(3), abstract: DOA rises with
+    higher levels."""
     low, high = rise
     before = levels | {stage: low}
     after = levels | {stage: high}
@@ -234,7 +240,7 @@ def test_doa_runs_from_zero_for_the_person_to_one_for_the_device():
 
 def test_ek10_doa_rises_with_the_level_where_roles_only_pass_to_the_computer():
     """Going from one ek10 level to another that only moves roles toward the computer
-    (H -> H/C -> C, per the role matrix of REFERENCES.md, memory) raises the DOA."""
+    (H -> H/C -> C, per Endsley & Kaber's 1999 role matrix, from memory) raises the DOA."""
     matrix = ek10_expected()
     rank = {"H": 0, "H/C": 1, "C": 2}
     pairs = 0

@@ -1,0 +1,149 @@
+"""Tags every template may use (a builtin of the template engine, no ``{% load %}``):
+figures, finding kinds and statuses in the registry's words, and links to the sections of
+Baton's methods document.
+
+A figure is written with its key, never with words or a precision of the template's own::
+
+    {{ headline.burden_s_per_day|figure:"burden_s_per_day" }}   ->  4.07 h a day
+    {{ person.burden_s_per_day|figure_cell:"burden_s_per_day" }} ->  4.07 h
+    {% figure_label "burden_s_per_day" %}                       ->  Person time
+    {{ finding.kind|finding_kind }}                             ->  Change without a cue
+    {{ handover.band|term:"risk-band" }}                        ->  Review
+    {% method_link "person-time" %}                             ->  a link to Methods
+
+A key or an anchor the registry or the methods document does not know raises, naming
+it, so a page cannot quietly show a raw key or link to a missing section.
+"""
+
+from __future__ import annotations
+
+from django import template
+from django.urls import reverse
+from django.utils.html import format_html
+
+from allocation.core import registry
+from allocation.core.methods import methods_document
+
+register = template.Library()
+
+#: The registry's fixed lists, by the name templates give them.
+TERMS = {
+    "assignment-status": registry.ASSIGNMENT_STATUS_WORDS,
+    "assumption-status": registry.ASSUMPTION_STATUS_WORDS,
+    "decision-status": registry.DECISION_STATUS_WORDS,
+    "risk-band": registry.RISK_BANDS,
+    "handover-source": registry.HANDOVER_SOURCES,
+    "category": registry.CATEGORIES,
+}
+
+
+def method_url(anchor: str) -> str:
+    """The address of a section of the methods page.
+
+    Raises
+    ------
+    KeyError
+        Naming the anchor, when the methods document has no such section.
+    """
+    methods_document().section(anchor)
+    return f"{reverse('methods')}#{anchor}"
+
+
+def term_label(value: str, table: str) -> str:
+    """A value of one of the registry's fixed lists (:data:`TERMS`) in words."""
+    words = TERMS[table].get(value)
+    if words is None:
+        raise KeyError(f"no {table} {value!r} in the registry")
+    return words.label
+
+
+@register.filter(name="figure")
+def figure_filter(value: float | None, key: str) -> str:
+    """A figure's value with its unit, as the registry writes it."""
+    return registry.figure_text(key, value)
+
+
+@register.filter(name="figure_cell")
+def figure_cell_filter(value: float | None, key: str) -> str:
+    """A figure's value in a column whose heading gives what it is per: a duration in
+    its unit of time (``4.07 h``), any other figure as a number."""
+    return registry.figure_text(key, value, unit=False)
+
+
+@register.filter(name="figure_number")
+def figure_number_filter(value: float | None, key: str) -> str:
+    """A figure's value at the registry's precision, without its unit (for a column whose
+    heading gives the unit)."""
+    return registry.figure_number(key, value)
+
+
+@register.filter(name="figure_signed")
+def figure_signed_filter(value: float | None, key: str) -> str:
+    """A difference of a figure, with its sign and unit."""
+    return registry.figure_text(key, value, signed=True)
+
+
+@register.simple_tag
+def figure_label(key: str) -> str:
+    """A figure's label."""
+    return registry.figure(key).label
+
+
+def column_unit(key: str) -> str:
+    """What a column of :func:`figure_cell` values is in: what a duration is per, the
+    unit of any other figure."""
+    spec = registry.figure(key)
+    return spec.per if spec.seconds else spec.unit
+
+
+@register.simple_tag
+def figure_heading(key: str) -> str:
+    """A figure's column heading: its short label (else its label) and the column's unit."""
+    unit = column_unit(key)
+    if not unit:
+        return registry.figure(key).heading
+    return format_html('{} <span class="unit">{}</span>', registry.figure(key).heading, unit)
+
+
+@register.simple_tag
+def figure_short(key: str) -> str:
+    """A figure's short label (else its label), for a narrow table whose caption gives
+    the unit."""
+    return registry.figure(key).heading
+
+
+@register.simple_tag
+def figure_unit(key: str) -> str:
+    """A figure's unit (empty for a pure number)."""
+    return registry.figure(key).unit
+
+
+@register.filter(name="finding_kind")
+def finding_kind_filter(kind: str) -> str:
+    """A kind of finding in words."""
+    return registry.finding_kind(kind).label
+
+
+@register.filter(name="term")
+def term_filter(value: str, table: str) -> str:
+    """A status, band, source or category in the registry's words."""
+    return term_label(value, table)
+
+
+@register.simple_tag(name="method_url")
+def method_url_tag(anchor: str) -> str:
+    """The address of a section of the methods page."""
+    return method_url(anchor)
+
+
+@register.simple_tag
+def method_link(anchor: str, text: str = "") -> str:
+    """A link to a section of the methods page, named ``text`` or after the section."""
+    title = text or f"Methods: {methods_document().section(anchor).title}"
+    return format_html('<a class="method-link" href="{}">{}</a>', method_url(anchor), title)
+
+
+@register.simple_tag
+def method_summary(anchor: str) -> str:
+    """The first paragraph of a section of the methods document, as plain text."""
+    return methods_document().section(anchor).summary
