@@ -255,7 +255,7 @@ def test_a_rating_recorded_by_htmx_says_so_in_the_slot(client, study, member_of)
     data |= dict.fromkeys(subscales, "50")
     response = client.post(study_url("plan-rating-record", study, "auto"), data, headers=HX)
     _attributes, said = slot(response.content.decode())
-    assert said == ["Recorded P01's ratings of T2: raw TLX 50.0."]
+    assert said == ["Recorded P01's ratings of T2: Raw TLX 50.0."]
 
 
 def test_an_action_that_says_nothing_empties_the_slot_and_a_read_leaves_it(client, study, owner):
