@@ -228,7 +228,8 @@ class Axis:
                 continue
             if isinstance(value, str) or self.spec.get("type") == "category":
                 key = str(value)
-                if key not in self.categories:
+                if key not in self._index:
+                    self._index[key] = len(self.categories)
                     self.categories.append(key)
             elif isinstance(value, int | float) and math.isfinite(value):
                 self.values.append(float(value))
@@ -268,8 +269,6 @@ class Axis:
     def position(self, value: Any) -> float:
         """The pixel of a value (a category's centre on a category axis)."""
         if self.is_category:
-            if len(self._index) != len(self.categories):
-                self._index = {name: i for i, name in enumerate(self.categories)}
             share = (self._index[str(value)] - self.low) / (self.high - self.low)
         else:
             share = (float(value) - self.low) / (self.high - self.low)
