@@ -96,7 +96,9 @@ class Command(BaseCommand):
             "--no-simulation", action="store_true", help="skip the day simulation timing"
         )
         parser.add_argument(
-            "--no-export", action="store_true", help="skip the printable report timings"
+            "--export",
+            action="store_true",
+            help="also time the printable report (HTML and PDF; a few minutes)",
         )
 
     def handle(
@@ -107,14 +109,14 @@ class Command(BaseCommand):
         large: int,
         no_web: bool,
         no_simulation: bool,
-        no_export: bool,
+        export: bool,
         **options,
     ) -> None:
         self.engine(repeats=repeats, seed=seed, large=large)
         if not no_simulation:
             self.stdout.write("")
             self.simulation(repeats=repeats, seed=seed)
-        if not no_export:
+        if export:
             self.stdout.write("")
             self.export(repeats=repeats, seed=seed)
         if not no_web:
