@@ -279,19 +279,26 @@ def plain_text(text: str) -> str:
     return "".join(parts).strip()
 
 
-def section_html(section: Section, shift: int = 0) -> str:
+def section_html(section: Section, shift: int = 0, id_prefix: str = "") -> str:
     """One section as HTML: its heading, with the anchor as its id, then its body.
 
     ``shift`` lowers every heading by that many levels (to sit under a page's own title),
-    down to ``h6`` at most.
+    down to ``h6`` at most. ``id_prefix`` goes before every heading's id and every link
+    to a section, so that the document can sit inside a page whose own ids would clash
+    with its anchors (the printable report).
     """
     level = min(6, section.level + shift)
     title = _renderer().renderInline(section.title)
-    return f'<h{level} id="{escape(section.anchor)}">{title}</h{level}>\n' + markdown_html(
-        section.body
+    body = markdown_html(section.body)
+    if id_prefix:
+        body = body.replace('href="#', f'href="#{escape(id_prefix)}')
+    anchor = escape(id_prefix + section.anchor)
+    return f'<h{level} id="{anchor}">{title}</h{level}>\n' + body
+
+
+def document_html(document: MethodsDocument, shift: int = 0, id_prefix: str = "") -> str:
+    """The whole document as HTML, each heading with its anchor (after ``id_prefix``) as
+    its id."""
+    return "".join(
+        section_html(section, shift, id_prefix) for section in document.sections.values()
     )
-
-
-def document_html(document: MethodsDocument, shift: int = 0) -> str:
-    """The whole document as HTML, each heading with its anchor as its id."""
-    return "".join(section_html(section, shift) for section in document.sections.values())

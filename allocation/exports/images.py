@@ -1,164 +1,161 @@
-"""The report's charts as PNG images, drawn with matplotlib's Agg renderer.
+"""The report's charts: the plan dashboard's own figures, drawn as SVG.
 
-The same images go into the printable HTML report (as ``data:`` URIs) and into the PDF.
-The figures are made without pyplot (no global state, safe in a web process) and saved
-without the "Software" stamp, so the same analysis gives the same bytes.
+Each chart is the figure the dashboard hands plotly.js, from the same builder
+(:mod:`allocation.figures.dashboards`), so the report shows the screens' traces, names and palette:
+people in teal, devices in violet, the risk policy's bands, the awareness factors' colours.
+:mod:`.svg` draws it as SVG text, which the HTML report holds inline and the PDF,
+laid out from the same HTML, prints as vector graphics. Long bar charts (a goal or a task
+per row) are cut into parts of at most :data:`ROWS_PER_CHART` rows so each fits a page.
 """
 
 from __future__ import annotations
 
-import base64
-import io
+import copy
+import math
 from dataclasses import dataclass
+from typing import Any
 
-from allocation.core.vocabulary import STAGES
+from django.utils.safestring import SafeString, mark_safe
+
+from allocation.figures import dashboards as dashboard_figures
+from allocation.figures.svg import axis_ranges, figure_svg
 
 from .source import ExportSource
 
-__all__ = ["Chart", "report_charts"]
+__all__ = ["CHART_WIDTH", "FONT_FAMILY", "ROWS_PER_CHART", "Chart", "report_charts"]
 
-#: The report's colours: one hue for people, one for devices, greys for the rest.
-PERSON = "#3c6e91"
-DEVICE = "#c0803a"
-BANDS = {"acceptable": "#8da37a", "review": "#d9b44a", "unacceptable": "#b5483b"}
-DPI = 110
+#: The drawings' width in plotly's pixels: at the width of an A4 landscape page the
+#: dashboards' 13-pixel text prints at about 9 points.
+CHART_WIDTH = 1100
+#: The report's face; DejaVu Sans prints every character a study may hold.
+FONT_FAMILY = "DejaVu Sans, Verdana, sans-serif"
+#: A horizontal bar chart longer than this is cut into parts (a page each at most).
+ROWS_PER_CHART = 20
+#: The dashboard's mode-awareness chart shows this many tasks, the highest first.
+AWARENESS_SHOWN = 30
 
 
 @dataclass(frozen=True)
 class Chart:
-    """One chart: its title, a sentence saying what it shows, and the PNG bytes."""
+    """One chart: its key, title, a sentence saying what it shows, the figure it draws
+    (the dashboard's plotly dict) and the drawing (SVG text)."""
 
     key: str
     title: str
     caption: str
-    png: bytes
+    figure: dict[str, Any]
+    svg: str
 
     @property
-    def data_uri(self) -> str:
-        return "data:image/png;base64," + base64.b64encode(self.png).decode("ascii")
+    def markup(self) -> SafeString:
+        # The drawing escapes every text it holds (svg.label_text, then XML escaping).
+        return mark_safe(self.svg)
 
 
-def _png(figure) -> bytes:
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-
-    FigureCanvasAgg(figure)
-    buffer = io.BytesIO()
-    figure.savefig(buffer, format="png", dpi=DPI, metadata={"Software": None})
-    return buffer.getvalue()
-
-
-def _figure(width: float, height: float):
-    from matplotlib.figure import Figure
-
-    figure = Figure(figsize=(width, height), layout="constrained")
-    return figure, figure.add_subplot()
-
-
-def _label(task_id: str, title: str) -> str:
-    text = f"{task_id} {title}"
-    return text if len(text) <= 40 else text[:39] + "…"
-
-
-#: The degree chart shows at most this many tasks; a longer study gets several charts.
-TASKS_PER_CHART = 30
-
-
-def _degrees(source: ExportSource) -> list[Chart]:
-    result = source.analysis
-    all_leaves = list(result.study.leaves)
-    charts = []
-    for start in range(0, len(all_leaves), TASKS_PER_CHART):
-        leaves = all_leaves[start : start + TASKS_PER_CHART]
-        values = [
-            [result.tasks[task.id].involved.degrees[stage] for stage in STAGES] for task in leaves
-        ]
-        figure, axes = _figure(6.4, 0.9 + 0.32 * len(leaves))
-        axes.imshow(values, cmap="Oranges", vmin=0, vmax=1, aspect="auto")
-        axes.set_xticks(range(len(STAGES)), STAGES)
-        axes.set_yticks(range(len(leaves)), [_label(task.id, task.title) for task in leaves])
-        axes.tick_params(labelsize=8)
-        for row, line in enumerate(values):
-            for column, value in enumerate(line):
-                colour = "white" if value > 0.6 else "black"
-                axes.text(
-                    column, row, f"{value:.2f}", ha="center", va="center", fontsize=7, color=colour
-                )
-        part = ""
-        if len(all_leaves) > TASKS_PER_CHART:
-            part = f" (tasks {start + 1}-{start + len(leaves)} of {len(all_leaves)})"
-        charts.append(
-            Chart(
-                f"degrees-{start // TASKS_PER_CHART + 1}",
-                "Degree of automation by stage" + part,
-                "0 = the person does the stage, 1 = the device does it (Parasuraman, Sheridan "
-                "& Wickens 2000 stages; degree (L - 1) / 9 on the ten-level scale).",
-                _png(figure),
-            )
-        )
-    return charts
+def _row_parts(figure: dict[str, Any]) -> list[tuple[dict[str, Any], int, int, int]]:
+    """A horizontal bar figure cut into parts of at most :data:`ROWS_PER_CHART` rows,
+    as ``(figure, first row, last row, rows)``. Each part keeps the whole chart's value
+    ranges (so bars compare across parts), and its height shrinks with its rows."""
+    traces = figure["data"]
+    rows = max((len(trace.get("y") or []) for trace in traces), default=0)
+    if rows <= ROWS_PER_CHART:
+        return [(figure, 1, rows, rows)]
+    count = math.ceil(rows / ROWS_PER_CHART)
+    size = math.ceil(rows / count)
+    height = float(figure["layout"].get("height", 450))
+    # The builders' heights are a fixed part plus a height per row; keep that per row.
+    per_row = (height - 110) / rows
+    ranges = axis_ranges(figure)
+    parts = []
+    for start in range(0, rows, size):
+        stop = min(rows, start + size)
+        part = copy.deepcopy(figure)
+        for trace in part["data"]:
+            for key in ("x", "y", "customdata", "text"):
+                if isinstance(trace.get(key), list):
+                    trace[key] = trace[key][start:stop]
+            marker = trace.get("marker") or {}
+            if isinstance(marker.get("color"), list):
+                marker["color"] = marker["color"][start:stop]
+        layout = part["layout"]
+        layout["height"] = max(220, round(110 + per_row * (stop - start)))
+        for name, (low, high) in ranges.items():
+            key = name[0] + "axis" + name[1:]
+            layout[key] = {**(layout.get(key) or {}), "range": [low, high]}
+        parts.append((part, start + 1, stop, rows))
+    return parts
 
 
-#: The person-time chart shows at most this many tasks, the largest first.
-TOP_TASKS = 25
+def _chart(key: str, title: str, caption: str, figure: dict[str, Any]) -> Chart:
+    svg = figure_svg(figure, width=CHART_WIDTH, font_family=FONT_FAMILY, title=title)
+    return Chart(key, title, caption, figure, svg)
 
 
-def _person_time(source: ExportSource) -> Chart:
-    result = source.analysis
-    timed = [
-        (sum(result.tasks[task.id].person_s_per_day.values()), index, task)
-        for index, task in enumerate(result.study.leaves)
-    ]
-    timed = sorted((item for item in timed if item[0] > 0), key=lambda item: (-item[0], item[1]))
-    timed = timed[:TOP_TASKS]
-    leaves = [task for _value, _index, task in timed]
-    values = [value for value, _index, _task in timed]
-    figure, axes = _figure(6.4, 0.9 + 0.3 * len(leaves))
-    positions = range(len(leaves))
-    axes.barh(positions, values, color=PERSON)
-    axes.set_yticks(positions, [_label(task.id, task.title) for task in leaves])
-    axes.invert_yaxis()
-    axes.set_xlabel("person seconds per day")
-    axes.tick_params(labelsize=8)
-    return Chart(
-        "person-time",
-        "Person time per task",
-        f"Seconds a day all people together spend on each task under the plan (the "
-        f"{TOP_TASKS} largest; tasks that take no person time left out), supervision and "
-        "monitoring included (DESIGN §3.1).",
-        _png(figure),
-    )
-
-
-def _handovers(source: ExportSource) -> Chart | None:
-    handovers = source.analysis.handovers
-    if not handovers:
-        return None
-    figure, axes = _figure(6.4, 0.9 + 0.3 * len(handovers))
-    positions = range(len(handovers))
-    labels = [
-        f"{h.site.from_task} → {h.site.to_task} ({h.site.source}"
-        + (f", {h.site.stage}" if h.site.stage else "")
-        + ")"
-        for h in handovers
-    ]
-    colours = [BANDS.get(h.band, "#999999") for h in handovers]
-    axes.barh(positions, [h.likelihood for h in handovers], color=colours)
-    axes.set_yticks(positions, labels)
-    axes.invert_yaxis()
-    axes.set_xlim(0, 1)
-    axes.set_xlabel("likelihood of a failed handover (bar colour: risk band)")
-    axes.tick_params(labelsize=8)
-    return Chart(
-        "handovers",
-        "Handovers by likelihood",
-        "Weighted noisy-OR of time budget, load, cue, initiation and awareness (tool "
-        "assumption weights); colour is the band of severity x likelihood under the study's "
-        "risk policy.",
-        _png(figure),
-    )
+def _parted(key: str, title: str, caption: str, figure: dict[str, Any]) -> list[Chart]:
+    parts = _row_parts(figure)
+    result = []
+    for number, (part, first, last, rows) in enumerate(parts, start=1):
+        named = title if len(parts) == 1 else f"{title} (rows {first}-{last} of {rows})"
+        result.append(_chart(f"{key}-{number}", named, caption, part))
+    return result
 
 
 def report_charts(source: ExportSource) -> list[Chart]:
-    """The charts of the printable report, in order."""
-    charts = [*_degrees(source), _person_time(source), _handovers(source)]
-    return [chart for chart in charts if chart is not None]
+    """The charts of the printable report, in the dashboard's order."""
+    analysis = source.analysis
+    result: list[Chart] = []
+    if analysis.people:
+        result.append(
+            _chart(
+                "daily",
+                "Each person's day",
+                "Each person's time and the monitoring within it (minutes a day, left), and "
+                "interactions, interruptions and interruptions at night (times a day, right); "
+                "one colour per person in every chart.",
+                dashboard_figures.daily_figures_chart(analysis),
+            )
+        )
+        result += _parted(
+            "goals",
+            "Person time by goal",
+            "Minutes a day under each goal and sub-goal, stacked by person: the person time "
+            "of the leaf tasks beneath it.",
+            dashboard_figures.goal_time_chart(analysis),
+        )
+    counts = dashboard_figures.risk_matrix_counts(analysis)
+    result.append(
+        _chart(
+            "risk",
+            "Handovers by severity and likelihood",
+            "Each cell counts the plan's handovers with that severity and likelihood band; its "
+            "colour is the band of severity × likelihood under the study's risk policy.",
+            dashboard_figures.risk_matrix_chart(analysis.policy, counts),
+        )
+    )
+    aware = len(dashboard_figures.awareness_rows(analysis, None))
+    if aware:
+        which = (
+            f"The {AWARENESS_SHOWN} highest of {aware} tasks'"
+            if aware > AWARENESS_SHOWN
+            else f"All {aware} tasks'"
+            if aware > 1
+            else "The one task's"
+        )
+        result += _parted(
+            "awareness",
+            "Mode awareness, by task",
+            f"{which} mode-awareness index (0 to 1), each bar split into the weighted "
+            "contributions of its five factors.",
+            dashboard_figures.awareness_chart(analysis, AWARENESS_SHOWN),
+        )
+    if analysis.plan.modes:
+        result.append(
+            _chart(
+                "modes",
+                "Share of the day in each mode",
+                "The share of the day in each mode of the plan's mode map (the initial mode "
+                "darker), from the map read as a continuous-time Markov chain.",
+                dashboard_figures.mode_share_chart(analysis),
+            )
+        )
+    return result

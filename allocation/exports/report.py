@@ -1,32 +1,35 @@
-"""The printable report of one plan: an HTML page with print styles, and a PDF.
+"""The printable report of one plan: an HTML page with print styles, and the same page
+as a PDF.
 
-Both carry the same content: a header naming the study, plan, snapshot, date and Baton's
-version; the headline figures; the charts (PNG, :mod:`.images`); the allocation,
-handover, finding and workload tables; the assumptions in force; the methods with their
-sources; and the cautions. The HTML is a Django template (autoescaped: user text stays
-text); the PDF is laid out with reportlab's platypus in invariant mode, its dates fixed
-to the export's date, with DejaVu Sans (shipped with matplotlib) so every character of a
-study prints.
+One template, one layout: a header naming the study, plan, snapshot, date and Baton's
+version; the headline figures; the dashboard's charts (SVG, :mod:`.images`); the
+allocation, handover, finding and workload tables; the assumptions in force; the methods
+with their sources; and the cautions. The HTML is a Django template (autoescaped: user
+text stays text). The PDF is that HTML laid out by WeasyPrint under the template's print
+styles (A4 pages, running header and footer, tables whose header rows repeat), in
+DejaVu Sans so every character of a study prints; its dates are the export's, so the same
+input gives the same bytes.
 """
 
 from __future__ import annotations
 
-import io
 from dataclasses import dataclass
+from functools import cache
 from typing import Any
-from xml.sax.saxutils import escape
 
 from django.template.loader import render_to_string
+from django.utils.safestring import SafeString, mark_safe
 
 from allocation.core.analysis.report import METHODS
 from allocation.core.cautions import CAUTIONS
 from allocation.core.describe import seconds_text
+from allocation.core.methods import document_html, methods_document
 
 from .images import Chart, report_charts
 from .source import ExportSource
 from .table import allocation_rows, assumptions_table, workload_table
 
-__all__ = ["ReportData", "report_data", "report_html", "report_pdf"]
+__all__ = ["ReportData", "TablePart", "report_data", "report_html", "report_pdf"]
 
 #: The allocation table as the report prints it: heading and row key ("degrees" joins
 #: the four stage degrees).
@@ -52,8 +55,9 @@ ALLOCATION_HEADINGS = (
     ("Findings", "findings"),
     ("Rationale", "rationale"),
 )
-#: The PDF prints the allocation table in two parts: the decisions, then the figures.
-_PDF_DECISIONS = (
+#: The allocation table in two parts, as a page holds them: the decisions, then the
+#: figures (each row starting with its task); their columns' shares of the page width.
+ALLOCATION_DECISIONS = (
     "task",
     "goal",
     "title",
@@ -69,23 +73,23 @@ _PDF_DECISIONS = (
     "applies",
     "rationale",
 )
-_PDF_DECISION_WIDTHS = (
+ALLOCATION_DECISION_WIDTHS = (
     0.045,
     0.04,
-    0.12,
+    0.11,
     0.06,
     0.065,
     0.065,
     0.08,
     0.14,
-    0.065,
+    0.075,
     0.06,
     0.06,
     0.055,
     0.04,
     0.105,
 )
-_PDF_FIGURES = (
+ALLOCATION_FIGURES = (
     "task",
     "degrees",
     "occurrences_per_day",
@@ -95,6 +99,7 @@ _PDF_FIGURES = (
     "findings",
 )
 _DECIMALS = {"occurrences_per_day": 4, "person_s_per_day": 2, "awareness": 3}
+_NUMBERS = {"occurrences_per_day", "person_s_per_day", "awareness", "handovers", "findings"}
 HANDOVER_HEADINGS = (
     "Source",
     "From",
@@ -122,11 +127,29 @@ ASSUMPTION_HEADINGS = ("Key", "Value in force", "Default", "Status", "Source")
 
 
 @dataclass(frozen=True)
-class ReportData:
-    """Everything the report shows, as text cells (the HTML and the PDF share it)."""
+class TablePart:
+    """Part of a table as the page prints it: headings, rows, column width shares
+    (empty: the table's own) and which columns hold numbers (aligned right)."""
 
     title: str
-    stamp: list[tuple[str, str]]
+    headings: list[str]
+    rows: list[list[str]]
+    widths: list[float]
+    numbers: list[bool]
+
+    @property
+    def cells(self) -> list[list[tuple[str, bool]]]:
+        """Each row's cells with whether each is a number."""
+        return [list(zip(row, self.numbers, strict=True)) for row in self.rows]
+
+
+@dataclass(frozen=True)
+class ReportData:
+    """Everything the report shows, as text cells (one template lays it out for the
+    screen, the printer and the PDF)."""
+
+    title: str
+    stamp: list[tuple[str, str, str]]
     headline: list[tuple[str, str]]
     people: list[list[str]]
     charts: list[Chart]
@@ -137,12 +160,38 @@ class ReportData:
     workload: list[list[str]]
     assumptions: list[list[str]]
     methods: list[tuple[str, str]]
+    #: Baton's methods document, appended whole (its ids prefixed: see METHODS_ID_PREFIX).
+    methods_document: SafeString
     cautions: str
     risk_note: str
 
     @property
     def allocation_headings(self) -> list[str]:
         return [heading for heading, _key in ALLOCATION_HEADINGS]
+
+    @property
+    def allocation_parts(self) -> list[TablePart]:
+        keys = [key for _heading, key in ALLOCATION_HEADINGS]
+        parts = []
+        for title, part, widths in (
+            ("Decisions", ALLOCATION_DECISIONS, list(ALLOCATION_DECISION_WIDTHS)),
+            ("Figures", ALLOCATION_FIGURES, []),
+        ):
+            columns = [keys.index(key) for key in part]
+            parts.append(
+                TablePart(
+                    title,
+                    [self.allocation_headings[i] for i in columns],
+                    [[row[i] for i in columns] for row in self.allocation],
+                    widths,
+                    [key in _NUMBERS for key in part],
+                )
+            )
+        return parts
+
+    @property
+    def stamp_text(self) -> dict[str, str]:
+        return {key: value for key, _label, value in self.stamp}
 
     handover_headings = HANDOVER_HEADINGS
     finding_headings = FINDING_HEADINGS
@@ -243,12 +292,12 @@ def report_data(source: ExportSource) -> ReportData:
     """The report's content for one plan's export."""
     study, plan = source.study, source.analysis.plan
     stamp = [
-        ("Study", f"{study.title} ({study.id})"),
-        ("Plan", f"{plan.name} ({plan.id})"),
-        ("Snapshot", source.snapshot_text),
-        ("Date", source.exported_text),
-        ("Baton", source.baton_version),
-        ("Scale", study.scale),
+        ("study", "Study", f"{study.title} ({study.id})"),
+        ("plan", "Plan", f"{plan.name} ({plan.id})"),
+        ("snapshot", "Snapshot", source.snapshot_text),
+        ("date", "Date", source.exported_text),
+        ("baton", "Baton", source.baton_version),
+        ("scale", "Scale", study.scale),
     ]
     workload = workload_table(source)
     policy = source.analysis.policy
@@ -270,9 +319,23 @@ def report_data(source: ExportSource) -> ReportData:
             for row in assumptions_table(source).itertuples(index=False, name=None)
         ],
         methods=list(METHODS),
+        methods_document=_methods_document(),
         cautions=CAUTIONS,
         risk_note=str(policy.get("note", "")) if policy.get("is_example") else "",
     )
+
+
+#: Before every id of the appended methods document, whose anchors ("handovers",
+#: "assumptions" …) would otherwise clash with the report's own sections.
+METHODS_ID_PREFIX = "method-"
+
+
+@cache
+def _methods_document() -> SafeString:
+    # markdown-it escapes any HTML in the document (html=False), so the result is safe;
+    # the document ships with the package, so it is rendered once per process.
+    html = document_html(methods_document(), shift=1, id_prefix=METHODS_ID_PREFIX)
+    return mark_safe(html)  # noqa: S308
 
 
 def report_html(source: ExportSource) -> bytes:
@@ -281,189 +344,16 @@ def report_html(source: ExportSource) -> bytes:
     return text.encode("utf-8")
 
 
-# -- PDF ------------------------------------------------------------------------------
-
-_FONTS_READY = False
-
-
-def _fonts() -> tuple[str, str]:
-    """Register DejaVu Sans (from matplotlib's data) once; its regular and bold names."""
-    global _FONTS_READY
-    if not _FONTS_READY:
-        from pathlib import Path
-
-        import matplotlib
-        from reportlab.pdfbase import pdfmetrics
-        from reportlab.pdfbase.ttfonts import TTFont
-
-        folder = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
-        pdfmetrics.registerFont(TTFont("BatonSans", str(folder / "DejaVuSans.ttf")))
-        pdfmetrics.registerFont(TTFont("BatonSans-Bold", str(folder / "DejaVuSans-Bold.ttf")))
-        _FONTS_READY = True
-    return "BatonSans", "BatonSans-Bold"
-
-
-def _pdf_timestamp(source: ExportSource):
-    """reportlab's timestamp fixed to the export's date (UTC)."""
-    import time
-    from datetime import UTC
-
-    from reportlab.lib.utils import TimeStamp
-
-    stamp = TimeStamp(invariant=1)
-    seconds = int(source.exported.astimezone(UTC).timestamp())
-    stamp.t = seconds
-    stamp.lt = time.gmtime(seconds)
-    stamp.YMDhms = tuple(stamp.lt)[:6]
-    return stamp
-
-
 def report_pdf(source: ExportSource) -> bytes:
-    """The printable report as PDF bytes (A4 landscape)."""
-    from reportlab.lib import colors
-    from reportlab.lib.pagesizes import A4, landscape
-    from reportlab.lib.styles import ParagraphStyle
-    from reportlab.lib.units import mm
-    from reportlab.pdfgen.canvas import Canvas
-    from reportlab.platypus import (
-        Image,
-        KeepTogether,
-        PageBreak,
-        Paragraph,
-        SimpleDocTemplate,
-        Spacer,
-        Table,
-        TableStyle,
-    )
+    """The printable report as PDF bytes: the HTML report laid out on A4 pages.
 
-    regular, bold = _fonts()
-    data = report_data(source)
-    body = ParagraphStyle("body", fontName=regular, fontSize=8.5, leading=11)
-    small = ParagraphStyle("small", parent=body, fontSize=6.5, leading=8)
-    small_bold = ParagraphStyle("small-bold", parent=small, fontName=bold)
-    h1 = ParagraphStyle("h1", parent=body, fontName=bold, fontSize=15, leading=19, spaceAfter=4)
-    h2 = ParagraphStyle(
-        "h2", parent=body, fontName=bold, fontSize=11, leading=14, spaceBefore=8, spaceAfter=4
-    )
+    The PDF's dates are the export's (the template's ``dcterms`` meta tags) and its
+    identifier is made from its content, so the same input gives the same bytes.
+    """
+    from weasyprint import HTML, URLFetcher
 
-    def text(value: str, style=body) -> Paragraph:
-        # Paragraph reads a markup language: user text is escaped so it prints as typed.
-        return Paragraph(escape(value), style)
-
-    def table(headings, rows, widths=None) -> Table:
-        cells = [[text(str(h), small_bold) for h in headings]]
-        cells += [[text(cell, small) for cell in row] for row in rows]
-        grid = Table(cells, colWidths=widths, repeatRows=1, hAlign="LEFT")
-        grid.setStyle(
-            TableStyle(
-                [
-                    ("GRID", (0, 0), (-1, -1), 0.25, colors.HexColor("#9aa5b1")),
-                    ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor("#e8edf2")),
-                    ("VALIGN", (0, 0), (-1, -1), "TOP"),
-                    ("LEFTPADDING", (0, 0), (-1, -1), 2),
-                    ("RIGHTPADDING", (0, 0), (-1, -1), 2),
-                ]
-            )
-        )
-        return grid
-
-    page = landscape(A4)
-    width = page[0] - 24 * mm
-    study = source.study
-    title = study.title if len(study.title) <= 60 else study.title[:59] + "…"
-    snapshot = source.snapshot[:16] + "…" if source.snapshot else source.snapshot_text
-    header = (
-        f"{title} · plan {source.analysis.plan.id} · snapshot {snapshot} · "
-        f"{source.exported_text} · Baton {source.baton_version}"
-    )
-
-    def decorate(canvas, document) -> None:
-        canvas.saveState()
-        canvas.setFont(regular, 7)
-        canvas.drawString(12 * mm, page[1] - 8 * mm, header)
-        canvas.drawRightString(page[0] - 12 * mm, 7 * mm, f"page {document.page}")
-        canvas.drawString(12 * mm, 7 * mm, "Model estimates under stated assumptions.")
-        canvas.restoreState()
-
-    timestamp = _pdf_timestamp(source)
-
-    class FixedCanvas(Canvas):
-        def __init__(self, *args, **kwargs):
-            super().__init__(*args, **kwargs)
-            self._doc._timeStamp = timestamp
-
-    story: list[Any] = [text(data.title, h1)]
-    story.append(table(["", ""], [list(pair) for pair in data.stamp], [30 * mm, width - 30 * mm]))
-    story += [text("Headline figures", h2), table(["Figure", "Value"], data.headline)]
-    story += [Spacer(1, 4), table(data.people_headings, data.people)]
-    story += [text("Cautions", h2), text(data.cautions)]
-    for chart in data.charts:
-        image = Image(io.BytesIO(chart.png))
-        scale = min(1.0, (width * 0.7) / image.imageWidth, (150 * mm) / image.imageHeight)
-        image.drawWidth, image.drawHeight = image.imageWidth * scale, image.imageHeight * scale
-        image.hAlign = "LEFT"
-        story.append(KeepTogether([text(chart.title, h2), image, text(chart.caption, small)]))
-    story += [PageBreak(), text("Allocation", h2)]
-    # The page is too narrow for every column at once: the decisions first, then the
-    # figures, each row starting with its task.
-    keys = [key for _heading, key in ALLOCATION_HEADINGS]
-    for part, share in ((_PDF_DECISIONS, _PDF_DECISION_WIDTHS), (_PDF_FIGURES, None)):
-        columns = [keys.index(key) for key in part]
-        widths = None if share is None else [width * w for w in share]
-        story.append(
-            table(
-                [data.allocation_headings[i] for i in columns],
-                [[row[i] for i in columns] for row in data.allocation],
-                widths,
-            )
-        )
-        story.append(Spacer(1, 6))
-    story.append(text("Handovers", h2))
-    story.append(
-        table(data.handover_headings, data.handovers)
-        if data.handovers
-        else text("No handovers under this plan.")
-    )
-    if data.risk_note:
-        story.append(text(data.risk_note, small))
-    story.append(text("Findings", h2))
-    story.append(
-        table(data.finding_headings, data.findings, [35 * mm, 15 * mm, 30 * mm, width - 80 * mm])
-        if data.findings
-        else text("No findings under this plan.")
-    )
-    story.append(text("Workload ratings (NASA-TLX) beside the predicted figures", h2))
-    story.append(
-        table(data.workload_headings, data.workload)
-        if data.workload
-        else text("No workload ratings recorded for this plan.")
-    )
-    story += [PageBreak(), text("Assumptions in force", h2)]
-    story.append(
-        table(
-            data.assumption_headings,
-            data.assumptions,
-            [38 * mm, 75 * mm, 75 * mm, 22 * mm, width - 210 * mm],
-        )
-    )
-    story.append(text("Methods and sources", h2))
-    story.append(table(["Method", "Source"], data.methods, [45 * mm, width - 45 * mm]))
-    story += [text("Cautions", h2), text(data.cautions)]
-
-    buffer = io.BytesIO()
-    document = SimpleDocTemplate(
-        buffer,
-        pagesize=page,
-        leftMargin=12 * mm,
-        rightMargin=12 * mm,
-        topMargin=14 * mm,
-        bottomMargin=12 * mm,
-        title=data.title,
-        author=f"Baton {source.baton_version}",
-        subject=f"Allocation report; snapshot {source.snapshot_text}",
-        creator=f"Baton {source.baton_version}",
-        producer=f"Baton {source.baton_version}",
-        invariant=1,
-    )
-    document.build(story, onFirstPage=decorate, onLaterPages=decorate, canvasmaker=FixedCanvas)
-    return buffer.getvalue()
+    # The page is whole (styles and charts inline): nothing is read from a file or the
+    # network while it is laid out, whatever a study's text holds.
+    closed = URLFetcher(allowed_protocols=())
+    page = HTML(string=report_html(source).decode("utf-8"), url_fetcher=closed)
+    return page.write_pdf()

@@ -247,6 +247,19 @@ def test_the_whole_document_renders_with_one_id_per_section():
     assert "<table>" in html and "{#" not in html
 
 
+def test_a_prefix_moves_every_id_and_every_link_to_a_section():
+    """Inside another page (the printable report) the document's anchors take a prefix,
+    and its links inside the document follow them."""
+    document = methods_document()
+    html = document_html(document, shift=1, id_prefix="method-")
+    for anchor in document.sections:
+        assert html.count(f'id="method-{anchor}"') == 1, anchor
+    links = re.findall(r'href="#([^"]+)"', html)
+    assert links, "the document links between its sections"
+    assert all(link.startswith("method-") for link in links)
+    assert {link.removeprefix("method-") for link in links} <= set(document.sections)
+
+
 def test_the_document_ships_with_the_package():
     pyproject = tomllib.loads((ROOT / "pyproject.toml").read_text(encoding="utf-8"))
     patterns = pyproject["tool"]["setuptools"]["package-data"]["allocation"]

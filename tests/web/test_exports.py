@@ -14,14 +14,18 @@ from __future__ import annotations
 
 import copy
 import hashlib
+import html
 import io
 import json
 import re
+import xml.etree.ElementTree as ET
 from datetime import UTC, datetime
+from html.parser import HTMLParser
 
 import openpyxl
 import pandas as pd
 import pytest
+from django.conf import settings
 from django.core.management import CommandError, call_command
 from django.urls import reverse
 from pandas.api.types import is_numeric_dtype
@@ -31,15 +35,19 @@ from allocation import models as m
 from allocation.core import load_study
 from allocation.core.analysis import analyse_plan
 from allocation.core.cautions import CAUTIONS
+from allocation.core.methods import methods_document, plain_text
+from allocation.core.synthetic import synthetic_study
 from allocation.exports import ExportSource, export_bytes
 from allocation.exports.csv import allocation_csv
+from allocation.exports.images import report_charts
 from allocation.exports.report import report_html, report_pdf
 from allocation.exports.table import ALLOCATION_COLUMNS, SHEETS, allocation_table
 from allocation.exports.xlsx import allocation_xlsx
 from tests.core.conftest import HOME_HEATING
 
 EXPORTED = datetime(2025, 3, 1, 9, 30, tzinfo=UTC)
-#: Text that is markup in HTML and in reportlab's paragraphs, and a formula in a sheet.
+#: Text that is markup in HTML (and so in the PDF laid out from it), and a formula in a
+#: sheet.
 MARKUP_TITLE = '=HYPERLINK("http://example.invalid","x") <b>bold</b> & co'
 MARKUP_RATIONALE = "@SUM(1+1) <script>alert(1)</script> ünïcödé → ok"
 
@@ -279,9 +287,144 @@ def test_html_report_states_everything_and_keeps_markup_as_text(marked):
     assert CAUTIONS in text
     assert "Parasuraman, Sheridan &amp; Wickens" in text
     assert "monitoring_s" in text  # the assumptions in force
-    assert len(re.findall(r'src="data:image/png;base64,', text)) == 3
+    # The dashboard's charts, drawn inline: the auto plan has a person (her day, time by
+    # goal), two handovers (the risk matrix), tasks with an awareness index and a mode map.
+    assert list(chart_svgs(text)) == ["daily", "goals-1", "risk", "awareness-1", "modes"]
     assert "<b>bold</b>" not in text and "&lt;b&gt;bold&lt;/b&gt;" in text
     assert "<script>alert" not in text and "&lt;script&gt;alert(1)" in text
+
+
+#: The screens' palette as the style sheet sets it.
+STYLE_SHEET = (settings.BASE_DIR / "static" / "baton" / "baton.css").read_text("utf-8")
+SVG = "{http://www.w3.org/2000/svg}"
+
+
+def style_colour(selector: str) -> str:
+    """The first colour the style sheet gives a custom property or a class."""
+    match = re.search(
+        re.escape(selector) + r"[\s:{]+(?:background:\s*)?(#[0-9a-f]{6})", STYLE_SHEET
+    )
+    assert match, selector
+    return match.group(1)
+
+
+def chart_svgs(html: str) -> dict[str, ET.Element]:
+    """Each chart of the report by its key, as the parsed SVG drawing."""
+    found = re.findall(r'<figure id="chart-([\w-]+)">.*?(<svg .*?</svg>)', html, re.DOTALL)
+    return {key: ET.fromstring(svg) for key, svg in found}
+
+
+def svg_fills(svg: ET.Element) -> set[str]:
+    return {element.get("fill") for element in svg.iter() if element.get("fill")}
+
+
+def svg_lines(svg: ET.Element) -> list[str]:
+    """Every line of text in a drawing (a label broken over lines gives several)."""
+    return [span.text or "" for span in svg.iter(f"{SVG}tspan")]
+
+
+def test_report_charts_are_the_dashboards_figures_in_the_screens_palette(auto):
+    text = report_html(auto).decode("utf-8")
+    svgs = chart_svgs(text)
+    human, automation = style_colour("--human"), style_colour("--automation")
+    # The resident, the study's one person, in the style sheet's colour for people.
+    assert human in svg_fills(svgs["daily"]) and "Resident" in svg_lines(svgs["daily"])
+    assert human in svg_fills(svgs["goals-1"])
+    assert "G1 Keep the home comfortable" in svg_lines(svgs["goals-1"])
+    # The risk policy's three bands in the style sheet's band colours; the two
+    # handovers (severity 2, bands 2 and 3: test_charts) leave 23 of 25 cells empty.
+    bands = {style_colour(f".band-{band}") for band in ("acceptable", "review", "unacceptable")}
+    assert bands <= svg_fills(svgs["risk"])
+    assert svg_lines(svgs["risk"]).count("·") == 23
+    # The thermostat's first mode (the initial one) in the devices' violet.
+    assert automation in svg_fills(svgs["modes"])
+    assert "schedule Following the schedule" in svg_lines(svgs["modes"])
+    # And every trace of each figure the dashboard shows is drawn: its name (as the
+    # author typed it: plotly's labels are escaped HTML), colour and axis titles.
+    for chart in report_charts(auto):
+        svg = svgs[chart.key]
+        lines, fills = svg_lines(svg), svg_fills(svg)
+        # plotly.js shows a legend when a figure has two traces or more, or asks for one.
+        legend = chart.figure["layout"].get("showlegend", len(chart.figure["data"]) > 1)
+        for trace in chart.figure["data"]:
+            if legend and trace.get("name") and trace.get("showlegend") is not False:
+                assert html.unescape(trace["name"]) in lines, (chart.key, trace["name"])
+            colour = (trace.get("marker") or {}).get("color")
+            if trace["type"] == "bar":  # a bar of length 0 shows no colour
+                lengths = trace["x"] if trace.get("orientation") == "h" else trace["y"]
+                if isinstance(colour, list):
+                    colour = [c for c, length in zip(colour, lengths, strict=True) if length]
+                elif not any(lengths):
+                    colour = None
+            for value in colour if isinstance(colour, list) else [colour]:
+                assert value is None or value in fills, (chart.key, value)
+        for key, axis in chart.figure["layout"].items():
+            if re.fullmatch(r"[xy]axis\d*", key) and "title" in axis:
+                assert axis["title"]["text"] in lines, (chart.key, key)
+
+
+class _Shown(HTMLParser):
+    """The text of every heading, caption, table cell, chart label and paragraph of an
+    HTML page's body, one string each."""
+
+    KEEP = {"h1", "h2", "h3", "th", "td", "dt", "dd", "p", "figcaption", "tspan"}
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.items: list[str] = []
+        self.open: list[list[str]] = []
+
+    def handle_starttag(self, tag, attrs):
+        if tag in self.KEEP:
+            self.open.append([])
+
+    def handle_endtag(self, tag):
+        if tag in self.KEEP and self.open:
+            text = "".join(self.open.pop()).strip()
+            if text:
+                self.items.append(text)
+
+    def handle_data(self, data):
+        if self.open:
+            self.open[-1].append(data)
+
+
+def squashed(text: str) -> str:
+    """Text without its white space (a PDF breaks a cell's lines where it must)."""
+    return "".join(text.split())
+
+
+def pdf_text(data: bytes) -> str:
+    return "\n".join(page.extract_text() for page in PdfReader(io.BytesIO(data)).pages)
+
+
+def test_report_appends_the_methods_document_with_ids_that_do_not_clash(auto):
+    """Every section of the methods document is in the report under its own id, every id
+    of the page is used once, and every link inside the page reaches an id."""
+    page = report_html(auto).decode("utf-8")
+    document = methods_document()
+    for anchor, section in document.sections.items():
+        assert f'id="method-{anchor}"' in page, anchor
+        assert html.escape(plain_text(section.title), quote=False) in page or "`" in section.title
+    ids = re.findall(r'\sid="([^"]+)"', page)
+    assert len(ids) == len(set(ids))
+    assert set(re.findall(r'href="#([^"]+)"', page)) <= set(ids)
+    # The document comes after the report's own methods table and before the last cautions.
+    assert page.index('id="methods"') < page.index('id="methods-document"')
+    assert page.index('id="methods-document"') < page.index('id="cautions"')
+
+
+def test_pdf_prints_every_heading_figure_cell_and_caution_of_the_html(marked):
+    """One template: whatever the HTML report shows as text, the PDF prints."""
+    parser = _Shown()
+    parser.feed(report_html(marked).decode("utf-8").split("<body>", 1)[1])
+    printed = squashed(pdf_text(report_pdf(marked)))
+    shown = parser.items
+    assert "Allocation" in shown and "Handovers" in shown and CAUTIONS in shown
+    assert "0.67 / 0.67 / 0.67 / 0.67" in shown  # T2 at level 7 (module docstring)
+    assert "minutes a day" in shown and "Resident" in shown  # a chart's axis and legend
+    missing = [text for text in shown if squashed(text) not in printed]
+    assert not missing
 
 
 def test_pdf_opens_and_names_the_study_the_cautions_and_the_typed_text(marked):
@@ -295,6 +438,56 @@ def test_pdf_opens_and_names_the_study_the_cautions_and_the_typed_text(marked):
     assert "<b>bold</b>" in text  # printed as typed, not read as markup
     assert "ünïcödé → ok" in text
     assert reader.metadata["/CreationDate"].startswith("D:20250301093000")
+    assert reader.metadata["/ModDate"].startswith("D:20250301093000")
+    # Its fonts travel inside it.
+    fonts = {
+        font["/BaseFont"] for page in reader.pages for font in page["/Resources"]["/Font"].values()
+    }
+    assert fonts and all("DejaVu" in str(font) for font in fonts)
+
+
+def test_pdf_dates_and_header_follow_the_export(auto):
+    """Another date and a snapshot: the PDF's dates and every page's header change."""
+    snapshot = "0123456789abcdef" * 4
+    later = source_of(
+        copy.deepcopy(HOME_HEATING),
+        snapshot=snapshot,
+        exported=datetime(2024, 1, 2, 3, 4, 5, tzinfo=UTC),
+    )
+    reader = PdfReader(io.BytesIO(report_pdf(later)))
+    assert reader.metadata["/CreationDate"].startswith("D:20240102030405")
+    pages = [normal(page.extract_text()) for page in reader.pages]
+    header = (
+        "Home heating schedule (home-heating) · plan Thermostat does it, resident informed (auto)"
+    )
+    for number, text in enumerate(pages, start=1):
+        assert header in text
+        assert squashed(f"snapshot {snapshot}") in squashed(text)
+        assert f"page {number} of {len(pages)}" in text
+        assert "2024-01-02T03:04:05Z" in text
+    # The sections that start a page do.
+    for heading in ("Charts", "Allocation", "Handovers", "Assumptions in force"):
+        assert sum(text.startswith(heading + " ") for text in pages) == 1, heading
+
+
+def test_pdf_tables_repeat_their_header_rows_on_every_page():
+    """A study of 40 tasks: its 150-odd handovers run over several pages, each starting
+    with the table's header row."""
+    document = synthetic_study(tasks=40, links=120, events=5, plans=2, seed=3)
+    source = source_of(document, document["plans"][1]["id"])
+    pages = [
+        normal(page.extract_text()) for page in PdfReader(io.BytesIO(report_pdf(source))).pages
+    ]
+    header = "Source From To Agents Per day Time ratio Likelihood Severity Risk Band Cue"
+    start = next(i for i, text in enumerate(pages) if text.startswith("Handovers "))
+    assert pages[start].startswith("Handovers " + header)
+    following = []
+    for text in pages[start + 1 :]:
+        if not text.startswith(header):
+            break
+        following.append(text)
+    assert len(following) >= 2
+    assert "Findings Kind Severity Tasks Message" in following[-1]
 
 
 # -- views ----------------------------------------------------------------------------

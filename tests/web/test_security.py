@@ -202,7 +202,7 @@ def test_exports_keep_markup_as_text(client, hostile, owner):
 
     assert not unescaped(export("html").decode())
     pdf = "".join(page.extract_text() for page in PdfReader(io.BytesIO(export("pdf"))).pages)
-    # The PDF prints the text as typed (reportlab would read it as markup otherwise).
+    # The PDF prints the text as typed (the HTML it is laid out from escapes it).
     assert "<script>alert(1)</script>" in pdf.replace("\n", "")
     csv_text = export("csv").decode()
     assert SCRIPT in csv_text  # plain text in a text file, no formula

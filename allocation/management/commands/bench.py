@@ -61,6 +61,33 @@ def _median_seconds(work: Callable[[], object], repeats: int, collect: bool) -> 
     return statistics.median(times)
 
 
+def _peak_memory(work: Callable[[], bytes]) -> tuple[float, float, int]:
+    """Run ``work`` once in a forked process: its resident memory before, its peak (MB),
+    and the length of what it returned. A fork starts with the parent's pages, so the
+    difference is what the work itself needed."""
+    import multiprocessing
+
+    def status(key: str) -> float:
+        with open("/proc/self/status", encoding="ascii") as lines:
+            for line in lines:
+                if line.startswith(key + ":"):
+                    return int(line.split()[1]) / 1024  # kB
+        return float("nan")
+
+    def child(pipe) -> None:
+        before = status("VmRSS")
+        size = len(work())
+        pipe.send((before, status("VmHWM"), size))
+
+    context = multiprocessing.get_context("fork")
+    receive, send = context.Pipe(duplex=False)
+    process = context.Process(target=child, args=(send,))
+    process.start()
+    result = receive.recv()
+    process.join()
+    return result
+
+
 class Command(BaseCommand):
     help = "Measure the analysis engine against its targets; prints ratios from one run."
 
@@ -77,6 +104,11 @@ class Command(BaseCommand):
         parser.add_argument(
             "--no-snapshots", action="store_true", help="skip the snapshot verification timing"
         )
+        parser.add_argument(
+            "--export",
+            action="store_true",
+            help="also time the printable report (HTML and PDF; a few minutes)",
+        )
 
     def handle(
         self,
@@ -87,6 +119,7 @@ class Command(BaseCommand):
         no_web: bool,
         no_simulation: bool,
         no_snapshots: bool,
+        export: bool,
         **options,
     ) -> None:
         self.engine(repeats=repeats, seed=seed, large=large)
@@ -96,6 +129,9 @@ class Command(BaseCommand):
         if not no_simulation:
             self.stdout.write("")
             self.simulation(repeats=repeats, seed=seed)
+        if export:
+            self.stdout.write("")
+            self.export(repeats=repeats, seed=seed)
         if not no_web:
             self.stdout.write("")
             self.pages(repeats=max(repeats, 5), seed=seed)
@@ -216,6 +252,53 @@ class Command(BaseCommand):
             f"{SIMULATION_DAYS:,} days / an analysis {ratio:6.1f} (target <= "
             f"{SIMULATION_LIMIT:g}: {'met' if ratio <= SIMULATION_LIMIT else 'MISSED'})"
         )
+
+    def export(self, *, repeats: int, seed: int) -> None:
+        """The printable report (HTML and PDF) of the insulin example's largest plan (the
+        most handovers and findings) and of a 1,000-task study: the median time, and the
+        peak resident memory of a forked process that renders the PDF once (the imports
+        a first render makes included)."""
+        import json
+        from datetime import UTC, datetime
+        from importlib import resources
+
+        from allocation.exports import ExportSource
+        from allocation.exports.report import report_html, report_pdf
+
+        def source(document: dict, plan: str | None) -> ExportSource:
+            study = load_study(document).study
+            if plan is None:
+                analyses = [analyse_plan(study, p.id) for p in study.plans]
+                analysis = max(analyses, key=lambda a: len(a.handovers) + len(a.findings))
+            else:
+                analysis = analyse_plan(study, plan)
+            return ExportSource(
+                analysis=analysis,
+                document=document,
+                snapshot=None,
+                exported=datetime(2025, 3, 1, tzinfo=UTC),
+            )
+
+        example = resources.files("allocation.examples") / "closed-loop-insulin.json"
+        synthetic = synthetic_study(tasks=1000, links=3000, events=20, plans=4, seed=seed)
+        cases = [
+            ("insulin example", source(json.loads(example.read_text("utf-8")), None)),
+            ("1,000-task study", source(synthetic, synthetic["plans"][1]["id"])),
+        ]
+        # Memory first, while this process has rendered nothing yet: a fork reuses the
+        # heap its parent freed, which would hide what a render needs.
+        memory = [_peak_memory(lambda case=case: report_pdf(case)) for _label, case in cases]
+        for (label, case), (before, peak, pages) in zip(cases, memory, strict=True):
+            analysis = case.analysis
+            html_s = _median_seconds(lambda case=case: report_html(case), repeats, True)
+            pdf_s = _median_seconds(lambda case=case: report_pdf(case), repeats, True)
+            self.stdout.write(
+                f"report of {label}, plan {analysis.plan.id} ({len(analysis.study.leaves)} "
+                f"tasks, {len(analysis.handovers)} handovers, {len(analysis.findings)} "
+                f"findings): HTML {html_s * 1000:.0f} ms, PDF {pdf_s * 1000:.0f} ms "
+                f"({pages:,} bytes); peak RSS {peak:.0f} MB ({peak - before:.0f} MB above "
+                f"the process before the render)"
+            )
 
     def pages(self, *, repeats: int, seed: int) -> None:
         """Plan editor timings on the 1,000-task study, in a throw-away test database."""
