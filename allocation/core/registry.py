@@ -29,6 +29,7 @@ from .describe import seconds_text
 from .vocabulary import ASSIGNMENT_STATUSES, CHANNELS
 
 __all__ = [
+    "PERSON_FIGURES",
     "ASSIGNMENT_STATUS_WORDS",
     "ASSUMPTION_STATUS_WORDS",
     "AWARENESS_FACTORS",
@@ -146,7 +147,6 @@ FIGURES: dict[str, Figure] = _figures(
         2,
         LOWER,
         "night-interruptions",
-        short="At night",
     ),
     F(
         "awake_share_used",
@@ -297,6 +297,18 @@ LIKELIHOOD_FACTORS: dict[str, Figure] = _figures(
 )
 
 del F
+
+
+#: A person's daily figures, in the order every table of a person's day shows them
+#: (the dashboard, the printable report).
+PERSON_FIGURES = (
+    "burden_s_per_day",
+    "monitoring_s_per_day",
+    "interactions_per_day",
+    "interruptions_per_day",
+    "night_interruptions_per_day",
+    "awake_share_used",
+)
 
 
 def figure(key: str) -> Figure:

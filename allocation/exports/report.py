@@ -20,10 +20,11 @@ from typing import Any
 from django.template.loader import render_to_string
 from django.utils.safestring import SafeString, mark_safe
 
+from allocation.core.analysis.compare import HEADLINE_FIGURES
 from allocation.core.analysis.report import METHODS
 from allocation.core.cautions import CAUTIONS
-from allocation.core.describe import seconds_text
 from allocation.core.methods import document_html, methods_document
+from allocation.core.registry import PERSON_FIGURES, figure, figure_text
 
 from .images import Chart, report_charts
 from .source import ExportSource
@@ -114,15 +115,8 @@ HANDOVER_HEADINGS = (
     "Cue",
 )
 FINDING_HEADINGS = ("Kind", "Severity", "Tasks", "Message")
-PEOPLE_HEADINGS = (
-    "Person",
-    "Time / day",
-    "Interactions / day",
-    "Interruptions / day",
-    "At night / day",
-    "Monitoring / day",
-    "Share of waking day",
-)
+#: The people table: each person\'s daily figures, headed in the registry\'s words.
+PEOPLE_HEADINGS = ("Person", *(figure(key).heading for key in PERSON_FIGURES))
 ASSUMPTION_HEADINGS = ("Key", "Value in force", "Default", "Status", "Source")
 
 
@@ -225,35 +219,17 @@ def _allocation(source: ExportSource) -> list[list[str]]:
 
 def _people(source: ExportSource) -> list[list[str]]:
     study = source.study
-    return [
-        [
-            study.agents_by_id[agent_id].name,
-            seconds_text(person.burden_s_per_day),
-            f"{person.interactions_per_day:.1f}",
-            f"{person.interruptions_per_day:.1f}",
-            f"{person.night_interruptions_per_day:.2f}",
-            seconds_text(person.monitoring_s_per_day),
-            f"{person.load:.1%}",
-        ]
-        for agent_id, person in source.analysis.people.items()
-    ]
+    rows = []
+    for agent_id, person in source.analysis.people.items():
+        figures = person.to_json()
+        cells = [figure_text(key, figures[key]) for key in PERSON_FIGURES]
+        rows.append([study.agents_by_id[agent_id].name, *cells])
+    return rows
 
 
 def _headline(source: ExportSource) -> list[tuple[str, str]]:
     figures = source.analysis.headline()
-    return [
-        ("Person time per day", seconds_text(figures["burden_s_per_day"])),
-        ("Interruptions per day", f"{figures['interruptions_per_day']:.1f}"),
-        ("Interruptions at night per day", f"{figures['night_interruptions_per_day']:.2f}"),
-        (
-            "Handovers (to review)",
-            f"{figures['handovers']} ({figures['handovers_to_review']})",
-        ),
-        ("Highest handover risk", str(figures["max_risk"])),
-        ("Mean mode awareness", f"{figures['mean_awareness']:.3f}"),
-        ("Cut ratio / modularity", f"{figures['cut_ratio']:.3f} / {figures['modularity']:.3f}"),
-        ("Findings", str(figures["findings"])),
-    ]
+    return [(figure(key).label, figure_text(key, figures[key])) for key in HEADLINE_FIGURES]
 
 
 def _handovers(source: ExportSource) -> list[list[str]]:

@@ -19,6 +19,7 @@ from allocation.core.registry import (
     AWARENESS_FACTORS,
     HANDOVER_SOURCES,
     LIKELIHOOD_FACTORS,
+    PERSON_FIGURES,
     figure_text,
     finding_kind,
 )
@@ -37,15 +38,6 @@ HEADLINE_FIGURES = (
     "handovers",
     "handovers_to_review",
     "findings",
-)
-#: A person's daily figures, the columns of the table of each person's day.
-PERSON_FIGURES = (
-    "burden_s_per_day",
-    "monitoring_s_per_day",
-    "interactions_per_day",
-    "interruptions_per_day",
-    "night_interruptions_per_day",
-    "awake_share_used",
 )
 #: The coherence figures and where the analysis keeps them.
 COHERENCE_FIGURES = ("cut_ratio", "modularity")
