@@ -17,10 +17,22 @@ from django.db.models import F, Q
 from allocation.core import vocabulary
 from allocation.core.canonical import BATON_1
 from allocation.core.canonical import FORMS as CANONICAL_FORMS
-from allocation.core.registry import ASSIGNMENT_STATUS_WORDS, DECISION_STATUS_WORDS
+from allocation.core.registry import (
+    ASSIGNMENT_STATUS_WORDS,
+    CAUSE_WORDS,
+    CUE_WORDS,
+    DECISION_STATUS_WORDS,
+    INITIATOR_WORDS,
+    Term,
+)
 
 if TYPE_CHECKING:
     from django.contrib.auth.models import User
+
+
+def _words(words: dict[str, Term]) -> list[tuple[str, str]]:
+    """The choices of a fixed list in the registry's words."""
+    return [(key, term.label) for key, term in words.items()]
 
 
 def _choices(values: tuple[str, ...] | dict) -> list[tuple[str, str]]:
@@ -277,9 +289,11 @@ class AssignmentFields(models.Model):
     accountable = models.ForeignKey(
         Agent, on_delete=models.RESTRICT, null=True, blank=True, related_name="+"
     )
-    feedback = models.CharField(max_length=16, blank=True, choices=_choices(vocabulary.CUES))
+    feedback = models.CharField(max_length=16, blank=True, choices=_words(CUE_WORDS))
     initiator = models.CharField(
-        max_length=16, blank=True, choices=_choices(vocabulary.INITIATORS)
+        max_length=16,
+        blank=True,
+        choices=_words(INITIATOR_WORDS),
     )
     status = models.CharField(
         max_length=16,
@@ -361,8 +375,8 @@ class ModeTransition(models.Model):
     source = models.ForeignKey(ModeState, on_delete=models.CASCADE, related_name="+")
     target = models.ForeignKey(ModeState, on_delete=models.CASCADE, related_name="+")
     trigger = models.CharField(max_length=300)
-    by = models.CharField(max_length=16, choices=_choices(vocabulary.TRANSITION_CAUSES))
-    cue = models.CharField(max_length=16, choices=_choices(vocabulary.CUES))
+    by = models.CharField(max_length=16, choices=_words(CAUSE_WORDS))
+    cue = models.CharField(max_length=16, choices=_words(CUE_WORDS))
     per_day = models.FloatField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)

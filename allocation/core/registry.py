@@ -26,9 +26,12 @@ from typing import Any
 
 from .assumptions import MEMORY, PRACTICE, PUBLISHED, TOOL
 from .describe import seconds_text
-from .vocabulary import ASSIGNMENT_STATUSES, CHANNELS
+from .vocabulary import ASSIGNMENT_STATUSES, CHANNELS, CUES, INITIATORS, TRANSITION_CAUSES
 
 __all__ = [
+    "INITIATOR_WORDS",
+    "CAUSE_WORDS",
+    "CUE_WORDS",
     "PERSON_FIGURES",
     "ASSIGNMENT_STATUS_WORDS",
     "ASSUMPTION_STATUS_WORDS",
@@ -608,6 +611,37 @@ CATEGORIES: dict[str, Term] = _terms(
 )
 
 
+#: How the person is told of a change (a transition's ``cue``, an assignment's
+#: ``feedback``), strongest first.
+CUE_WORDS: dict[str, Term] = _terms(
+    sorted(CUES, key=("alert_confirm", "alert", "display", "on_request", "none").index),
+    {
+        "alert_confirm": ("Alert to confirm", "An alert the person must acknowledge."),
+        "alert": ("Alert", "An alert: always noticed."),
+        "display": ("Display change only", "Shown on the display: may be missed."),
+        "on_request": ("Shown on request", "Shown only when the person asks: may be missed."),
+        "none": ("No cue", "Nothing tells the person: never noticed."),
+    },
+    "mode-check",
+)
+
+#: Who or what causes a transition of the mode map.
+CAUSE_WORDS: dict[str, Term] = _terms(
+    TRANSITION_CAUSES,
+    {
+        "human": ("The person", "An action of the person."),
+        "automation": ("The device", "The device changes its own mode."),
+        "event": ("An event", "An event of the study (a sensor signal lost, a meal)."),
+        "schedule": ("A schedule", "A time of day."),
+        "environment": ("The surroundings", "Something outside person and device."),
+    },
+    "mode-check",
+)
+
+#: Who starts a task (an assignment's ``initiator``): the causes a start can have.
+INITIATOR_WORDS: dict[str, Term] = {key: CAUSE_WORDS[key] for key in INITIATORS}
+
+
 def anchors() -> dict[str, set[str]]:
     """Every anchor of the methods document the registry names, with who names it."""
     named: dict[str, set[str]] = {}
@@ -621,6 +655,8 @@ def anchors() -> dict[str, set[str]]:
             *RISK_BANDS.values(),
             *HANDOVER_SOURCES.values(),
             *CATEGORIES.values(),
+            *CUE_WORDS.values(),
+            *CAUSE_WORDS.values(),
         ],
     }
     for what, items in tables.items():

@@ -16,6 +16,8 @@ import math
 from typing import Any
 
 from allocation.core.model import ModeMap
+from allocation.core.registry import CAUSE_WORDS as REGISTRY_CAUSES
+from allocation.core.registry import CUE_WORDS
 from allocation.figures.base import ACCENT, INK, INK_SOFT, PAPER
 
 __all__ = ["CAUSE_COLOURS", "CAUSE_WORDS", "CUE_LINES", "mode_map_figure"]
@@ -29,21 +31,20 @@ CAUSE_COLOURS = {
     "schedule": "#4a5a6e",
     "environment": "#8a5a3c",
 }
-CAUSE_WORDS = {
-    "human": "the person",
-    "automation": "the device",
-    "event": "an event",
-    "schedule": "a schedule",
-    "environment": "the surroundings",
-}
-#: How a transition is cued: plotly's line dash and width, and words for the legend.
+#: How a transition is cued: plotly's line dash and width, and the registry's words for
+#: the legend.
 CUE_LINES = {
-    "alert_confirm": ("solid", 3.5, "alert to confirm"),
-    "alert": ("solid", 2.2, "alert"),
-    "display": ("dash", 1.8, "display change only"),
-    "on_request": ("dashdot", 1.8, "shown on request"),
-    "none": ("dot", 1.8, "no cue"),
+    cue: (dash, width, CUE_WORDS[cue].label.lower())
+    for cue, dash, width in (
+        ("alert_confirm", "solid", 3.5),
+        ("alert", "solid", 2.2),
+        ("display", "dash", 1.8),
+        ("on_request", "dashdot", 1.8),
+        ("none", "dot", 1.8),
+    )
 }
+#: Who causes a transition, in the registry's words (as the diagram's hover text reads).
+CAUSE_WORDS = {cause: term.label.lower() for cause, term in REGISTRY_CAUSES.items()}
 RADIUS = 1.0
 NODE_SIZE = 0.17  # how far from a mode's centre its arrows stop, in axis units
 

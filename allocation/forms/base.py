@@ -3,13 +3,17 @@ writes them; the core then checks the item with an import's messages."""
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
 from django import forms
 
+from allocation.core.registry import Term
 
-def optional_choices(choices: tuple[str, ...], blank: str) -> list[tuple[str, str]]:
-    return [("", blank)] + [(value, value.replace("_", " ")) for value in choices]
+
+def optional_choices(words: Mapping[str, Term], blank: str) -> list[tuple[str, str]]:
+    """A select of a fixed list in the registry's words, with ``blank`` for "not given"."""
+    return [("", blank)] + [(value, term.label) for value, term in words.items()]
 
 
 def file_number(value: Any) -> float | int | None:

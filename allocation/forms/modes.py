@@ -6,6 +6,7 @@ from typing import Any
 
 from django import forms
 
+from allocation.core.registry import CUE_WORDS
 from allocation.core.vocabulary import (
     CUES,
     TRANSITION_CAUSES,
@@ -53,7 +54,7 @@ class TransitionForm(ItemForm):
         label="caused by", choices=[(cause, cause) for cause in TRANSITION_CAUSES]
     )
     cue = forms.ChoiceField(
-        choices=[(cue, cue.replace("_", " ")) for cue in CUES],
+        choices=[(cue, CUE_WORDS[cue].label) for cue in CUES],
         help_text="how the person learns of the change",
     )
     per_day = forms.FloatField(

@@ -8,11 +8,9 @@ from typing import Any
 from django import forms
 
 from allocation.core import Study
+from allocation.core.registry import ASSIGNMENT_STATUS_WORDS, CUE_WORDS, INITIATOR_WORDS
 from allocation.core.scales import EK10_LEVELS, SV10_LEVELS
 from allocation.core.vocabulary import (
-    ASSIGNMENT_STATUSES,
-    CUES,
-    INITIATORS,
     STAGE_NAMES,
     STAGES,
 )
@@ -43,9 +41,11 @@ class AssignmentForm(forms.Form):
     per_stage = forms.BooleanField(required=False)
     level = forms.ChoiceField(required=False)
     accountable = forms.ChoiceField(required=False)
-    feedback = forms.ChoiceField(required=False, choices=optional_choices(CUES, "—"))
-    initiator = forms.ChoiceField(required=False, choices=optional_choices(INITIATORS, "—"))
-    status = forms.ChoiceField(required=False, choices=optional_choices(ASSIGNMENT_STATUSES, "—"))
+    feedback = forms.ChoiceField(required=False, choices=optional_choices(CUE_WORDS, "—"))
+    initiator = forms.ChoiceField(required=False, choices=optional_choices(INITIATOR_WORDS, "—"))
+    status = forms.ChoiceField(
+        required=False, choices=optional_choices(ASSIGNMENT_STATUS_WORDS, "—")
+    )
     rationale = forms.CharField(required=False, max_length=2000)
 
     def __init__(
@@ -158,7 +158,9 @@ class BulkForm(forms.Form):
 
     tasks = forms.MultipleChoiceField()
     level = forms.ChoiceField(required=False)
-    status = forms.ChoiceField(required=False, choices=optional_choices(ASSIGNMENT_STATUSES, "—"))
+    status = forms.ChoiceField(
+        required=False, choices=optional_choices(ASSIGNMENT_STATUS_WORDS, "—")
+    )
 
     def __init__(self, *args: Any, study: Study, **kwargs: Any):
         super().__init__(*args, **kwargs)

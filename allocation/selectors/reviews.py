@@ -33,6 +33,7 @@ from allocation.core.analysis.handovers import Handover
 from allocation.core.describe import severity_text
 from allocation.core.registry import (
     ASSIGNMENT_STATUS_WORDS,
+    CUE_WORDS,
     FINDING_KINDS,
     HANDOVER_SOURCES,
     RISK_BANDS,
@@ -198,7 +199,7 @@ def _assignment_item(
     if assignment is not None and assignment.accountable:
         facts.append(("Accountable", _agent_name(study, assignment.accountable)))
     if assignment is not None and assignment.feedback:
-        facts.append(("Feedback", assignment.feedback.replace("_", " ")))
+        facts.append(("Feedback", CUE_WORDS[assignment.feedback].label))
     words = ASSIGNMENT_STATUS_WORDS[status].label if status else None
     facts.append(("Status", words or "not set"))
     if analysis is not None and task_id in analysis.tasks:
@@ -253,7 +254,7 @@ def _handover_item(study: Study, plan_id: str, handover: Handover) -> ReviewItem
         ),
         ("Severity", severity_text(handover.severity)),
         (figure("risk").label, f"{handover.risk} ({RISK_BANDS[handover.band].label})"),
-        ("Cue", (site.cue or "none").replace("_", " ")),
+        ("Cue", CUE_WORDS[site.cue or "none"].label),
     ]
     band = RISK_BANDS[handover.band].label.lower()
     reasons = [f"{band} band"] if handover.band in REVIEW_BANDS else []

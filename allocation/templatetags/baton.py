@@ -34,6 +34,8 @@ TERMS = {
     "risk-band": registry.RISK_BANDS,
     "handover-source": registry.HANDOVER_SOURCES,
     "category": registry.CATEGORIES,
+    "cue": registry.CUE_WORDS,
+    "cause": registry.CAUSE_WORDS,
 }
 
 
