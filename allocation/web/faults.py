@@ -5,7 +5,7 @@ through a write rolls the whole write back: nothing is half-stored. What is left
 tell the person so, instead of a bare "Server Error": :class:`DatabaseUnavailableMiddleware`
 turns a ``django.db.OperationalError`` or ``InterfaceError`` raised by a view into a 503
 page saying that the database could not be reached, that nothing was saved and that they
-may try again; :func:`allocation.views.errors.server_error` (``handler500``) does the same
+may try again; :func:`allocation.web.errors.server_error` (``handler500``) does the same
 for one raised outside the views (in a middleware, or while a response is finished).
 
 The pages never show a stack trace or the error's text (which may name the database's
