@@ -2,7 +2,7 @@
 figures moving with it.
 
 Expected changes are worked by hand on the home-heating test study (see the
-docstring of ``tests/web/test_charts.py``): in plan "auto" the resident monitors T2,
+docstring of ``tests/web/test_figures_dashboards.py``): in plan "auto" the resident monitors T2,
 which occurs once a day, and supervises it at sv10 level 7 (4 s by default); their time
 a day is 10/3 + 4 + 10 = 52/3 s. The handovers of plan "auto" have risks 6 and 4.
 """

@@ -332,7 +332,7 @@ def test_report_charts_are_the_dashboards_figures_in_the_screens_palette(auto):
     assert human in svg_fills(svgs["goals-1"])
     assert "G1 Keep the home comfortable" in svg_lines(svgs["goals-1"])
     # The risk policy's three bands in the style sheet's band colours; the two
-    # handovers (severity 2, bands 2 and 3: test_charts) leave 23 of 25 cells empty.
+    # handovers (severity 2, bands 2 and 3: test_figures_dashboards) leave 23 of 25 cells empty.
     bands = {style_colour(f".band-{band}") for band in ("acceptable", "review", "unacceptable")}
     assert bands <= svg_fills(svgs["risk"])
     assert svg_lines(svgs["risk"]).count("·") == 23
