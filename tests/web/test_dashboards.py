@@ -47,7 +47,7 @@ def test_full_page_has_every_panel_chart_and_method_note(client, study, owner):
         assert source in page, source
     assert "Endsley &amp; Kiris (1995)" in page and "Eriksson &amp; Stanton (2017)" in page
     assert "example risk policy, not a recommendation" in page
-    # The resident's 52/3 s a day in plan "auto", by hand (test_figures_dashboards module docstring).
+    # The resident's 52/3 s a day in plan "auto", by hand (test_figures_dashboards docstring).
     assert "17.3 s" in page
     daily = chart_data(page, "figure-daily")
     assert daily["data"][0]["y"][0] * 60 == pytest.approx(52 / 3)
