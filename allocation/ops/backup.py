@@ -10,12 +10,17 @@ The file is gzip-compressed UTF-8 text, one JSON object per line:
 - then every row, grouped by model in the manifest's order and by primary key within a
   model: ``{"model": label, "pk": pk, "fields": {name: value}}``.
 
-A row's **canonical text** is that object written with sorted keys, no spaces, UTF-8
-(``ensure_ascii`` off) and one ``"\\n"`` after it; dates and times are ISO 8601 with
-their microseconds and offset. A model's hash is the SHA-256 of its rows' canonical
-texts in file order. Values are Django's own serialized forms (the ``python`` serializer,
-so a foreign key is the primary key it points to), which is why every field a model has,
-now or after a migration, is carried without this module naming any of them.
+A row is written as the database gives it: keys in their own order (a row's ``model``,
+``pk`` and ``fields``, the fields in the model's order, and a JSON-valued field's keys in
+the order it was stored with, so a study file's demands or stage splits come back in the
+order its author wrote them), no spaces, UTF-8 (``ensure_ascii`` off), one ``"\\n"``
+after it. A row's **canonical text** is the same object written with sorted keys; dates
+and times are ISO 8601 with their microseconds and offset. A model's hash is the SHA-256
+of its rows' canonical texts in file order, so the hash does not depend on key order and
+files written before rows kept their order (with sorted keys) check and restore alike.
+Values are Django's own serialized forms (the ``python`` serializer, so a foreign key is
+the primary key it points to), which is why every field a model has, now or after a
+migration, is carried without this module naming any of them.
 
 What is backed up: every model of the ``allocation`` app (studies with all their rows,
 memberships, snapshots, comments, decisions, workload ratings, the audit trail,
@@ -192,6 +197,11 @@ def canonical_line(row: dict[str, Any]) -> str:
     )
 
 
+def _stored_line(row: dict[str, Any]) -> str:
+    """A row as the file holds it: its keys in their own order (see the module text)."""
+    return json.dumps(row, separators=(",", ":"), ensure_ascii=False, default=_plain) + "\n"
+
+
 def _chunks(items: Iterable[Any], size: int) -> Iterator[list[Any]]:
     batch: list[Any] = []
     for item in items:
@@ -203,16 +213,20 @@ def _chunks(items: Iterable[Any], size: int) -> Iterator[list[Any]]:
         yield batch
 
 
-def _rows(model: type[models.Model], names: list[str], using: str) -> Iterator[str]:
-    """A model's rows from the database as canonical lines, by primary key."""
+def _rows(model: type[models.Model], names: list[str], using: str) -> Iterator[dict[str, Any]]:
+    """A model's rows from the database, by primary key, as the python serializer gives
+    them (a JSON-valued field keeps the key order the database returns)."""
     serializer = serializers.get_serializer("python")()
     objects = model._base_manager.using(using).order_by("pk").iterator(chunk_size=_CHUNK)
     for batch in _chunks(objects, _CHUNK):
         for row in serializer.serialize(batch, fields=names):
             # Only the named fields: a model's many-to-many lists (the user's groups and
             # permissions) are not part of the row.
-            row["fields"] = {name: row["fields"][name] for name in names}
-            yield canonical_line(row)
+            yield {
+                "model": row["model"],
+                "pk": row["pk"],
+                "fields": {name: row["fields"][name] for name in names},
+            }
 
 
 @contextlib.contextmanager
@@ -281,10 +295,9 @@ def backup_write(path: str | os.PathLike, *, using: str = DEFAULT_DB_ALIAS) -> M
             for model in chosen:
                 entry = ModelEntry(_label(model), _field_names(model))
                 digest = hashlib.sha256()
-                for line in _rows(model, entry.fields, using):
-                    data = line.encode("utf-8")
-                    digest.update(data)
-                    body.write(data)
+                for row in _rows(model, entry.fields, using):
+                    digest.update(canonical_line(row).encode("utf-8"))
+                    body.write(_stored_line(row).encode("utf-8"))
                     entry.count += 1
                 entry.sha256 = digest.hexdigest()
                 manifest.models.append(entry)
@@ -576,8 +589,8 @@ def _verify_stored(manifest: Manifest, found: dict[str, type[models.Model]], usi
     for entry in manifest.models:
         digest = hashlib.sha256()
         count = 0
-        for line in _rows(found[entry.label], entry.fields, using):
-            digest.update(line.encode("utf-8"))
+        for row in _rows(found[entry.label], entry.fields, using):
+            digest.update(canonical_line(row).encode("utf-8"))
             count += 1
         digests[entry.label], counts[entry.label] = digest, count
     _compare(

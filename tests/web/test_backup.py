@@ -20,6 +20,7 @@ import stat
 from pathlib import Path
 
 import pytest
+from django.contrib.auth import get_user_model
 from django.core.management import call_command
 from django.core.management.base import CommandError
 from django.core.management.color import no_style
@@ -317,3 +318,49 @@ def test_every_column_of_every_table_is_in_the_backup(saved):
             }
             assert stored == columns - {model._meta.pk.column}, table
     assert "password" in by_label["auth.user"]["fields"]
+
+
+def downloads(client) -> dict[str, tuple[bytes, bytes]]:
+    """Each study's study-file download (the view's bytes) and its first plan's XLSX
+    export with a fixed export time, by study key."""
+    from datetime import UTC, datetime
+
+    from allocation.exports.source import export_source
+    from allocation.exports.xlsx import allocation_xlsx
+
+    selectors.study_cache_clear()
+    found = {}
+    for row in m.Study.objects.order_by("key"):
+        study_file = client.get(f"/studies/{row.pk}/download")
+        assert study_file.status_code == 200, row.key
+        plan = selectors.study_document(row)["plans"][0]["id"]
+        source = export_source(row, plan, now=datetime(2025, 3, 1, 9, 30, tzinfo=UTC))
+        found[row.key] = (study_file.content, allocation_xlsx(source))
+    return found
+
+
+def test_restored_studies_download_and_export_the_same_bytes(db, tmp_path, client):
+    """The example studies write their channel demands, stage splits, response times
+    and levels with keys out of sorted order (visual before auditory, acquisition before
+    action): the study file and the XLSX export of a restored database must be the bytes
+    of the original's, which they are only if the backup keeps each value's key order."""
+    owner = make_user("olive")
+    client.force_login(owner)
+    services.examples_load(owner=owner)
+    example = json.loads(Path("allocation/examples/home-heating.json").read_text())
+    demands = next(task["demands"] for task in example["tasks"] if "demands" in task)
+    assert list(demands) != sorted(demands)  # the case the test is about
+    before = downloads(client)
+    assert set(before) == {"home-heating", "driver-support", "closed-loop-insulin"}
+    # The downloaded study file keeps the example file's own order (its reference).
+    home = json.loads(before["home-heating"][0])
+    assert list(next(t["demands"] for t in home["tasks"] if "demands" in t)) == list(demands)
+    path = tmp_path / "baton.jsonl.gz"
+    call_command("backup", str(path), verbosity=0)
+    empty_database()
+    call_command("restore", str(path), verbosity=0)
+    client.force_login(get_user_model().objects.get(username="olive"))
+    after = downloads(client)
+    for key, (study_file, workbook) in before.items():
+        assert after[key][0] == study_file, f"{key}: study file"
+        assert after[key][1] == workbook, f"{key}: XLSX export"
