@@ -58,6 +58,8 @@ def _visit(page, url, console):
     assert page.evaluate("window.__violations") == [], url
     assert console == [], url
     assert page.javascript_errors == [], url
+    # base.html's htmx-config meta tag: htmx evaluates no strings at all.
+    assert page.evaluate("window.htmx.config.allowEval") is False, url
 
 
 def _links(page, prefix):
