@@ -4,7 +4,7 @@ evaluate a string, and the plan editor's selection boxes select without saving.
 
 The oracle is the browser itself: Chromium reports every refused script as a
 ``securitypolicyviolation`` event and an ``EvalError`` on the console (W3C Content
-Security Policy Level 3, section 4.2, "unsafe-eval")."""
+Security Policy Level 3, the "unsafe-eval" keyword)."""
 
 from __future__ import annotations
 
