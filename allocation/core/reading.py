@@ -72,6 +72,55 @@ def child_path(path: str, key: str | int) -> str:
     return f"{path}[{json.dumps(key)}]"
 
 
+#: Python's own limit on converting digits to an int (sys.get_int_max_str_digits()).
+INTEGER_DIGITS = 4300
+
+
+class _TooManyDigits(ValueError):
+    pass
+
+
+def _parse_int(digits: str) -> int:
+    """An integer of the file, refusing more digits than Python converts."""
+    if len(digits.lstrip("-")) > INTEGER_DIGITS:
+        raise _TooManyDigits(
+            f"the file holds an integer of {len(digits.lstrip('-'))} digits (it starts "
+            f"{digits[:12]}…); numbers may have at most {INTEGER_DIGITS} digits"
+        )
+    return int(digits)
+
+
+def _surrogate_in(text: str) -> str | None:
+    for char in text:
+        if "\ud800" <= char <= "\udfff":
+            return f"U+{ord(char):04X}"
+    return None
+
+
+def _lone_surrogate(value: Any, path: str) -> Problem | None:
+    """The first string or key holding a lone surrogate (not text: no UTF-8 for it)."""
+    stack = [(value, path)]
+    while stack:
+        item, where = stack.pop()
+        if isinstance(item, str):
+            code = _surrogate_in(item)
+            if code:
+                return Problem(where, f"contains a lone surrogate ({code}), which is not text")
+        elif isinstance(item, dict):
+            for key, child in reversed(list(item.items())):
+                code = _surrogate_in(key)
+                if code:
+                    return Problem(
+                        where, f"a key contains a lone surrogate ({code}), which is not text"
+                    )
+                stack.append((child, child_path(where, key)))
+        elif isinstance(item, list):
+            stack.extend(
+                (child, child_path(where, i)) for i, child in reversed(list(enumerate(item)))
+            )
+    return None
+
+
 def parse_json_text(text: str | bytes) -> tuple[Any, list[Problem]]:
     """Parse JSON text; a syntax error becomes a problem naming line and column.
 
@@ -87,14 +136,27 @@ def parse_json_text(text: str | bytes) -> tuple[Any, list[Problem]]:
             result[key] = value
         return result
 
+    if isinstance(text, bytes) and (
+        text.startswith((b"\xff\xfe", b"\xfe\xff"))
+        or (len(text) >= 2 and (text[0] == 0 or text[1] == 0))
+    ):
+        # json.loads would detect UTF-16 and UTF-32 and read them; the format is UTF-8 only.
+        return None, [
+            Problem("$", "the file must be UTF-8 text (this looks like UTF-16 or UTF-32)")
+        ]
     try:
-        data = json.loads(text, object_pairs_hook=unique_keys)
+        data = json.loads(text, object_pairs_hook=unique_keys, parse_int=_parse_int)
         if repeated:
             keys = ", ".join(json.dumps(key) for key in dict.fromkeys(repeated))
             return None, [
                 Problem("$", f"a key appears twice in one object: {keys}; give each key once")
             ]
+        surrogate = _lone_surrogate(data, "$")
+        if surrogate:
+            return None, [surrogate]
         return data, []
+    except _TooManyDigits as error:
+        return None, [Problem("$", str(error))]
     except UnicodeDecodeError:
         return None, [Problem("$", "the file is not UTF-8 text")]
     except RecursionError:

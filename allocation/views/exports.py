@@ -18,7 +18,8 @@ def _snapshot(request: HttpRequest, row: m.Study) -> m.Snapshot | None:
     value = request.GET.get("snapshot", "").strip()
     if not value:
         return None
-    if not value.isdigit():
+    # isdigit alone lets through digits int() refuses ("²") and numbers of any length.
+    if not (value.isascii() and value.isdigit() and len(value) <= 18):
         raise Http404("The snapshot is named by its number.")
     return exports.snapshot_of_study(row, int(value))
 
@@ -64,6 +65,8 @@ def snapshot_study_download(request: HttpRequest, row: m.Study) -> HttpResponse:
     """A snapshot's study file: its canonical text byte for byte, so that the file's
     SHA-256 is the snapshot's hash; the hash is also in the file name and a header."""
     snapshot = _snapshot(request, row)
+    if snapshot is None:
+        raise Http404("The snapshot is named by its number.")
     response = HttpResponse(
         snapshot.canonical.encode("utf-8"), content_type="application/json; charset=utf-8"
     )

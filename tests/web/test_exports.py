@@ -724,3 +724,11 @@ def test_export_study_command_from_a_snapshot_and_its_errors(study, owner, tmp_p
 
 def test_export_bytes_dispatches_by_format(auto):
     assert export_bytes(auto, "csv") == allocation_csv(auto)
+
+
+@pytest.mark.parametrize("value", ["%20", "abc", "%C2%B2", "9" * 40])
+def test_study_download_odd_snapshot_number_is_not_found(client, owner, study, value):
+    """A blank, non-numeric, non-ASCII digit or overlong snapshot number: 404, not 500."""
+    client.force_login(owner)
+    url = reverse("study-download", args=[study.pk]) + "?snapshot=" + value
+    assert client.get(url).status_code == 404
