@@ -149,3 +149,26 @@ def test_analysis_of_unknown_plan_is_404(client, study, owner):
     client.force_login(owner)
     response = client.get(reverse("plan-analysis-download", args=[study.pk, "nope"]))
     assert response.status_code == 404
+
+
+def test_an_upload_with_a_lone_surrogate_or_a_huge_integer_is_refused_by_path(
+    client, owner, heating_document
+):
+    """RFC 8259 §8.2: a lone surrogate is no Unicode text; Python refuses to convert
+    integers of more than 4300 digits. Either is a message beside the form, never a 500,
+    and nothing is stored."""
+    client.force_login(owner)
+    text = json.dumps(heating_document).replace(
+        json.dumps(heating_document["tasks"][1]["title"]), '"\\ud800"', 1
+    )
+    response = client.post(reverse("study-upload"), {"file": upload("s.json", text.encode())})
+    assert response.status_code == 400
+    assert "$.tasks[1].title" in response.content.decode()
+    assert "lone surrogate" in response.content.decode()
+    huge = json.dumps(heating_document).replace(
+        '"duration_s": ', '"duration_s": 9' + "9" * 4999 + ', "x": ', 1
+    )
+    response = client.post(reverse("study-upload"), {"file": upload("n.json", huge.encode())})
+    assert response.status_code == 400
+    assert "4300 digits" in response.content.decode()
+    assert not m.Study.objects.exists()
