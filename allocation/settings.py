@@ -19,6 +19,8 @@ import dj_database_url
 import plotly
 from django.core.exceptions import ImproperlyConfigured
 
+from allocation.core.limits import STUDY_FILE_MAX_BYTES
+
 BASE_DIR = Path(__file__).resolve().parent.parent
 
 
@@ -176,7 +178,7 @@ STORAGES = {
 }
 
 # Study files are read in memory; anything larger is refused before it is parsed.
-BATON_MAX_UPLOAD_BYTES = 5 * 1024 * 1024
+BATON_MAX_UPLOAD_BYTES = STUDY_FILE_MAX_BYTES
 DATA_UPLOAD_MAX_MEMORY_SIZE = BATON_MAX_UPLOAD_BYTES + 64 * 1024
 FILE_UPLOAD_MAX_MEMORY_SIZE = BATON_MAX_UPLOAD_BYTES + 64 * 1024
 # A request declaring more than this has its files skipped as they arrive (never kept in

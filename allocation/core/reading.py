@@ -16,6 +16,7 @@ from typing import Any
 
 from .assumptions import check_assumptions
 from .errors import Problem
+from .limits import INTEGER_DIGITS, LABEL_LENGTH, MAX_PER_DAY, PHRASE_LENGTH
 from .model import (
     Agent,
     Assignment,
@@ -54,14 +55,6 @@ _PLAIN_KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*\Z")
 _CLOCK = re.compile(r"^([0-9]{2}):([0-9]{2})(?::([0-9]{2}))?\Z")
 _MISSING = object()
 
-#: The most often anything may happen: a million times a day (about twelve a second).
-#: Rates, and ``every_days``, beyond it are surely typing mistakes.
-MAX_PER_DAY = 1_000_000
-#: The longest names and titles (of the study, agents, events, plans, modes), and the
-#: longest task titles and triggers: what a stored study keeps (the database columns).
-LABEL_LENGTH = 200
-PHRASE_LENGTH = 300
-
 
 def child_path(path: str, key: str | int) -> str:
     """The JSON path of ``key`` inside the value at ``path``."""
@@ -70,10 +63,6 @@ def child_path(path: str, key: str | int) -> str:
     if _PLAIN_KEY.match(key):
         return f"{path}.{key}"
     return f"{path}[{json.dumps(key)}]"
-
-
-#: Python's own limit on converting digits to an int (sys.get_int_max_str_digits()).
-INTEGER_DIGITS = 4300
 
 
 class _TooManyDigits(ValueError):

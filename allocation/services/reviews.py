@@ -21,6 +21,7 @@ from django.db import transaction
 
 from allocation import audit, selectors
 from allocation import models as m
+from allocation.core import limits
 from allocation.selectors.reviews import finding_key, handover_key
 
 from .conflicts import version_check
@@ -36,7 +37,7 @@ __all__ = [
 ]
 
 #: The longest comment, decision or rationale accepted (a page of text).
-TEXT_LIMIT = 10_000
+TEXT_LIMIT = limits.REVIEW_TEXT_LENGTH
 #: Kinds that belong to one plan, and those that belong to the study.
 PLAN_KINDS = (
     m.ReviewTarget.PLAN,

@@ -35,7 +35,7 @@ from django.utils import timezone
 
 from allocation import models as m
 from allocation import selectors
-from allocation.core import Study
+from allocation.core import Study, limits
 from allocation.core.simulation import (
     CHUNK_DAYS,
     SimulationChunk,
@@ -67,7 +67,7 @@ __all__ = [
 
 #: The most days one request may ask for (the database allows up to
 #: ``models.SIMULATION_DAYS_LIMIT``).
-SIMULATION_MAX_DAYS = 20_000
+SIMULATION_MAX_DAYS = limits.SIMULATION_MAX_DAYS
 #: Seeds are stored in a signed 64-bit column.
 SIMULATION_MAX_SEED = 2**63 - 1
 

@@ -21,6 +21,7 @@ import numpy as np
 from ..analysis.plan import analyse_plan, prepare
 from ..assumptions import resolve_assumptions
 from ..errors import BatonError
+from ..limits import SIMULATION_CORE_MAX_DAYS
 from ..model import Study
 from .engine import draw_chunk
 from .results import (
@@ -55,7 +56,7 @@ __all__ = [
 #: Days per chunk: the unit of progress, of cancelling and of work spread over workers.
 CHUNK_DAYS = 200
 #: The longest run accepted.
-MAX_DAYS = 100_000
+MAX_DAYS = SIMULATION_CORE_MAX_DAYS
 
 
 class SimulationCancelled(BatonError):

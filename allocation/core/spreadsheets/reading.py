@@ -34,7 +34,7 @@ import zipfile
 from dataclasses import dataclass, field
 from typing import Any
 
-from allocation.core import load_study
+from allocation.core import limits, load_study
 from allocation.core.reading import parse_json_text
 from allocation.core.spreadsheets.layout import ALLOCATION_COLUMNS, LINK_COLUMNS, TASK_COLUMNS
 from allocation.core.vocabulary import STAGES
@@ -62,15 +62,10 @@ __all__ = [
     "read_tables",
 ]
 
-#: The largest file read, in bytes (tool assumption: a study of a few thousand tasks
-#: exports to well under a megabyte).
-MAX_BYTES = 2 * 1024 * 1024
-#: The most bytes the members of an XLSX (a zip archive) may unpack to.
-MAX_UNPACKED_BYTES = 40 * 1024 * 1024
-#: The most data rows in one sheet.
-MAX_ROWS = 5000
-#: The most columns in one sheet (the widest sheet read has 23).
-MAX_COLUMNS = 60
+MAX_BYTES = limits.SPREADSHEET_MAX_BYTES
+MAX_UNPACKED_BYTES = limits.SPREADSHEET_MAX_UNPACKED_BYTES
+MAX_ROWS = limits.SPREADSHEET_MAX_ROWS
+MAX_COLUMNS = limits.SPREADSHEET_MAX_COLUMNS
 
 #: The parts of a study a file can change, in the order they are read.
 PARTS = ("tasks", "links", "allocation")
