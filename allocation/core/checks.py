@@ -14,7 +14,8 @@ from collections.abc import Callable, Iterable
 from typing import Any
 
 from .errors import Problem
-from .graph import hierarchy_cycle, never_occurring, precedence_cycle, triggers
+from .graph import chain_entries, hierarchy_cycle, never_occurring, precedence_cycle, triggers
+from .limits import CHAIN_ENTRIES_MAX
 from .model import Assignment, ModeMap, Plan, Study
 from .reading import child_path
 
@@ -76,8 +77,33 @@ class _Checker:
         for index, plan in enumerate(study.plans):
             self.plan(plan, self.locate(plan, f"$.plans[{index}]"))
         if cycle_free:
+            self.chain_size()
             self.occurrence_warnings()
         return self.problems
+
+    def chain_size(self) -> None:
+        """Refuse chains too large to analyse (``CHAIN_ENTRIES_MAX``), counted with a
+        budget so that the count itself stays bounded."""
+        total, counted = chain_entries(self.study, CHAIN_ENTRIES_MAX)
+        if total <= CHAIN_ENTRIES_MAX:
+            return
+        trigger = counted[-1][0]
+        if trigger.kind == "event":
+            index = next(i for i, e in enumerate(self.study.events) if e.id == trigger.id)
+            path = self.locate(self.study.events[index], f"$.events[{index}]")
+        else:
+            path = child_path(self.task_paths[trigger.roots[0]], "occurs")
+        largest = sorted(counted, key=lambda item: -item[1])[:3]
+        named = ", ".join(f"{t.id} ({n:,} tasks)" for t, n in largest)
+        self.error(
+            path,
+            f"the precedes chains hold at least {total:,} task-in-chain entries (each "
+            "trigger counts every task its chain reaches) after "
+            f"{len(counted):,} of the triggers; the limit is {CHAIN_ENTRIES_MAX:,} "
+            f"(CHAIN_ENTRIES_MAX), as chain analysis times every entry. Largest chains "
+            f"counted: {named}. Split the chain, or start fewer of its tasks by their own "
+            "schedule",
+        )
 
     def unique_ids(self, name: str, items: Iterable[Any], base: str) -> None:
         seen: dict[str, str] = {}

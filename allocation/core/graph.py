@@ -14,6 +14,7 @@ from .model import Event, Occurs, Study
 
 __all__ = [
     "Trigger",
+    "chain_entries",
     "chain_tasks",
     "hierarchy_cycle",
     "never_occurring",
@@ -143,6 +144,46 @@ def chain_tasks(study: Study, trigger: Trigger, graph: nx.DiGraph | None = None)
     for root in trigger.roots:
         members |= nx.descendants(graph, root)
     return [task_id for task_id in precedence_order(study) if task_id in members]
+
+
+def chain_entries(study: Study, budget: int) -> tuple[int, list[tuple[Trigger, int]]]:
+    """Count the task-in-chain entries of a study's chains, stopping once over ``budget``.
+
+    An entry is one task reachable from one trigger by ``precedes`` links (its roots
+    included); chain analysis times each entry, so the sum bounds its work. Counting
+    stops as soon as the sum passes ``budget``, so it costs O(budget) whatever the study.
+
+    Returns
+    -------
+    total : int
+        The entries counted: the exact sum when at most ``budget``, else a number over
+        ``budget`` ("at least").
+    counted : list of (Trigger, int)
+        Each trigger reached with the entries counted for it (the last one partial when
+        counting stopped).
+    """
+    successors: dict[str, list[str]] = {}
+    for link in study.links:
+        if link.kind == "precedes":
+            successors.setdefault(link.source, []).append(link.target)
+    total = 0
+    counted: list[tuple[Trigger, int]] = []
+    for trigger in triggers(study):
+        seen = set(trigger.roots)
+        stack = list(seen)
+        count = len(seen)
+        total += count
+        while stack and total <= budget:
+            for target in successors.get(stack.pop(), ()):
+                if target not in seen:
+                    seen.add(target)
+                    stack.append(target)
+                    count += 1
+                    total += 1
+        counted.append((trigger, count))
+        if total > budget:
+            break
+    return total, counted
 
 
 def never_occurring(study: Study) -> list[str]:

@@ -76,6 +76,12 @@ REVIEW_TEXT_LENGTH = 10_000
 
 # --- Study size and analyses ---------------------------------------------------------
 
+#: The most task-in-chain entries a study's chains may hold: the sum over its triggers of
+#: the tasks each can reach by ``precedes`` links. Chain analysis times every task of
+#: every chain, so its cost grows with this sum, which can grow with the square of the
+#: study's size (a long chain whose tasks each have their own schedule).
+CHAIN_ENTRIES_MAX = 100_000
+
 # --- Mode maps -----------------------------------------------------------------------
 
 # --- Simulation ----------------------------------------------------------------------
@@ -90,6 +96,13 @@ SIMULATION_CORE_MAX_DAYS = 100_000
 
 #: Every limit, for the README's Operations section and ``manage.py limits``.
 LIMITS: tuple[Limit, ...] = (
+    Limit(
+        "CHAIN_ENTRIES_MAX",
+        CHAIN_ENTRIES_MAX,
+        "task-in-chain entries",
+        "the sum over a study's triggers of the tasks each chain reaches",
+        "study checks (every read, import and edit), before any analysis",
+    ),
     Limit(
         "STUDY_FILE_MAX_BYTES",
         STUDY_FILE_MAX_BYTES,

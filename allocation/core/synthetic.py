@@ -15,7 +15,7 @@ from typing import Any
 from .reading import FORMAT_NAME, FORMAT_VERSION
 from .vocabulary import CHANNELS, CUES, STAGES, VACP_ANCHORS
 
-__all__ = ["synthetic_study"]
+__all__ = ["long_chain_study", "synthetic_study"]
 
 _CAPABILITIES = ("judgement", "sensing", "dosing", "alerting", "handling", "recording")
 
@@ -260,3 +260,48 @@ def _mode_map(rng: random.Random, leaves: list[str], scale: str) -> dict[str, An
             }
         )
     return {"initial": "normal", "states": states, "transitions": transitions}
+
+
+def long_chain_study(tasks: int) -> dict[str, Any]:
+    """A study with one ``precedes`` chain of ``tasks`` tasks, each with its own schedule.
+
+    Every task is its own trigger, so the trigger of the k-th task reaches the
+    ``tasks - k`` tasks after it: the chains hold ``tasks * (tasks + 1) / 2``
+    task-in-chain entries in all, the worst shape for chain analysis (quadratic in the
+    study's size).
+    """
+    ids = [f"T{index}" for index in range(tasks)]
+    leaves = [
+        {
+            "id": task_id,
+            "title": f"Step {index}",
+            "duration_s": [1, 2, 3],
+            "severity": 2,
+            "occurs": {"every_days": 1},
+        }
+        for index, task_id in enumerate(ids)
+    ]
+    links = [
+        {"from": source, "to": target, "kind": "precedes"}
+        for source, target in zip(ids, ids[1:], strict=False)
+    ]
+    return {
+        "format": FORMAT_NAME,
+        "version": FORMAT_VERSION,
+        "study": {
+            "id": f"long-chain-{tasks}",
+            "title": f"Long chain of {tasks} tasks",
+            "scale": "sv10",
+        },
+        "agents": _agents()[:1],
+        "events": [],
+        "tasks": leaves,
+        "links": links,
+        "plans": [
+            {
+                "id": "P",
+                "name": "Plan",
+                "assignments": {task_id: {"human": "person"} for task_id in ids},
+            }
+        ],
+    }
