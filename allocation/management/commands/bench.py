@@ -18,15 +18,16 @@ from collections.abc import Callable
 
 from django.core.management.base import BaseCommand
 
-from allocation.core import load_study
+from allocation.core import load_study, load_study_text
 from allocation.core.analysis import analyse_plan, prepare
 from allocation.core.analysis.modecheck import verify_mode_map
 from allocation.core.assumptions import resolve_assumptions
 from allocation.core.canonical import BATON_1, CURRENT_FORM, canonical_json, digest, verify
 from allocation.core.graph import task_graph
+from allocation.core.limits import CHAIN_ENTRIES_MAX
 from allocation.core.registry import FIGURES, figure_text
 from allocation.core.simulation import simulate
-from allocation.core.synthetic import synthetic_study
+from allocation.core.synthetic import long_chain_study, synthetic_study
 from allocation.core.writing import study_to_json
 from allocation.examples import example_paths
 
@@ -123,6 +124,8 @@ class Command(BaseCommand):
         **options,
     ) -> None:
         self.engine(repeats=repeats, seed=seed, large=large)
+        self.stdout.write("")
+        self.chains()
         if not no_snapshots:
             self.stdout.write("")
             self.snapshots(repeats=repeats, seed=seed)
@@ -195,6 +198,36 @@ class Command(BaseCommand):
                 f";  {large:,} / 1,000 tasks: analysis {scale:5.2f}x, floor and analysis "
                 f"{whole:5.2f}x (target <= {SCALING_LIMIT:g}: "
                 f"{'met' if scale <= SCALING_LIMIT else 'MISSED'})"
+            )
+
+    def chains(self) -> None:
+        """Chain analysis at its limit (``CHAIN_ENTRIES_MAX``): a long chain whose tasks
+        each have their own schedule, just under the limit (analysed) and at 30,000 tasks
+        (refused by the study checks)."""
+        self.stdout.write("Chains at the limit of task-in-chain entries")
+        under = 1
+        while (under + 1) * (under + 2) // 2 <= CHAIN_ENTRIES_MAX:
+            under += 1
+        cases = (
+            (under, "checked and analysed"),
+            (30_000, "checked (refused)"),
+        )
+        for tasks, what in cases:
+            text = json.dumps(long_chain_study(tasks), separators=(",", ":"))
+
+            def work(text=text) -> bytes:
+                result = load_study_text(text)
+                if result.ok:
+                    analysis = analyse_plan(result.study, "P")
+                    return b"x" * sum(len(chain.tasks) for chain in analysis.chains)
+                return b"-" * len(result.errors)
+
+            started = time.perf_counter()
+            before, peak, size = _peak_memory(work)
+            seconds = time.perf_counter() - started
+            self.stdout.write(
+                f"  {tasks:>6} tasks ({tasks * (tasks + 1) // 2:,} entries), {what}: "
+                f"{seconds:.1f} s, peak {peak:.0f} MB ({peak - before:.0f} MB for the work)"
             )
 
     def snapshots(self, *, repeats: int, seed: int) -> None:
