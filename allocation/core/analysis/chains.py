@@ -44,11 +44,15 @@ class Span(NamedTuple):
     high: float
 
     def __add__(self, other: Span) -> Span:  # type: ignore[override]
+        if other is ZERO:  # shared, not copied: a chain holds many of them
+            return self
         return Span(self.low + other.low, self.typical + other.typical, self.high + other.high)
 
     @staticmethod
     def later(spans: list[Span]) -> Span:
         """Each of earliest, typical, latest: the latest among the spans."""
+        if len(spans) == 1:
+            return spans[0]
         return Span(
             max(s.low for s in spans), max(s.typical for s in spans), max(s.high for s in spans)
         )
@@ -202,10 +206,17 @@ def chain_timings(
                     handed = receiver is not None and holder(source) != receiver
                     arrivals.append((arrival, latency_of(receiver, arrival) if handed else ZERO))
                 ready = Span.later([arrival for arrival, _wait in arrivals])
-                start = Span.later([arrival + wait for arrival, wait in arrivals])
-                latency = Span(
-                    start.low - ready.low, start.typical - ready.typical, start.high - ready.high
-                )
+                if all(wait is ZERO for _arrival, wait in arrivals):
+                    # No handover: the start is the ready time itself, shared, which
+                    # keeps the memory per task-in-chain entry down.
+                    start, latency = ready, ZERO
+                else:
+                    start = Span.later([arrival + wait for arrival, wait in arrivals])
+                    latency = Span(
+                        start.low - ready.low,
+                        start.typical - ready.typical,
+                        start.high - ready.high,
+                    )
             task = study.task(task_id)
             done[task_id] = TaskTiming(
                 task_id=task_id,
