@@ -588,6 +588,17 @@ def _table(
     if not usable:
         return None
     rows = []
+    refused = False
+    for number, values in cells:
+        for index, value in enumerate(values):
+            message = _cell_refused(value)
+            if message:
+                label = columns[index] if index < len(columns) and columns[index] else ""
+                column = label or _column_letter(index + 1)
+                problems.append(RowProblem(name, number, column, message))
+                refused = True
+    if refused:
+        return None
     for number, values in cells[1:]:
         row = {
             label: values[index]
@@ -596,6 +607,35 @@ def _table(
         }
         rows.append((number, row))
     return Table(name, [c for c in columns if c in known], rows, header_row)
+
+
+_DIGIT_RUN = re.compile(rf"\d{{{limits.INTEGER_DIGITS + 1},}}")
+
+
+def _cell_refused(value: Any) -> str | None:
+    """Why a cell's raw value is not read at all: it holds a lone surrogate (not text:
+    no UTF-8 for it), is longer than any text of a study, or holds an integer longer
+    than Python converts (``limits.INTEGER_DIGITS``)."""
+    if isinstance(value, int) and not isinstance(value, bool):
+        if abs(value) >= 10**limits.INTEGER_DIGITS:
+            return f"holds an integer of more than {limits.INTEGER_DIGITS:,} digits"
+        return None
+    if not isinstance(value, str):
+        return None
+    for char in value:
+        if "\ud800" <= char <= "\udfff":
+            return f"contains a lone surrogate (U+{ord(char):04X}), which is not text"
+    if len(value) > limits.NOTE_LENGTH:
+        return (
+            f"is {len(value):,} characters long; a cell holds at most "
+            f"{limits.NOTE_LENGTH:,} (limit NOTE_LENGTH)"
+        )
+    run = _DIGIT_RUN.search(value)
+    if run:
+        return (
+            f"holds a number of more than {limits.INTEGER_DIGITS:,} digits (limit INTEGER_DIGITS)"
+        )
+    return None
 
 
 # -- cells to study-file values -------------------------------------------------------
