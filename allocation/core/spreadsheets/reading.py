@@ -369,6 +369,12 @@ def _read_xlsx(data: bytes, max_rows: int) -> _Read:
     return result
 
 
+def _digits_in(error: ValueError) -> str:
+    """The digit count Python's refusal of a long integer names ("value has 5000 digits")."""
+    found = re.search(r"has (\d+) digits", str(error))
+    return f"{int(found[1]):,}" if found else "too many"
+
+
 def _sheet_cells(
     sheet: Any,
     name: str,
@@ -383,7 +389,27 @@ def _sheet_cells(
     refused = False
     header: list[Any] = []
     # A declared size much larger than the data (padding) is walked, but not for ever.
-    for number, cells in enumerate(sheet.iter_rows(min_row=1, max_col=MAX_COLUMNS + 1), 1):
+    walk = enumerate(sheet.iter_rows(min_row=1, max_col=MAX_COLUMNS + 1), 1)
+    number = 0
+    while True:
+        try:
+            number, cells = next(walk)
+        except StopIteration:
+            break
+        except ValueError as error:
+            # openpyxl converts a number cell as it reads the row: one of more than
+            # INTEGER_DIGITS digits cannot be converted (its column is not known yet).
+            problems.append(
+                RowProblem(
+                    name,
+                    number + 1,
+                    "",
+                    f"a number cell of this row has {_digits_in(error)} digits; the "
+                    f"import reads integers of at most {limits.INTEGER_DIGITS:,} digits "
+                    "(limit INTEGER_DIGITS)",
+                )
+            )
+            return None
         if number > 20 * max_rows + 1:
             break
         values: list[Any] = []
@@ -445,13 +471,22 @@ def _read_csv(data: bytes, max_rows: int) -> _Read:
     result = _Read("csv")
     try:
         text = data.decode("utf-8-sig")
-    except UnicodeDecodeError:
+    except UnicodeDecodeError as error:
+        line = data[: error.start].count(b"\n") + 1
+        # ED A0..BF is how a lone surrogate (U+D800..DFFF) would be written: not UTF-8.
+        odd = data[error.start : error.start + 2]
+        surrogate = len(odd) == 2 and odd[0] == 0xED and odd[1] >= 0xA0
         result.problems.append(
             RowProblem(
                 "file",
-                None,
+                line,
                 "",
-                "the file is neither an XLSX workbook nor UTF-8 text; save it as CSV UTF-8",
+                (
+                    "holds a lone surrogate (not text: there is no UTF-8 for it); "
+                    if surrogate
+                    else ""
+                )
+                + "the file is neither an XLSX workbook nor UTF-8 text; save it as CSV UTF-8",
             )
         )
         return result
