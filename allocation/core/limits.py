@@ -19,6 +19,7 @@ __all__ = [
     "LIMITS",
     "Limit",
     "MAX_PER_DAY",
+    "NOTE_LENGTH",
     "PHRASE_LENGTH",
     "SIMULATION_CORE_MAX_DAYS",
     "SIMULATION_MAX_DAYS",
@@ -28,6 +29,7 @@ __all__ = [
     "SPREADSHEET_MAX_UNPACKED_BYTES",
     "STUDY_FILE_MAX_BYTES",
     "REVIEW_TEXT_LENGTH",
+    "WORD_LENGTH",
 ]
 
 
@@ -73,6 +75,11 @@ LABEL_LENGTH = 200
 PHRASE_LENGTH = 300
 #: The longest comment, decision or rationale of a review (a page of text).
 REVIEW_TEXT_LENGTH = 10_000
+#: The longest free text of a study: a description, notes, a rationale, a mode's
+#: indication, a risk policy's note (a page of text, like a review's).
+NOTE_LENGTH = 10_000
+#: The longest capability (of an agent, or one a task needs).
+WORD_LENGTH = 100
 
 # --- Study size and analyses ---------------------------------------------------------
 
@@ -143,7 +150,7 @@ LIMITS: tuple[Limit, ...] = (
         INTEGER_DIGITS,
         "digits",
         "an integer in a file",
-        "study reader, while parsing",
+        "study reader, while parsing; spreadsheet reader, per cell",
     ),
     Limit(
         "MAX_PER_DAY",
@@ -172,6 +179,20 @@ LIMITS: tuple[Limit, ...] = (
         "characters",
         "a review comment, decision or rationale",
         "review forms",
+    ),
+    Limit(
+        "NOTE_LENGTH",
+        NOTE_LENGTH,
+        "characters",
+        "descriptions, notes, rationales, mode indications, a risk policy's note",
+        "study reader, forms, spreadsheet reader",
+    ),
+    Limit(
+        "WORD_LENGTH",
+        WORD_LENGTH,
+        "characters",
+        "a capability (of an agent, or needed by a task)",
+        "study reader, forms, spreadsheet reader",
     ),
     Limit(
         "SIMULATION_MAX_DAYS",

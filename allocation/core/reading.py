@@ -16,7 +16,14 @@ from typing import Any
 
 from .assumptions import check_assumptions
 from .errors import Problem
-from .limits import INTEGER_DIGITS, LABEL_LENGTH, MAX_PER_DAY, PHRASE_LENGTH
+from .limits import (
+    INTEGER_DIGITS,
+    LABEL_LENGTH,
+    MAX_PER_DAY,
+    NOTE_LENGTH,
+    PHRASE_LENGTH,
+    WORD_LENGTH,
+)
 from .model import (
     Agent,
     Assignment,
@@ -245,6 +252,14 @@ class StudyReader:
         """A task title or a trigger: text of at most :data:`PHRASE_LENGTH` characters."""
         return self._short(self.text(value, path), path, PHRASE_LENGTH)
 
+    def note(self, value: Any, path: str) -> str | None:
+        """Free text (a description, notes, a rationale): at most :data:`NOTE_LENGTH`."""
+        return self._short(self.text(value, path), path, NOTE_LENGTH)
+
+    def word(self, value: Any, path: str) -> str | None:
+        """A capability (an item of a list of words): at most :data:`WORD_LENGTH`."""
+        return self._short(self.text(value, path), path, WORD_LENGTH)
+
     def _short(self, value: str | None, path: str, limit: int) -> str | None:
         if value is not None and len(value) > limit:
             self.error(path, f"is {len(value):,} characters long; at most {limit} are kept")
@@ -321,7 +336,7 @@ class StudyReader:
         items = self.listing(value, path)
         if not isinstance(value, list):
             return None
-        good = [self.text(item, child_path(path, i)) for i, item in enumerate(items)]
+        good = [self.word(item, child_path(path, i)) for i, item in enumerate(items)]
         return tuple(item for item in good if item is not None)
 
     def range_(self, value: Any, path: str) -> Range | None:
@@ -420,7 +435,7 @@ class StudyReader:
         study_id = self.identifier(header.get("id", "study"), child_path(path, "id"))
         title = self.label(header.get("title", "?"), child_path(path, "title"))
         scale = self.choice(header.get("scale", "sv10"), child_path(path, "scale"), SCALES)
-        description = self.optional(header, "description", path, self.text)
+        description = self.optional(header, "description", path, self.note)
         bin_s = self.optional(header, "bin_s", path, lambda v, p: self.number(v, p, positive=True))
         assumptions = self.optional(header, "assumptions", path, self.assumptions)
         risk_policy = self.optional(header, "risk_policy", path, self.risk_policy)
@@ -477,7 +492,7 @@ class StudyReader:
                 child_path(path, "review"),
                 f"must not be above unacceptable ({review} > {unacceptable})",
             )
-        self.optional(policy, "note", path, self.text)
+        self.optional(policy, "note", path, self.note)
         return value
 
     def agent(self, value: Any, path: str) -> Agent | None:
@@ -497,7 +512,7 @@ class StudyReader:
             capabilities=self.optional(data, "capabilities", path, self.strings),
             asleep=self.optional(data, "asleep", path, self.asleep),
             response_s=self.optional(data, "response_s", path, self.response),
-            notes=self.optional(data, "notes", path, self.text),
+            notes=self.optional(data, "notes", path, self.note),
         )
 
     def asleep(self, value: Any, path: str) -> tuple[str, str] | None:
@@ -584,7 +599,7 @@ class StudyReader:
         return Event(
             id=event_id,
             name=self.optional(data, "name", path, self.label) or event_id,
-            notes=self.optional(data, "notes", path, self.text),
+            notes=self.optional(data, "notes", path, self.note),
             **fields,
         )
 
@@ -668,7 +683,7 @@ class StudyReader:
             demands=self.optional(data, "demands", path, self.demands),
             split=self.optional(data, "split", path, self.split),
             needs=self.optional(data, "needs", path, self.strings),
-            notes=self.optional(data, "notes", path, self.text),
+            notes=self.optional(data, "notes", path, self.note),
         )
 
     def link(self, value: Any, path: str) -> Link | None:
@@ -692,7 +707,7 @@ class StudyReader:
             probability=self.optional(
                 data, "probability", path, lambda v, p: self.number(v, p, positive=True, maximum=1)
             ),
-            notes=self.optional(data, "notes", path, self.text),
+            notes=self.optional(data, "notes", path, self.note),
         )
 
     def levels(self, value: Any, path: str) -> int | dict[str, int] | None:
@@ -759,7 +774,7 @@ class StudyReader:
             status=self.optional(
                 data, "status", path, lambda v, p: self.choice(v, p, ASSIGNMENT_STATUSES)
             ),
-            rationale=self.optional(data, "rationale", path, self.text),
+            rationale=self.optional(data, "rationale", path, self.note),
             applies=applies,
         )
 
@@ -798,7 +813,7 @@ class StudyReader:
         return Plan(
             id=plan_id,
             name=self.optional(data, "name", path, self.label) or plan_id,
-            description=self.optional(data, "description", path, self.text),
+            description=self.optional(data, "description", path, self.note),
             assignments=self.optional(data, "assignments", path, self.assignment_map) or {},
             modes=self.optional(data, "modes", path, self.mode_map),
         )
@@ -824,9 +839,9 @@ class StudyReader:
         return Mode(
             id=mode_id,
             name=self.optional(data, "name", path, self.label) or mode_id,
-            indication=self.optional(data, "indication", path, self.text),
+            indication=self.optional(data, "indication", path, self.note),
             overrides=self.optional(data, "overrides", path, self.assignment_map),
-            notes=self.optional(data, "notes", path, self.text),
+            notes=self.optional(data, "notes", path, self.note),
         )
 
     def transition(self, value: Any, path: str) -> Transition | None:
@@ -850,5 +865,5 @@ class StudyReader:
                 path,
                 lambda v, p: self.number(v, p, positive=True, maximum=MAX_PER_DAY),
             ),
-            notes=self.optional(data, "notes", path, self.text),
+            notes=self.optional(data, "notes", path, self.note),
         )

@@ -7,7 +7,9 @@ from collections.abc import Mapping
 from typing import Any
 
 from django import forms
+from django.core import validators
 
+from allocation.core.limits import NOTE_LENGTH
 from allocation.core.registry import Term
 
 
@@ -27,7 +29,46 @@ def comma_words(text: str) -> list[str]:
     return [part.strip() for part in text.replace("\n", ",").split(",") if part.strip()]
 
 
-class ItemForm(forms.Form):
+def lone_surrogate(text: str) -> str | None:
+    """The first lone surrogate in ``text`` as ``U+D800``, or None (it has no UTF-8)."""
+    for char in text:
+        if "\ud800" <= char <= "\udfff":
+            return f"U+{ord(char):04X}"
+    return None
+
+
+class TextForm(forms.Form):
+    """A form whose every text field is bounded and holds only text.
+
+    A text field without its own ``max_length`` gets :data:`NOTE_LENGTH`; a value holding
+    a lone surrogate (no UTF-8 for it: it could be stored but never exported nor backed
+    up) is refused on its field.
+    """
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        for field in self.fields.values():
+            if isinstance(field, forms.CharField) and field.max_length is None:
+                field.max_length = NOTE_LENGTH
+                field.validators.append(validators.MaxLengthValidator(NOTE_LENGTH))
+                field.widget.attrs.setdefault("maxlength", str(NOTE_LENGTH))
+
+    def clean(self) -> dict[str, Any]:
+        cleaned = super().clean()
+        for name, value in list((cleaned or {}).items()):
+            texts = value if isinstance(value, (list, tuple)) else [value]
+            for text in texts:
+                code = lone_surrogate(text) if isinstance(text, str) else None
+                if code:
+                    self.add_error(
+                        name if name in self.fields else None,
+                        f"contains a lone surrogate ({code}), which is not text",
+                    )
+                    break
+        return cleaned
+
+
+class ItemForm(TextForm):
     """A form that builds one study-file item; ``groups`` lays its fields out by file key."""
 
     #: (label, file key, field names) — the file key is where the core's messages land.

@@ -7,10 +7,11 @@ from typing import Any
 from django import forms
 
 from allocation import models as m
+from allocation.forms.base import TextForm
 from allocation.selectors import history as trail
 
 
-class HistoryForm(forms.Form):
+class HistoryForm(TextForm):
     """The filters, as typed in the query string; each one is optional."""
 
     who = forms.CharField(required=False, max_length=150)

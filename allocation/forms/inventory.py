@@ -19,14 +19,14 @@ from allocation.core.vocabulary import (
     SEVERITIES,
     VACP_ANCHORS,
 )
-from allocation.forms.base import ItemForm, comma_words, file_number, range_fields
+from allocation.forms.base import ItemForm, TextForm, comma_words, file_number, range_fields
 
 
 def _demand_field(channel: str) -> forms.ChoiceField:
     return forms.ChoiceField(required=False, choices=_anchor_choices(channel), label=channel)
 
 
-class StudyForm(forms.Form):
+class StudyForm(TextForm):
     """A new study: its id, title and scale of levels of automation."""
 
     id = forms.CharField(max_length=64, label="Id")

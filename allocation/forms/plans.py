@@ -14,7 +14,7 @@ from allocation.core.vocabulary import (
     STAGE_NAMES,
     STAGES,
 )
-from allocation.forms.base import optional_choices
+from allocation.forms.base import TextForm, optional_choices
 
 WHO_CHOICES = [
     ("person", "person"),
@@ -32,7 +32,7 @@ def level_choices(scale: str) -> list[tuple[str, str]]:
     return [(str(n), f"{n} — {text}") for n, text in SV10_LEVELS.items()]
 
 
-class AssignmentForm(forms.Form):
+class AssignmentForm(TextForm):
     """One row of the plan editor: who does a leaf task and how."""
 
     who = forms.ChoiceField(choices=WHO_CHOICES)
@@ -153,7 +153,7 @@ class AssignmentForm(forms.Form):
         return int(data["level"]) if data["level"] else None
 
 
-class BulkForm(forms.Form):
+class BulkForm(TextForm):
     """Apply a level or a status to the selected rows of a plan."""
 
     tasks = forms.MultipleChoiceField()
@@ -183,7 +183,7 @@ class BulkForm(forms.Form):
         return data
 
 
-class PlanForm(forms.Form):
+class PlanForm(TextForm):
     """A plan's id and name (for a new plan, a copy or a rename)."""
 
     id = forms.CharField(max_length=64, label="Id")

@@ -13,6 +13,7 @@ from django import forms
 
 from allocation.core import Study
 from allocation.core.tlx import PAIRS, SUBSCALE_NAMES, SUBSCALE_QUESTIONS, SUBSCALES
+from allocation.forms.base import TextForm
 
 __all__ = ["WEIGHTING_CHOICES", "RatingForm"]
 
@@ -23,7 +24,7 @@ WEIGHTING_CHOICES = [
 ]
 
 
-class RatingForm(forms.Form):
+class RatingForm(TextForm):
     """One participant's ratings of one task."""
 
     task = forms.ChoiceField()

@@ -13,10 +13,12 @@ The file is gzip-compressed UTF-8 text, one JSON object per line:
 A row is written as the database gives it: keys in their own order (a row's ``model``,
 ``pk`` and ``fields``, the fields in the model's order, and a JSON-valued field's keys in
 the order it was stored with, so a study file's demands or stage splits come back in the
-order its author wrote them), no spaces, UTF-8 (``ensure_ascii`` off), one ``"\\n"``
-after it. A row's **canonical text** is the same object written with sorted keys; dates
-and times are ISO 8601 with their microseconds and offset. A model's hash is the SHA-256
-of its rows' canonical texts in file order, so the hash does not depend on key order and
+order its author wrote them), no spaces, UTF-8 (``ensure_ascii`` off, but a lone
+surrogate stored before text was checked is written as its JSON escape, which reads back
+as the same value), one ``"\\n"`` after it. A row's **canonical text** is the same
+object written with sorted keys; dates and times are ISO 8601 with their microseconds and
+offset. A model's hash is the SHA-256 of its rows' canonical texts in file order, so the
+hash does not depend on key order and
 files written before rows kept their order (with sorted keys) check and restore alike.
 Values are Django's own serialized forms (the ``python`` serializer, so a foreign key is
 the primary key it points to), which is why every field a model has, now or after a
@@ -45,6 +47,8 @@ References
 .. [2] RFC 1952, GZIP file format specification version 4.3 (members may be
    concatenated; readers join them).
 .. [3] JSON Lines, https://jsonlines.org/ (one JSON value per line, UTF-8).
+.. [4] RFC 8259, The JavaScript Object Notation (JSON) Data Interchange Format, §7
+   (strings; an escaped code point).
 """
 
 from __future__ import annotations
@@ -57,6 +61,7 @@ import gzip
 import hashlib
 import json
 import os
+import re
 import shutil
 import tempfile
 import time
@@ -189,17 +194,38 @@ def _plain(value: Any) -> Any:
     raise TypeError(f"cannot write a {type(value).__name__} into a backup")
 
 
+#: A lone surrogate: a code point with no UTF-8, which a database may still hand back
+#: (a JSON value on SQLite keeps it as the escape ``\ud800``).
+_SURROGATE = re.compile("[\ud800-\udfff]")
+
+
+def _escaped(text: str) -> str:
+    """JSON text with each lone surrogate written as its JSON escape (``\\ud800``).
+
+    A surrogate only occurs inside a JSON string, where the escape stands for exactly
+    that code point (RFC 8259 §7), so reading the line gives the same value back; text
+    without one (every row of a file written before) is unchanged, hashes included.
+    """
+    return _SURROGATE.sub(lambda match: f"\\u{ord(match[0]):04x}", text)
+
+
 def canonical_line(row: dict[str, Any]) -> str:
     """A row's canonical text: sorted keys, no spaces, UTF-8, one newline after it."""
     return (
-        json.dumps(row, sort_keys=True, separators=(",", ":"), ensure_ascii=False, default=_plain)
+        _escaped(
+            json.dumps(
+                row, sort_keys=True, separators=(",", ":"), ensure_ascii=False, default=_plain
+            )
+        )
         + "\n"
     )
 
 
 def _stored_line(row: dict[str, Any]) -> str:
     """A row as the file holds it: its keys in their own order (see the module text)."""
-    return json.dumps(row, separators=(",", ":"), ensure_ascii=False, default=_plain) + "\n"
+    return (
+        _escaped(json.dumps(row, separators=(",", ":"), ensure_ascii=False, default=_plain)) + "\n"
+    )
 
 
 def _chunks(items: Iterable[Any], size: int) -> Iterator[list[Any]]:

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import json
 
+import pytest
+
 from allocation.core.reading import parse_json_text
 
 
@@ -54,3 +56,98 @@ def test_utf16_and_utf32_files_are_refused_utf8_bom_kept() -> None:
         assert "must be UTF-8" in problems[0].message, encoding
     data, problems = parse_json_text(text.encode("utf-8"))
     assert problems == [] and data == {"title": "Pumps"}
+
+
+# -- every free text of a study has a length limit, refused with its JSON path ----------
+# The limits are Baton's own (allocation/core/limits.py); the cases are worked by hand:
+# text one character past a limit is refused at exactly the path it was put at, text at
+# the limit is accepted.
+
+from allocation.core import load_study  # noqa: E402
+from allocation.core.limits import NOTE_LENGTH, WORD_LENGTH  # noqa: E402
+
+
+def _mode_map(text: str) -> dict:
+    return {
+        "initial": "m1",
+        "states": [{"id": "m1", "name": "Normal", "indication": text, "notes": text}],
+        "transitions": [
+            {"from": "m1", "to": "m1", "trigger": "reset", "by": "human", "notes": text}
+        ],
+    }
+
+
+def _place(document: dict, where: str, text: str) -> str:
+    """Put ``text`` at ``where`` in the study; the JSON path it should be refused at."""
+    if where == "description":
+        document["study"]["description"] = text
+        return "$.study.description"
+    if where == "risk note":
+        document["study"]["risk_policy"]["note"] = text
+        return "$.study.risk_policy.note"
+    if where == "agent notes":
+        document["agents"][0]["notes"] = text
+        return "$.agents[0].notes"
+    if where == "event notes":
+        document["events"][0]["notes"] = text
+        return "$.events[0].notes"
+    if where == "task notes":
+        document["tasks"][1]["notes"] = text
+        return "$.tasks[1].notes"
+    if where == "link notes":
+        document["links"][0]["notes"] = text
+        return "$.links[0].notes"
+    if where == "plan description":
+        document["plans"][0]["description"] = text
+        return "$.plans[0].description"
+    if where == "rationale":
+        document["plans"][0]["assignments"]["T1"]["rationale"] = text
+        return "$.plans[0].assignments.T1.rationale"
+    if where in ("mode indication", "mode notes", "transition notes"):
+        document["plans"][0]["modes"] = _mode_map("ok")
+        if where == "mode indication":
+            document["plans"][0]["modes"]["states"][0]["indication"] = text
+            return "$.plans[0].modes.states[0].indication"
+        if where == "mode notes":
+            document["plans"][0]["modes"]["states"][0]["notes"] = text
+            return "$.plans[0].modes.states[0].notes"
+        document["plans"][0]["modes"]["transitions"][0]["notes"] = text
+        return "$.plans[0].modes.transitions[0].notes"
+    raise AssertionError(where)
+
+
+NOTE_PLACES = [
+    "description",
+    "risk note",
+    "agent notes",
+    "event notes",
+    "task notes",
+    "link notes",
+    "plan description",
+    "rationale",
+    "mode indication",
+    "mode notes",
+    "transition notes",
+]
+
+
+@pytest.mark.parametrize("where", NOTE_PLACES)
+def test_each_free_text_is_refused_one_past_its_limit_by_path(make_study, where) -> None:
+    document = make_study()
+    path = _place(document, where, "x" * (NOTE_LENGTH + 1))
+    problems = [p for p in load_study(document).errors if p.path == path]
+    assert [p.message for p in problems] == [
+        f"is {NOTE_LENGTH + 1:,} characters long; at most {NOTE_LENGTH} are kept"
+    ]
+    document = make_study()
+    path = _place(document, where, "x" * NOTE_LENGTH)
+    assert [p for p in load_study(document).errors if p.path == path] == []
+
+
+@pytest.mark.parametrize(("list_at", "index"), [("agents", 0), ("tasks", 1)])
+def test_a_capability_is_refused_one_past_its_limit_by_path(make_study, list_at, index):
+    document = make_study()
+    key = "capabilities" if list_at == "agents" else "needs"
+    document[list_at][index][key] = ["ok", "c" * (WORD_LENGTH + 1)]
+    errors = load_study(document).errors
+    assert f"$.{list_at}[{index}].{key}[1]" in [p.path for p in errors]

@@ -372,3 +372,32 @@ def test_restored_studies_download_and_export_the_same_bytes(db, tmp_path, clien
     call_command("backup", "--verify", str(path), verbosity=0)
     call_command("restore", str(path), verbosity=0)
     assert study_hashes() == hashes
+
+
+def test_a_lone_surrogate_stored_before_text_was_checked_round_trips(db, study, tmp_path):
+    """A lone surrogate (U+D800 has no UTF-8: The Unicode Standard 15.0, §3.9, D76 and
+    Table 3-7) kept in JSON values on SQLite, as an import did before the reader refused
+    it. Backup, verify and restore pass, and every row reads back as it was stored."""
+    if connection.vendor != "sqlite":
+        pytest.skip("PostgreSQL's jsonb refuses a lone surrogate when it is stored")
+    # Written as the database keeps them, around the models' own checks.
+    m.AuditEntry.objects.filter(
+        pk=m.AuditEntry.objects.create(
+            study_key=study.key, action="study.import", source=m.AuditSource.COMMAND
+        ).pk
+    ).update(after={"description": "heat\ud800ing", "ke\udfffy": ["\\\udc00"]})
+    m.Study.objects.filter(pk=study.pk).update(risk_policy={"note": "\udbff"})
+    before = rows_now()
+    assert any(
+        (row["after"] or {}).get("description") == "heat\ud800ing"
+        for row in before["allocation.auditentry"]
+    )
+    path = tmp_path / "surrogates.jsonl.gz"
+    call_command("backup", str(path), verbosity=0)
+    call_command("backup", "--verify", str(path), verbosity=0)
+    # The file is UTF-8 throughout (a strict decoder reads it), the escapes in it.
+    text = gzip.decompress(path.read_bytes()).decode("utf-8", errors="strict")
+    assert '"heat\\ud800ing"' in text
+    empty_database()
+    call_command("restore", str(path), verbosity=0)
+    assert rows_now() == before

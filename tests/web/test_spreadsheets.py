@@ -667,3 +667,64 @@ def test_the_insulin_example_imports_back_unchanged(owner):
             study=row, plan_key=plan["id"], upload=Upload("x.xlsx", data)
         )
         assert (preview.problems, preview.changes.empty) == ([], True), plan["id"]
+
+
+# -- text and numbers no cell may hold --------------------------------------------------
+# Python's documented integer string conversion limit (4300 digits,
+# sys.get_int_max_str_digits); RFC 3629 §3 (UTF-8 never encodes U+D800..DFFF: the bytes
+# ED A0 80 are not UTF-8); Baton's own NOTE_LENGTH (allocation/core/limits.py).
+
+
+def _patched(data: bytes, old: bytes, new: bytes) -> bytes:
+    """An XLSX with ``old`` replaced by ``new`` in every member (the raw XML)."""
+    source = zipfile.ZipFile(io.BytesIO(data))
+    out = io.BytesIO()
+    with zipfile.ZipFile(out, "w") as target:
+        for item in source.infolist():
+            target.writestr(item, source.read(item.filename).replace(old, new))
+    return out.getvalue()
+
+
+def test_an_xlsx_number_past_4300_digits_is_refused_by_sheet_and_row(study):
+    data = xlsx({"tasks": [list(TASK_COLUMNS), ["T2", "G1", "Lower", "", "", 123456789, 1]]})
+    data = _patched(data, b">123456789<", b">" + b"9" * 5000 + b"<")
+    proposal = propose(selectors.study_document(study), "auto", Upload("n.xlsx", data))
+    assert [(p.sheet, p.row) for p in proposal.errors] == [("tasks", 2)]
+    assert "5,000 digits" in proposal.errors[0].message
+    assert "4,300" in proposal.errors[0].message
+
+
+def test_a_csv_cell_past_4300_digits_or_too_long_is_refused_by_row_and_column(study):
+    from allocation.core.limits import NOTE_LENGTH
+
+    data = csv_file(
+        [
+            allocation_row(task="T1", human="resident", rationale="9" * 4301),
+            allocation_row(task="T2", human="resident", rationale="r" * (NOTE_LENGTH + 1)),
+            allocation_row(task="T2", human="resident", rationale="9" * 4300),
+        ]
+    )
+    read = read_tables(Upload("n.csv", data))
+    assert [(p.sheet, p.row, p.column) for p in read.problems] == [
+        ("allocation", 2, "rationale"),
+        ("allocation", 3, "rationale"),
+    ]
+    assert "more than 4,300 digits" in read.problems[0].message
+    assert f"{NOTE_LENGTH + 1:,} characters long" in read.problems[1].message
+
+
+def test_a_long_xlsx_text_cell_is_refused_by_sheet_row_and_column(study):
+    from allocation.core.limits import NOTE_LENGTH
+
+    rows = [list(LINK_COLUMNS), ["T1", "T2", "informs", "", "", "n" * (NOTE_LENGTH + 1)]]
+    read = read_tables(Upload("l.xlsx", xlsx({"links": rows})))
+    assert [(p.sheet, p.row, p.column) for p in read.problems] == [("links", 2, "notes")]
+
+
+def test_a_lone_surrogate_in_a_csv_is_refused_with_its_line(study):
+    data = csv_file([allocation_row(task="T1", human="resident")]).replace(
+        b"resident", "resident\ud800".encode("utf-8", "surrogatepass")
+    )
+    read = read_tables(Upload("s.csv", data))
+    assert [(p.sheet, p.row) for p in read.problems] == [("file", 2)]
+    assert "lone surrogate" in read.problems[0].message

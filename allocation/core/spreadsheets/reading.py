@@ -369,6 +369,12 @@ def _read_xlsx(data: bytes, max_rows: int) -> _Read:
     return result
 
 
+def _digits_in(error: ValueError) -> str:
+    """The digit count Python's refusal of a long integer names ("value has 5000 digits")."""
+    found = re.search(r"has (\d+) digits", str(error))
+    return f"{int(found[1]):,}" if found else "too many"
+
+
 def _sheet_cells(
     sheet: Any,
     name: str,
@@ -383,7 +389,27 @@ def _sheet_cells(
     refused = False
     header: list[Any] = []
     # A declared size much larger than the data (padding) is walked, but not for ever.
-    for number, cells in enumerate(sheet.iter_rows(min_row=1, max_col=MAX_COLUMNS + 1), 1):
+    walk = enumerate(sheet.iter_rows(min_row=1, max_col=MAX_COLUMNS + 1), 1)
+    number = 0
+    while True:
+        try:
+            number, cells = next(walk)
+        except StopIteration:
+            break
+        except ValueError as error:
+            # openpyxl converts a number cell as it reads the row: one of more than
+            # INTEGER_DIGITS digits cannot be converted (its column is not known yet).
+            problems.append(
+                RowProblem(
+                    name,
+                    number + 1,
+                    "",
+                    f"a number cell of this row has {_digits_in(error)} digits; the "
+                    f"import reads integers of at most {limits.INTEGER_DIGITS:,} digits "
+                    "(limit INTEGER_DIGITS)",
+                )
+            )
+            return None
         if number > 20 * max_rows + 1:
             break
         values: list[Any] = []
@@ -445,13 +471,22 @@ def _read_csv(data: bytes, max_rows: int) -> _Read:
     result = _Read("csv")
     try:
         text = data.decode("utf-8-sig")
-    except UnicodeDecodeError:
+    except UnicodeDecodeError as error:
+        line = data[: error.start].count(b"\n") + 1
+        # ED A0..BF is how a lone surrogate (U+D800..DFFF) would be written: not UTF-8.
+        odd = data[error.start : error.start + 2]
+        surrogate = len(odd) == 2 and odd[0] == 0xED and odd[1] >= 0xA0
         result.problems.append(
             RowProblem(
                 "file",
-                None,
+                line,
                 "",
-                "the file is neither an XLSX workbook nor UTF-8 text; save it as CSV UTF-8",
+                (
+                    "holds a lone surrogate (not text: there is no UTF-8 for it); "
+                    if surrogate
+                    else ""
+                )
+                + "the file is neither an XLSX workbook nor UTF-8 text; save it as CSV UTF-8",
             )
         )
         return result
@@ -588,6 +623,17 @@ def _table(
     if not usable:
         return None
     rows = []
+    refused = False
+    for number, values in cells:
+        for index, value in enumerate(values):
+            message = _cell_refused(value)
+            if message:
+                label = columns[index] if index < len(columns) and columns[index] else ""
+                column = label or _column_letter(index + 1)
+                problems.append(RowProblem(name, number, column, message))
+                refused = True
+    if refused:
+        return None
     for number, values in cells[1:]:
         row = {
             label: values[index]
@@ -596,6 +642,35 @@ def _table(
         }
         rows.append((number, row))
     return Table(name, [c for c in columns if c in known], rows, header_row)
+
+
+_DIGIT_RUN = re.compile(rf"\d{{{limits.INTEGER_DIGITS + 1},}}")
+
+
+def _cell_refused(value: Any) -> str | None:
+    """Why a cell's raw value is not read at all: it holds a lone surrogate (not text:
+    no UTF-8 for it), is longer than any text of a study, or holds an integer longer
+    than Python converts (``limits.INTEGER_DIGITS``)."""
+    if isinstance(value, int) and not isinstance(value, bool):
+        if abs(value) >= 10**limits.INTEGER_DIGITS:
+            return f"holds an integer of more than {limits.INTEGER_DIGITS:,} digits"
+        return None
+    if not isinstance(value, str):
+        return None
+    for char in value:
+        if "\ud800" <= char <= "\udfff":
+            return f"contains a lone surrogate (U+{ord(char):04X}), which is not text"
+    if len(value) > limits.NOTE_LENGTH:
+        return (
+            f"is {len(value):,} characters long; a cell holds at most "
+            f"{limits.NOTE_LENGTH:,} (limit NOTE_LENGTH)"
+        )
+    run = _DIGIT_RUN.search(value)
+    if run:
+        return (
+            f"holds a number of more than {limits.INTEGER_DIGITS:,} digits (limit INTEGER_DIGITS)"
+        )
+    return None
 
 
 # -- cells to study-file values -------------------------------------------------------

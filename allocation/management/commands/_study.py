@@ -12,6 +12,7 @@ from django.core.management.base import CommandError
 from allocation import models as m
 from allocation import selectors, services
 from allocation.core import LoadResult, Problem, load_study_text
+from allocation.core.limits import STUDY_FILE_MAX_BYTES
 
 
 def study_from_reference(reference: str) -> m.Study:
@@ -28,15 +29,35 @@ def study_from_reference(reference: str) -> m.Study:
     return matches[0]
 
 
+def study_file_bytes(path: Path) -> bytes:
+    """A study file's bytes, refused before reading when it is larger than an upload may be
+    (:data:`~allocation.core.limits.STUDY_FILE_MAX_BYTES`)."""
+    try:
+        size = path.stat().st_size
+        if size > STUDY_FILE_MAX_BYTES:
+            raise CommandError(
+                f"{path} is {size:,} bytes; a study file may be at most "
+                f"{STUDY_FILE_MAX_BYTES:,} bytes (limit STUDY_FILE_MAX_BYTES)"
+            )
+        with path.open("rb") as file:
+            # Read one byte past the limit: a file growing meanwhile is refused too.
+            data = file.read(STUDY_FILE_MAX_BYTES + 1)
+    except OSError as error:
+        raise CommandError(f"cannot read {path}: {error.strerror}") from None
+    if len(data) > STUDY_FILE_MAX_BYTES:
+        raise CommandError(
+            f"{path} is more than {STUDY_FILE_MAX_BYTES:,} bytes; a study file may be at "
+            f"most {STUDY_FILE_MAX_BYTES:,} bytes (limit STUDY_FILE_MAX_BYTES)"
+        )
+    return data
+
+
 def study_result_from_reference(reference: str) -> LoadResult:
     """A study a command names by stored id or number, or by the path of a study file
     (read, not stored), as the core loaded it."""
     path = Path(reference)
     if reference.endswith(".json") or path.is_file():
-        try:
-            return load_study_text(path.read_bytes())
-        except OSError as error:
-            raise CommandError(f"cannot read {reference}: {error.strerror}") from None
+        return load_study_text(study_file_bytes(path))
     return selectors.study_load(study_from_reference(reference))
 
 

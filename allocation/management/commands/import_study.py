@@ -10,7 +10,7 @@ from allocation import audit, services
 from allocation import models as m
 from allocation.core import StudyInvalid, load_study_text
 
-from ._study import owner_from_option, problem_lines
+from ._study import owner_from_option, problem_lines, study_file_bytes
 
 
 class Command(BaseCommand):
@@ -21,10 +21,7 @@ class Command(BaseCommand):
         parser.add_argument("--owner", help="user name of the owner (default: the local sign-in)")
 
     def handle(self, *args, file: Path, owner: str | None, **options) -> None:
-        try:
-            text = file.read_bytes()
-        except OSError as error:
-            raise CommandError(f"cannot read {file}: {error.strerror}") from None
+        text = study_file_bytes(file)
         result = load_study_text(text)
         if not result.ok:
             raise CommandError(
