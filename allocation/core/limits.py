@@ -83,6 +83,16 @@ WORD_LENGTH = 100
 
 # --- Study size and analyses ---------------------------------------------------------
 
+#: The most tasks (goals and leaves) in one study: four times the large study the bench
+#: measures; a flat study of twice as many analyses in about five seconds.
+STUDY_MAX_TASKS = 20_000
+#: The most links in one study (three per task, as in the bench's studies).
+STUDY_MAX_LINKS = 60_000
+#: The most agents, events and plans in one study.
+STUDY_MAX_AGENTS = 500
+STUDY_MAX_EVENTS = 5_000
+STUDY_MAX_PLANS = 100
+
 #: The most task-in-chain entries a study's chains may hold: the sum over its triggers of
 #: the tasks each can reach by ``precedes`` links. Chain analysis times every task of
 #: every chain, so its cost grows with this sum, which can grow with the square of the
@@ -100,6 +110,15 @@ SIMULATION_CORE_MAX_DAYS = 100_000
 
 # --- Pages and pending work ----------------------------------------------------------
 
+
+#: The most items of each list of a study file, by its key.
+STUDY_MAX_ITEMS = {
+    "agents": STUDY_MAX_AGENTS,
+    "events": STUDY_MAX_EVENTS,
+    "tasks": STUDY_MAX_TASKS,
+    "links": STUDY_MAX_LINKS,
+    "plans": STUDY_MAX_PLANS,
+}
 
 #: Every limit, for the README's Operations section and ``manage.py limits``.
 LIMITS: tuple[Limit, ...] = (
@@ -207,5 +226,40 @@ LIMITS: tuple[Limit, ...] = (
         "days",
         "one simulation run",
         "simulation core and database",
+    ),
+    Limit(
+        "STUDY_MAX_TASKS",
+        STUDY_MAX_TASKS,
+        "tasks",
+        "tasks of one study",
+        "study reader (every read, import and edit), before the items are read",
+    ),
+    Limit(
+        "STUDY_MAX_LINKS",
+        STUDY_MAX_LINKS,
+        "links",
+        "links of one study",
+        "study reader (every read, import and edit), before the items are read",
+    ),
+    Limit(
+        "STUDY_MAX_AGENTS",
+        STUDY_MAX_AGENTS,
+        "agents",
+        "agents of one study",
+        "study reader (every read, import and edit), before the items are read",
+    ),
+    Limit(
+        "STUDY_MAX_EVENTS",
+        STUDY_MAX_EVENTS,
+        "events",
+        "events of one study",
+        "study reader (every read, import and edit), before the items are read",
+    ),
+    Limit(
+        "STUDY_MAX_PLANS",
+        STUDY_MAX_PLANS,
+        "plans",
+        "plans of one study",
+        "study reader (every read, import and edit), before the items are read",
     ),
 )

@@ -22,6 +22,7 @@ from .limits import (
     MAX_PER_DAY,
     NOTE_LENGTH,
     PHRASE_LENGTH,
+    STUDY_MAX_ITEMS,
     WORD_LENGTH,
 )
 from .model import (
@@ -399,13 +400,28 @@ class StudyReader:
 
     # -- the study ------------------------------------------------------------------
 
+    def _too_large(self, root: dict[str, Any]) -> bool:
+        """Whether a list of the study holds more items than a study may; such a file is
+        not read further, so its size costs nothing more than this count."""
+        too_large = False
+        for key, most in STUDY_MAX_ITEMS.items():
+            items = root.get(key)
+            if isinstance(items, list) and len(items) > most:
+                self.error(
+                    child_path("$", key),
+                    f"holds {len(items):,} {key}; a study may hold at most {most:,} "
+                    f"(limit STUDY_MAX_{key.upper()})",
+                )
+                too_large = True
+        return too_large
+
     def study(self, data: Any) -> Study | None:
         root = self.obj(
             data,
             "$",
             ("format", "version", "study", "agents", "events", "tasks", "links", "plans"),
         )
-        if root is None:
+        if root is None or self._too_large(root):
             return None
         if "format" in root and root["format"] != FORMAT_NAME:
             self.error(

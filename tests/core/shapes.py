@@ -43,9 +43,7 @@ def _assign_all(document: dict[str, Any]) -> None:
     parents = {task.get("parent") for task in document["tasks"]}
     leaves = [task["id"] for task in document["tasks"] if task["id"] not in parents]
     for plan in document["plans"]:
-        plan["assignments"] = {
-            task_id: {"human": "person", "automation": None, "levels": 1} for task_id in leaves
-        }
+        plan["assignments"] = {task_id: {"human": "person"} for task_id in leaves}
         plan.pop("modes", None)
 
 

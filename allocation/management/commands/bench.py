@@ -202,15 +202,16 @@ class Command(BaseCommand):
 
     def chains(self) -> None:
         """Chain analysis at its limit (``CHAIN_ENTRIES_MAX``): a long chain whose tasks
-        each have their own schedule, just under the limit (analysed) and at 30,000 tasks
-        (refused by the study checks)."""
+        each have their own schedule, just under the limit (analysed), at 1,000 tasks
+        (refused by the study checks) and at 30,000 tasks (refused for its size)."""
         self.stdout.write("Chains at the limit of task-in-chain entries")
         under = 1
         while (under + 1) * (under + 2) // 2 <= CHAIN_ENTRIES_MAX:
             under += 1
         cases = (
             (under, "checked and analysed"),
-            (30_000, "checked (refused)"),
+            (1_000, "checked (refused: too many entries)"),
+            (30_000, "checked (refused: too many tasks)"),
         )
         for tasks, what in cases:
             text = json.dumps(long_chain_study(tasks), separators=(",", ":"))

@@ -12,7 +12,7 @@ import networkx as nx
 
 from allocation.core import load_study
 from allocation.core.graph import chain_entries, precedence_graph, triggers
-from allocation.core.limits import CHAIN_ENTRIES_MAX
+from allocation.core.limits import CHAIN_ENTRIES_MAX, STUDY_MAX_TASKS
 from allocation.core.synthetic import long_chain_study, synthetic_study
 from tests.capped import run_capped
 
@@ -45,25 +45,39 @@ def test_counting_stops_once_over_the_budget():
     assert len(counted) == 3  # 2000 + 1999 + 1002
 
 
-def test_the_long_chain_file_is_refused_by_the_reader_within_a_cap():
-    # The 30,000-task chain (about 4.9 MB compact) would hold 450,015,000 entries.
+def _refusals_of_long_chain(tasks: int) -> list[list[str]]:
     result = run_capped(
-        """
+        f"""
         import json
         from allocation.core import load_study_text
         from allocation.core.synthetic import long_chain_study
-        text = json.dumps(long_chain_study(30_000), separators=(",", ":"))
+        text = json.dumps(long_chain_study({tasks}), separators=(",", ":"))
         result = load_study_text(text)
         outcome = [[p.path, p.message] for p in result.errors]
         """,
         seconds=60,
         megabytes=1500,
     )
-    [(path, message)] = result.outcome
-    assert path == "$.tasks[3].occurs"
+    return result.outcome
+
+
+def test_a_long_chain_file_is_refused_by_the_reader_within_a_cap():
+    # 20,000 tasks, the most a study holds: its chain would hold 200,010,000 entries
+    # (n(n+1)/2, hand-worked). Counting stops at the sixth trigger, T5: the first five
+    # reach 20,000 + 19,999 + ... + 19,996 = 99,990 tasks, the sixth passes 100,000.
+    [(path, message)] = _refusals_of_long_chain(STUDY_MAX_TASKS)
+    assert path == "$.tasks[5].occurs"
     assert f"at least {CHAIN_ENTRIES_MAX + 1:,} task-in-chain entries" in message
     assert f"the limit is {CHAIN_ENTRIES_MAX:,}" in message
-    assert "schedule:T0 (30,000 tasks)" in message
+    assert f"schedule:T0 ({STUDY_MAX_TASKS:,} tasks)" in message
+
+
+def test_the_30000_task_chain_file_is_refused_by_its_size_within_a_cap():
+    # The 30,000-task chain (about 4.9 MB compact) is refused for its count of tasks
+    # before its chains are counted.
+    [(path, message)] = _refusals_of_long_chain(30_000)
+    assert path == "$.tasks"
+    assert "30,000 tasks" in message and "STUDY_MAX_TASKS" in message
 
 
 def test_a_study_just_under_the_limit_is_accepted_and_analysed_within_a_cap():
