@@ -77,43 +77,32 @@ def _mode_map(text: str) -> dict:
     }
 
 
+#: Where each free text sits: the steps from the file's root to it.
+_STEPS = {
+    "description": ("study", "description"),
+    "risk note": ("study", "risk_policy", "note"),
+    "agent notes": ("agents", 0, "notes"),
+    "event notes": ("events", 0, "notes"),
+    "task notes": ("tasks", 1, "notes"),
+    "link notes": ("links", 0, "notes"),
+    "plan description": ("plans", 0, "description"),
+    "rationale": ("plans", 0, "assignments", "T1", "rationale"),
+    "mode indication": ("plans", 0, "modes", "states", 0, "indication"),
+    "mode notes": ("plans", 0, "modes", "states", 0, "notes"),
+    "transition notes": ("plans", 0, "modes", "transitions", 0, "notes"),
+}
+
+
 def _place(document: dict, where: str, text: str) -> str:
     """Put ``text`` at ``where`` in the study; the JSON path it should be refused at."""
-    if where == "description":
-        document["study"]["description"] = text
-        return "$.study.description"
-    if where == "risk note":
-        document["study"]["risk_policy"]["note"] = text
-        return "$.study.risk_policy.note"
-    if where == "agent notes":
-        document["agents"][0]["notes"] = text
-        return "$.agents[0].notes"
-    if where == "event notes":
-        document["events"][0]["notes"] = text
-        return "$.events[0].notes"
-    if where == "task notes":
-        document["tasks"][1]["notes"] = text
-        return "$.tasks[1].notes"
-    if where == "link notes":
-        document["links"][0]["notes"] = text
-        return "$.links[0].notes"
-    if where == "plan description":
-        document["plans"][0]["description"] = text
-        return "$.plans[0].description"
-    if where == "rationale":
-        document["plans"][0]["assignments"]["T1"]["rationale"] = text
-        return "$.plans[0].assignments.T1.rationale"
-    if where in ("mode indication", "mode notes", "transition notes"):
+    steps = _STEPS[where]
+    if "modes" in steps:
         document["plans"][0]["modes"] = _mode_map("ok")
-        if where == "mode indication":
-            document["plans"][0]["modes"]["states"][0]["indication"] = text
-            return "$.plans[0].modes.states[0].indication"
-        if where == "mode notes":
-            document["plans"][0]["modes"]["states"][0]["notes"] = text
-            return "$.plans[0].modes.states[0].notes"
-        document["plans"][0]["modes"]["transitions"][0]["notes"] = text
-        return "$.plans[0].modes.transitions[0].notes"
-    raise AssertionError(where)
+    holder = document
+    for step in steps[:-1]:
+        holder = holder[step]
+    holder[steps[-1]] = text
+    return "$" + "".join(f"[{step}]" if isinstance(step, int) else f".{step}" for step in steps)
 
 
 NOTE_PLACES = [
