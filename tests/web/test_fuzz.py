@@ -43,6 +43,7 @@ from tests.core.test_fuzz_reading import (
     raw_texts,
     to_text,
 )
+from tests.report import write_past_capture
 from tests.web.test_spreadsheets import (
     good_workbook,
 )
@@ -72,15 +73,12 @@ def inputs_tried(request):
     """Print how many inputs each target was sent, after the last test, past the
     output capture (which would otherwise hide it when everything passes)."""
     yield TRIED
-    reporter = request.config.pluginmanager.get_plugin("terminalreporter")
-    capture = request.config.pluginmanager.get_plugin("capturemanager")
-    if not TRIED or reporter is None or capture is None:
-        return
-    with capture.global_and_fixture_disabled():
-        reporter.write_line("")
-        reporter.write_line(f"fuzzing: {sum(TRIED.values())} inputs tried")
-        for name, count in sorted(TRIED.items()):
-            reporter.write_line(f"  {name}: {count}")
+    if TRIED:
+        write_past_capture(
+            request.config,
+            [f"fuzzing: {sum(TRIED.values())} inputs tried"]
+            + [f"  {name}: {count}" for name, count in sorted(TRIED.items())],
+        )
 
 
 # -- the database, before and after ---------------------------------------------------

@@ -23,6 +23,7 @@ from hypothesis import strategies as st
 
 from allocation import models as m
 from allocation import selectors, services
+from tests.report import write_past_capture
 
 SCALE = float(os.environ.get("BATON_FUZZ_SCALE", "1"))
 QUERY_EXAMPLES = max(1, int(8 * SCALE))
@@ -146,15 +147,13 @@ def fill(route: str, values: dict[str, str]) -> str:
 @pytest.fixture(scope="module", autouse=True)
 def inputs_tried(request):
     yield TRIED
-    reporter = request.config.pluginmanager.get_plugin("terminalreporter")
-    capture = request.config.pluginmanager.get_plugin("capturemanager")
-    if not TRIED or reporter is None or capture is None:
-        return
-    with capture.global_and_fixture_disabled():
-        reporter.write_line("")
-        reporter.write_line(
-            f"query fuzzing: {sum(TRIED.values())} requests over {len(TRIED)} URLs, "
-            f"{len(READ)} known parameters"
+    if TRIED:
+        write_past_capture(
+            request.config,
+            [
+                f"query fuzzing: {sum(TRIED.values())} requests over {len(TRIED)} URLs, "
+                f"{len(READ)} known parameters"
+            ],
         )
 
 
