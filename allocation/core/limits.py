@@ -22,7 +22,9 @@ __all__ = [
     "NOTE_LENGTH",
     "PHRASE_LENGTH",
     "SIMULATION_CORE_MAX_DAYS",
+    "SIMULATION_MAX_BIN_S",
     "SIMULATION_MAX_DAYS",
+    "SIMULATION_MIN_BIN_S",
     "SPREADSHEET_MAX_BYTES",
     "SPREADSHEET_MAX_COLUMNS",
     "SPREADSHEET_MAX_ROWS",
@@ -97,6 +99,14 @@ CHAIN_ENTRIES_MAX = 100_000
 SIMULATION_MAX_DAYS = 20_000
 #: The longest run the simulation core accepts (the database allows the same).
 SIMULATION_CORE_MAX_DAYS = 100_000
+#: The finest workload bin (``study.bin_s``, seconds). A tool assumption: the time line
+#: reports occupancy per bin, and bins finer than a minute add nothing to it (a task's
+#: duration and a person's response are themselves given to within seconds to minutes)
+#: while the simulation's arrays grow as the day is cut finer (days x bins per day x
+#: people), so a one-second bin costs sixty times a one-minute bin.
+SIMULATION_MIN_BIN_S = 60
+#: The widest workload bin (seconds): one day, the span the time line is drawn over.
+SIMULATION_MAX_BIN_S = 86_400
 
 # --- Pages and pending work ----------------------------------------------------------
 
@@ -207,5 +217,19 @@ LIMITS: tuple[Limit, ...] = (
         "days",
         "one simulation run",
         "simulation core and database",
+    ),
+    Limit(
+        "SIMULATION_MIN_BIN_S",
+        SIMULATION_MIN_BIN_S,
+        "seconds",
+        "the finest workload bin (study.bin_s)",
+        "study reader (every read, import and edit of the study header)",
+    ),
+    Limit(
+        "SIMULATION_MAX_BIN_S",
+        SIMULATION_MAX_BIN_S,
+        "seconds",
+        "the widest workload bin (study.bin_s)",
+        "study reader (every read, import and edit of the study header)",
     ),
 )
