@@ -23,6 +23,7 @@ __all__ = [
     "PHRASE_LENGTH",
     "SIMULATION_CORE_MAX_DAYS",
     "SIMULATION_MAX_BIN_S",
+    "SIMULATION_MAX_BYTES",
     "SIMULATION_MAX_DAYS",
     "SIMULATION_MIN_BIN_S",
     "SPREADSHEET_MAX_BYTES",
@@ -107,6 +108,11 @@ SIMULATION_CORE_MAX_DAYS = 100_000
 SIMULATION_MIN_BIN_S = 60
 #: The widest workload bin (seconds): one day, the span the time line is drawn over.
 SIMULATION_MAX_BIN_S = 86_400
+#: The most memory one simulation may be estimated to need (bytes): the working set of
+#: one chunk plus the combining of the run's daily figures
+#: (:func:`allocation.core.simulation.simulation_memory_estimate`). A tool assumption:
+#: a gibibyte is what one worker of a team server can give one run.
+SIMULATION_MAX_BYTES = 1024**3
 
 # --- Pages and pending work ----------------------------------------------------------
 
@@ -231,5 +237,12 @@ LIMITS: tuple[Limit, ...] = (
         "seconds",
         "the widest workload bin (study.bin_s)",
         "study reader (every read, import and edit of the study header)",
+    ),
+    Limit(
+        "SIMULATION_MAX_BYTES",
+        SIMULATION_MAX_BYTES,
+        "bytes",
+        "the estimated memory of one simulation (a chunk's working set and the combining)",
+        "simulation request, before a run is stored; simulation core, before drawing",
     ),
 )
