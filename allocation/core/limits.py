@@ -19,6 +19,8 @@ __all__ = [
     "LIMITS",
     "Limit",
     "MAX_PER_DAY",
+    "MODE_STATES_MAX",
+    "MODE_STEPS_MAX",
     "NOTE_LENGTH",
     "PHRASE_LENGTH",
     "SIMULATION_CORE_MAX_DAYS",
@@ -93,6 +95,16 @@ WORD_LENGTH = 100
 CHAIN_ENTRIES_MAX = 100_000
 
 # --- Mode maps -----------------------------------------------------------------------
+
+#: The most states the mode-map check may have to search: modes x modes, each pair of
+#: the mode the device is in and the mode the person believes (500 modes). The pairs of
+#: modes are also what the check compares for shared indications.
+MODE_STATES_MAX = 250_000
+#: The most steps the mode-map check may have to take: for every believed mode, every
+#: transition with each way it can go (noticed or missed; each mode the person expects
+#: an action to lead to). Each step can yield a finding with its witness, so time and
+#: memory grow with this count (about 2 s and 130 MiB at the limit, measured).
+MODE_STEPS_MAX = 200_000
 
 # --- Simulation ----------------------------------------------------------------------
 
@@ -209,6 +221,20 @@ LIMITS: tuple[Limit, ...] = (
         "characters",
         "a capability (of an agent, or needed by a task)",
         "study reader, forms, spreadsheet reader",
+    ),
+    Limit(
+        "MODE_STATES_MAX",
+        MODE_STATES_MAX,
+        "states (modes x modes)",
+        "the states a plan's mode-map check may search",
+        "study checks (every read, import and edit), and the mode-map check itself",
+    ),
+    Limit(
+        "MODE_STEPS_MAX",
+        MODE_STEPS_MAX,
+        "steps (modes x transitions' ways)",
+        "the steps a plan's mode-map check may take",
+        "study checks (every read, import and edit), and the mode-map check itself",
     ),
     Limit(
         "SIMULATION_MAX_DAYS",
