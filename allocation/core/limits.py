@@ -103,7 +103,7 @@ MODE_STATES_MAX = 250_000
 #: The most steps the mode-map check may have to take: for every believed mode, every
 #: transition with each way it can go (noticed or missed; each mode the person expects
 #: an action to lead to). Each step can yield a finding with its witness, so time and
-#: memory grow with this count (about 2 s and 130 MiB at the limit, measured).
+#: memory grow with this count (2 to 3 s and under 250 MiB at the limit, measured).
 MODE_STEPS_MAX = 200_000
 
 # --- Simulation ----------------------------------------------------------------------
