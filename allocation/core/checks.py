@@ -13,6 +13,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterable
 from typing import Any
 
+from .analysis.modecheck import mode_search_size
 from .errors import Problem
 from .graph import chain_entries, hierarchy_cycle, never_occurring, precedence_cycle, triggers
 from .limits import CHAIN_ENTRIES_MAX
@@ -318,6 +319,9 @@ class _Checker:
                         child_path(item_path, key),
                         f"names the mode {mode_id!r}, which is not among the states",
                     )
+        size = mode_search_size(modes)
+        if size.over:
+            self.error(path, size.refusal())
 
     def occurrence_warnings(self) -> None:
         study = self.study

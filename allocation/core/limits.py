@@ -19,10 +19,15 @@ __all__ = [
     "LIMITS",
     "Limit",
     "MAX_PER_DAY",
+    "MODE_STATES_MAX",
+    "MODE_STEPS_MAX",
     "NOTE_LENGTH",
     "PHRASE_LENGTH",
     "SIMULATION_CORE_MAX_DAYS",
+    "SIMULATION_MAX_BIN_S",
+    "SIMULATION_MAX_BYTES",
     "SIMULATION_MAX_DAYS",
+    "SIMULATION_MIN_BIN_S",
     "SPREADSHEET_MAX_BYTES",
     "SPREADSHEET_MAX_COLUMNS",
     "SPREADSHEET_MAX_ROWS",
@@ -101,12 +106,35 @@ CHAIN_ENTRIES_MAX = 100_000
 
 # --- Mode maps -----------------------------------------------------------------------
 
+#: The most states the mode-map check may have to search: modes x modes, each pair of
+#: the mode the device is in and the mode the person believes (500 modes). The pairs of
+#: modes are also what the check compares for shared indications.
+MODE_STATES_MAX = 250_000
+#: The most steps the mode-map check may have to take: for every believed mode, every
+#: transition with each way it can go (noticed or missed; each mode the person expects
+#: an action to lead to). Each step can yield a finding with its witness, so time and
+#: memory grow with this count (2 to 3 s and under 250 MiB at the limit, measured).
+MODE_STEPS_MAX = 200_000
+
 # --- Simulation ----------------------------------------------------------------------
 
 #: The most days one request may ask for.
 SIMULATION_MAX_DAYS = 20_000
 #: The longest run the simulation core accepts (the database allows the same).
 SIMULATION_CORE_MAX_DAYS = 100_000
+#: The finest workload bin (``study.bin_s``, seconds). A tool assumption: the time line
+#: reports occupancy per bin, and bins finer than a minute add nothing to it (a task's
+#: duration and a person's response are themselves given to within seconds to minutes)
+#: while the simulation's arrays grow as the day is cut finer (days x bins per day x
+#: people), so a one-second bin costs sixty times a one-minute bin.
+SIMULATION_MIN_BIN_S = 60
+#: The widest workload bin (seconds): one day, the span the time line is drawn over.
+SIMULATION_MAX_BIN_S = 86_400
+#: The most memory one simulation may be estimated to need (bytes): the working set of
+#: one chunk plus the combining of the run's daily figures
+#: (:func:`allocation.core.simulation.simulation_memory_estimate`). A tool assumption:
+#: a gibibyte is what one worker of a team server can give one run.
+SIMULATION_MAX_BYTES = 1024**3
 
 # --- Pages and pending work ----------------------------------------------------------
 
@@ -214,6 +242,20 @@ LIMITS: tuple[Limit, ...] = (
         "study reader, forms, spreadsheet reader",
     ),
     Limit(
+        "MODE_STATES_MAX",
+        MODE_STATES_MAX,
+        "states (modes x modes)",
+        "the states a plan's mode-map check may search",
+        "study checks (every read, import and edit), and the mode-map check itself",
+    ),
+    Limit(
+        "MODE_STEPS_MAX",
+        MODE_STEPS_MAX,
+        "steps (modes x transitions' ways)",
+        "the steps a plan's mode-map check may take",
+        "study checks (every read, import and edit), and the mode-map check itself",
+    ),
+    Limit(
         "SIMULATION_MAX_DAYS",
         SIMULATION_MAX_DAYS,
         "days",
@@ -261,5 +303,26 @@ LIMITS: tuple[Limit, ...] = (
         "plans",
         "plans of one study",
         "study reader (every read, import and edit), before the items are read",
+    ),
+    Limit(
+        "SIMULATION_MIN_BIN_S",
+        SIMULATION_MIN_BIN_S,
+        "seconds",
+        "the finest workload bin (study.bin_s)",
+        "study reader (every read, import and edit of the study header)",
+    ),
+    Limit(
+        "SIMULATION_MAX_BIN_S",
+        SIMULATION_MAX_BIN_S,
+        "seconds",
+        "the widest workload bin (study.bin_s)",
+        "study reader (every read, import and edit of the study header)",
+    ),
+    Limit(
+        "SIMULATION_MAX_BYTES",
+        SIMULATION_MAX_BYTES,
+        "bytes",
+        "the estimated memory of one simulation (a chunk's working set and the combining)",
+        "simulation request, before a run is stored; simulation core, before drawing",
     ),
 )

@@ -23,6 +23,8 @@ from .limits import (
     NOTE_LENGTH,
     PHRASE_LENGTH,
     STUDY_MAX_ITEMS,
+    SIMULATION_MAX_BIN_S,
+    SIMULATION_MIN_BIN_S,
     WORD_LENGTH,
 )
 from .model import (
@@ -452,7 +454,7 @@ class StudyReader:
         title = self.label(header.get("title", "?"), child_path(path, "title"))
         scale = self.choice(header.get("scale", "sv10"), child_path(path, "scale"), SCALES)
         description = self.optional(header, "description", path, self.note)
-        bin_s = self.optional(header, "bin_s", path, lambda v, p: self.number(v, p, positive=True))
+        bin_s = self.optional(header, "bin_s", path, self.bin_width)
         assumptions = self.optional(header, "assumptions", path, self.assumptions)
         risk_policy = self.optional(header, "risk_policy", path, self.risk_policy)
         return Study(
@@ -469,6 +471,29 @@ class StudyReader:
             links=self.entries(root, "links", "$", self.link),
             plans=self.entries(root, "plans", "$", self.plan),
         )
+
+    def bin_width(self, value: Any, path: str) -> int | float | None:
+        """The workload bin, within ``SIMULATION_MIN_BIN_S`` and ``SIMULATION_MAX_BIN_S``:
+        the simulation's memory grows as the bin narrows."""
+        width = self.number(value, path, positive=True)
+        if width is None:
+            return None
+        if width < SIMULATION_MIN_BIN_S:
+            self.error(
+                path,
+                f"a workload bin of {width:g} s is finer than the limit of "
+                f"{SIMULATION_MIN_BIN_S:g} s (SIMULATION_MIN_BIN_S): finer bins add nothing "
+                "to the time line and multiply the simulation's memory",
+            )
+            return None
+        if width > SIMULATION_MAX_BIN_S:
+            self.error(
+                path,
+                f"a workload bin of {width:g} s is wider than the limit of "
+                f"{SIMULATION_MAX_BIN_S:g} s (SIMULATION_MAX_BIN_S), one day",
+            )
+            return None
+        return width
 
     def assumptions(self, value: Any, path: str) -> dict[str, Any] | None:
         if not isinstance(value, dict):

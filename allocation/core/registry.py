@@ -505,6 +505,14 @@ FINDING_KINDS: dict[str, FindingKind] = _kinds(
         "the highest severity among the safety-critical tasks no person holds there",
         "finding-no-way-back",
     ),
+    K(
+        "mode_map_unchecked",
+        "Mode map too large to check",
+        "The mode map has too many modes or transitions for its check to search them; "
+        "none of its confusions is known.",
+        "always 3 (moderate): the map's confusions are unknown",
+        "finding-mode-map-unchecked",
+    ),
 )
 
 del K

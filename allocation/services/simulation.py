@@ -44,6 +44,7 @@ from allocation.core.simulation import (
     day_timeline,
     sim_plan,
     simulate_chunk,
+    simulation_memory_estimate,
 )
 
 __all__ = [
@@ -109,7 +110,7 @@ def simulation_check(*, days: object, seed: object) -> tuple[int, int]:
     return days, seed
 
 
-def _check_plan(study: m.Study, plan_key: str) -> None:
+def _check_plan(study: m.Study, plan_key: str) -> Study:
     result = selectors.study_load(study)
     if result.study is None or not result.ok:
         raise SimulationRefused(
@@ -119,6 +120,16 @@ def _check_plan(study: m.Study, plan_key: str) -> None:
     if plan_key not in result.study.plans_by_id:
         known = ", ".join(plan.id for plan in result.study.plans) or "none"
         raise SimulationRefused("plan", f"The study has no plan {plan_key!r} (its plans: {known})")
+    return result.study
+
+
+def _check_size(study: Study, plan_key: str, days: int) -> None:
+    """Refuse a run whose estimated memory is over ``SIMULATION_MAX_BYTES``, before it
+    is stored (the core refuses it too, but only once a worker has taken a chunk)."""
+    estimate = simulation_memory_estimate(study, plan_key, days=days)
+    if estimate.bytes > limits.SIMULATION_MAX_BYTES:
+        message = estimate.refusal(limits.SIMULATION_MAX_BYTES)
+        raise SimulationRefused("days", message[0].upper() + message[1:])
 
 
 def simulation_request(
@@ -129,7 +140,8 @@ def simulation_request(
     A done, queued or running run for the study's current version is returned as it is;
     otherwise a new run is stored and its chunks enqueued. Raises
     :class:`SimulationRefused` (nothing stored) for days outside 1 to
-    ``SIMULATION_MAX_DAYS``, a negative seed, an unknown plan or a study with errors, and
+    ``SIMULATION_MAX_DAYS``, a negative seed, an unknown plan, a study with errors or a
+    run whose estimated memory is over ``SIMULATION_MAX_BYTES``, and
     ``PermissionDenied`` for a user who is not a member of the study.
     """
     days, seed = simulation_check(days=days, seed=seed)
@@ -137,7 +149,7 @@ def simulation_request(
     # access too; the service does not rely on them.
     if not m.Membership.objects.filter(study=study, user=user).exists():
         raise PermissionDenied("Only members of a study can simulate it.")
-    _check_plan(study, plan_key)
+    _check_size(_check_plan(study, plan_key), plan_key, days)
     try:
         with transaction.atomic():
             # The study row lock makes concurrent identical requests take turns, so the

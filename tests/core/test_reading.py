@@ -1050,3 +1050,30 @@ def test_text_with_a_nul_character_is_refused_with_its_path(make_study):
     assert [p.message for p in problems] == [
         "contains the NUL character (\\u0000), which text may not hold"
     ]
+
+
+# -- the workload bin's bounds ---------------------------------------------------------
+# Baton's own limits (allocation/core/limits.py): SIMULATION_MIN_BIN_S is 60 s and
+# SIMULATION_MAX_BIN_S one day, 86,400 s; the cases sit either side of each, by hand.
+
+
+@pytest.mark.parametrize(
+    ("value", "fragment"),
+    [
+        (0.1, "a workload bin of 0.1 s is finer than the limit of 60 s (SIMULATION_MIN_BIN_S)"),
+        (59.5, "a workload bin of 59.5 s is finer than the limit of 60 s"),
+        (86_401, "a workload bin of 86401 s is wider than the limit of 86400 s"),
+    ],
+)
+def test_a_workload_bin_outside_its_limits_is_refused_naming_the_limit(
+    make_study, value, fragment
+):
+    result = load_changed(make_study, setting("study", "bin_s", value=value))
+    assert_problem(result, "$.study.bin_s", fragment)
+    assert result.study is None or not result.ok
+
+
+@pytest.mark.parametrize("value", [60, 60.5, 900, 86_400])
+def test_a_workload_bin_within_its_limits_reads(make_study, value):
+    result = load_changed(make_study, setting("study", "bin_s", value=value))
+    assert result.ok and result.study.bin_s == value

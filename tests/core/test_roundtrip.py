@@ -35,6 +35,8 @@ IDS = st.from_regex(r"[A-Za-z0-9][A-Za-z0-9._-]{0,11}", fullmatch=True)
 TEXT = st.text(min_size=1, max_size=12).filter(lambda t: t.strip() and "\x00" not in t)
 SMALL = st.integers(0, 10**6) | st.floats(0, 1e6, allow_nan=False)
 POSITIVE = st.integers(1, 10**6) | st.floats(0, 1e6, exclude_min=True, allow_nan=False)
+# A workload bin from a minute to a day (SIMULATION_MIN_BIN_S, SIMULATION_MAX_BIN_S).
+BIN_S = st.integers(60, 86_400) | st.floats(60, 86_400, allow_nan=False)
 SHARE = st.floats(0, 1, exclude_min=True)  # a probability in (0, 1]
 # At most a million times a day, so every_days is at least a millionth of a day.
 EVERY_DAYS = st.integers(1, 10**6) | st.floats(1e-6, 1e6, allow_nan=False)
@@ -297,7 +299,7 @@ def study_files(draw, scale: str) -> dict[str, Any]:
     task_list, leaves = draw(tasks([e["id"] for e in event_list]))
     header_optional = {
         "description": TEXT,
-        "bin_s": POSITIVE,
+        "bin_s": BIN_S,
         "assumptions": ASSUMPTIONS,
         "risk_policy": risk_policies(),
     }

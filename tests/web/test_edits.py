@@ -181,3 +181,15 @@ def test_two_racing_edits_take_turns_and_the_second_sees_the_first(heating_docum
     row = m.Study.objects.get(pk=study.pk)
     assert (row.title, row.version) == ("Heating, first", opened + 1)
     assert m.AuditEntry.objects.filter(study=study, action="study.save").count() == 1
+
+
+def test_a_header_edit_to_a_too_fine_workload_bin_is_refused_and_writes_nothing(study):
+    """A 1-second bin is under SIMULATION_MIN_BIN_S (60 s, allocation/core/limits.py):
+    the edit is refused at the header's bin and the study keeps its version."""
+    before, document = stored(study), rebuilt(study)
+    header = {k: document["study"][k] for k in ("id", "title", "scale")}
+    with pytest.raises(StudyInvalid) as caught:
+        services.study_header_save(study=study, item={**header, "bin_s": 1})
+    assert [p.path for p in caught.value.errors] == ["$.study.bin_s"]
+    assert "SIMULATION_MIN_BIN_S" in caught.value.errors[0].message
+    assert stored(study) == before and rebuilt(study) == document

@@ -608,3 +608,19 @@ user = get_user_model().objects.get(username="baton")
 study = m.Study.objects.get(key="home-heating")
 services.simulation_request(study=study, plan_key="auto", days=20, seed=1, user=user)
 """
+
+
+def test_a_run_over_the_memory_limit_is_refused_before_anything_is_stored(
+    study, owner, heating_document, settings
+):
+    """The leave event a hundred thousand times a day: its chain of two tasks makes 4e7
+    occurrences in a 200-day part, far over SIMULATION_MAX_BYTES (1 GiB,
+    allocation/core/limits.py); refused on the days asked for, no run nor task stored."""
+    heating_document["events"][0] = {"id": "leave", "name": "Leave home", "per_day": 100_000}
+    heating_document["study"]["id"] = "busy-heating"
+    busy = services.study_import(data=heating_document, owner=owner)
+    with pytest.raises(services.SimulationRefused, match="SIMULATION_MAX_BYTES") as caught:
+        request(busy, owner, days=200)
+    assert caught.value.field == "days"
+    assert "Simulating 200 days would need about" in str(caught.value)
+    assert not m.SimulationRun.objects.exists() and not DBTaskResult.objects.exists()

@@ -41,7 +41,11 @@ every witness is a shortest sequence of events. The findings (kinds as named her
   (operator authority limits; Leveson et al. 1997). Safety-critical means applicable and
   of severity 4 or 5; a critical task the plan leaves to the device in every mode is an
   allocation decision, seen on the other screens, not a trap of the mode map, so it is
-  left out (tool assumption).
+  left out (tool assumption);
+- ``mode_map_unchecked``: a map too large to search within ``MODE_STATES_MAX`` and
+  ``MODE_STEPS_MAX`` (:func:`mode_search_size`, counted before any search); the study
+  checks refuse such a map, so this is raised only for one that reaches the check
+  all the same.
 
 Every finding that an event sequence shows carries it as its ``witness``: each event
 with the mode the device is then in and the mode the person then believes. For
@@ -74,6 +78,7 @@ from collections import deque
 from dataclasses import dataclass
 from typing import Any
 
+from ..limits import MODE_STATES_MAX, MODE_STEPS_MAX
 from ..model import ModeMap, Plan, Study, Transition
 from .findings import Finding, WitnessStep
 from .involvement import involvement
@@ -83,9 +88,11 @@ __all__ = [
     "MODE_FINDING_KINDS",
     "Exploration",
     "Moment",
+    "SearchSize",
     "Step",
     "error_state_tasks",
     "explore",
+    "mode_search_size",
     "verify_mode_map",
     "walkthrough",
 ]
@@ -99,6 +106,7 @@ MODE_FINDING_KINDS = (
     "refused_action",
     "unreachable_mode",
     "no_way_back",
+    "mode_map_unchecked",
 )
 
 #: Cues the person always notices, and cues they may miss (branch both ways).
@@ -242,6 +250,68 @@ def _successors(
                 yield Step(transition, True), (transition.target, believed)
         else:
             yield Step(transition, True), (transition.target, believed)
+
+
+@dataclass(frozen=True)
+class SearchSize:
+    """The most the check of a mode map may have to search, counted from the map alone
+    before any search: ``states`` pairs of actual and believed mode (modes x modes) and
+    ``steps``, for every believed mode, every transition with each way it can go."""
+
+    modes: int
+    transitions: int
+    states: int
+    steps: int
+
+    @property
+    def over(self) -> bool:
+        """Over ``MODE_STATES_MAX`` or ``MODE_STEPS_MAX``."""
+        return self.states > MODE_STATES_MAX or self.steps > MODE_STEPS_MAX
+
+    def refusal(self) -> str:
+        """Why the map is too large to check, naming the sizes and the limits."""
+        return (
+            f"the mode map has {self.modes:,} modes and {self.transitions:,} transitions: "
+            f"its check would search up to {self.states:,} states (modes x modes; the "
+            f"limit is {MODE_STATES_MAX:,}, MODE_STATES_MAX) and take up to "
+            f"{self.steps:,} steps (every transition from every believed mode, each way "
+            f"it can go; the limit is {MODE_STEPS_MAX:,}, MODE_STEPS_MAX). Split the "
+            "map, or merge modes that differ in nothing the person must know"
+        )
+
+
+def mode_search_size(modes: ModeMap) -> SearchSize:
+    """The most states and steps :func:`explore` and the findings may take for a map.
+
+    From a state ``(actual, believed)`` each transition out of ``actual`` gives one step
+    (an alert, a change with no cue), two (a change shown only passively: noticed or
+    missed) or, for an action of the person, one per mode their model expects it to lead
+    to from ``believed`` (at most the most targets the action has from any mode). Summed
+    over the transitions and multiplied by the modes a person may believe, this bounds
+    the steps of the search, and so the findings it can raise. Linear in the map.
+
+    Parameters
+    ----------
+    modes : ModeMap
+
+    Returns
+    -------
+    SearchSize
+    """
+    count = len(modes.states)
+    out = _outgoing(modes)
+    fan: dict[str, int] = {}
+    for table in _actions(out).values():
+        for trigger, targets in table.items():
+            fan[trigger] = max(fan.get(trigger, 0), len(targets))
+    ways = 0
+    for moves in out.values():
+        for transition in moves:
+            if transition.by == "human":
+                ways += fan[transition.trigger]
+            else:
+                ways += 2 if transition.cue in MISSABLE else 1
+    return SearchSize(count, len(modes.transitions), count * count, count * ways)
 
 
 def _search(initial: State, out, actions, allow_missed_display: bool):
@@ -428,11 +498,26 @@ def verify_mode_map(study: Study, plan: Plan, assumptions: dict[str, Any]) -> li
     -------
     list of Finding
         Grouped by kind in the order of the module docstring; within a kind in the order
-        of the file (modes, transitions) and of the breadth-first search.
+        of the file (modes, transitions) and of the breadth-first search. A map over the
+        search's limits (:func:`mode_search_size`) is not searched: its one finding,
+        ``mode_map_unchecked``, says why.
     """
     modes = plan.modes
     if modes is None or modes.initial not in modes.by_id:
         return []
+    size = mode_search_size(modes)
+    if size.over:
+        # The study checks refuse such a map; a map that reaches here all the same is
+        # not searched, and says so.
+        return [
+            Finding(
+                "mode_map_unchecked",
+                3,
+                f"Not checked: {size.refusal()}.",
+                (),
+                (modes.initial,),
+            )
+        ]
     check = _Checker(study, plan, modes, assumptions)
     found = explore(modes)
     out = _outgoing(modes)

@@ -21,9 +21,10 @@ import numpy as np
 from ..analysis.plan import analyse_plan, prepare
 from ..assumptions import resolve_assumptions
 from ..errors import BatonError
-from ..limits import SIMULATION_CORE_MAX_DAYS
+from ..limits import SIMULATION_CORE_MAX_DAYS, SIMULATION_MAX_BYTES
 from ..model import Study
 from .engine import draw_chunk
+from .memory import MemoryEstimate, simulation_memory_estimate
 from .results import (
     FIGURE_WORDS,
     FIGURES,
@@ -42,15 +43,18 @@ __all__ = [
     "FIGURE_WORDS",
     "KINDS",
     "DayTimeline",
+    "MemoryEstimate",
     "Simulation",
     "SimulationCancelled",
     "SimulationChunk",
+    "SimulationTooLarge",
     "chunk_count",
     "combine",
     "day_timeline",
     "simulate",
     "simulate_chunk",
     "sim_plan",
+    "simulation_memory_estimate",
 ]
 
 #: Days per chunk: the unit of progress, of cancelling and of work spread over workers.
@@ -61,6 +65,24 @@ MAX_DAYS = SIMULATION_CORE_MAX_DAYS
 
 class SimulationCancelled(BatonError):
     """The run was cancelled through its progress callback."""
+
+
+class SimulationTooLarge(BatonError, ValueError):
+    """A run whose estimated memory is over ``SIMULATION_MAX_BYTES``; ``estimate`` says
+    what makes it large."""
+
+    def __init__(self, estimate: MemoryEstimate):
+        self.estimate = estimate
+        super().__init__(estimate.refusal(SIMULATION_MAX_BYTES))
+
+
+def _bounded(plan: SimPlan, days: int) -> SimPlan:
+    """``plan`` if a ``days``-day run of it fits ``SIMULATION_MAX_BYTES``; checked before
+    any day is drawn."""
+    estimate = simulation_memory_estimate(plan, days=days)
+    if estimate.bytes > SIMULATION_MAX_BYTES:
+        raise SimulationTooLarge(estimate)
+    return plan
 
 
 def sim_plan(study: Study, plan_id: str) -> SimPlan:
@@ -114,7 +136,7 @@ def simulate_chunk(
     _check(days, seed)
     if not 0 <= chunk < chunk_count(days):
         raise ValueError(f"a {days}-day run has chunks 0 to {chunk_count(days) - 1}, not {chunk}")
-    return _chunk(plan or sim_plan(study, plan_id), seed, chunk, days)
+    return _chunk(_bounded(plan or sim_plan(study, plan_id), days), seed, chunk, days)
 
 
 def combine(
@@ -196,9 +218,12 @@ def simulate(
     ------
     SimulationCancelled
         When ``progress`` returned ``False``.
+    SimulationTooLarge
+        Before any day is drawn, when the run's estimated memory is over
+        ``SIMULATION_MAX_BYTES`` (:func:`simulation_memory_estimate`).
     """
     _check(days, seed)
-    plan = sim_plan(study, plan_id)
+    plan = _bounded(sim_plan(study, plan_id), days)
     chunks = []
     for chunk in range(chunk_count(days)):
         chunks.append(_chunk(plan, seed, chunk, days))
@@ -216,7 +241,7 @@ def day_timeline(
     _check(days, seed)
     if not 0 <= day < days:
         raise ValueError(f"a {days}-day run has days 0 to {days - 1}, not {day}")
-    plan = plan or sim_plan(study, plan_id)
+    plan = _bounded(plan or sim_plan(study, plan_id), days)
     chunk = day // CHUNK_DAYS
     first = chunk * CHUNK_DAYS
     draw = draw_chunk(plan, seed, chunk, first, min(CHUNK_DAYS, days - first))

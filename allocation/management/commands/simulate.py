@@ -22,7 +22,13 @@ from allocation.core.cautions import CAUTIONS
 from allocation.core.methods import methods_document
 from allocation.core.registry import FIGURES as REGISTRY
 from allocation.core.registry import SIMULATED, figure_number
-from allocation.core.simulation import CHUNK_DAYS, FIGURE_WORDS, FIGURES, simulate
+from allocation.core.simulation import (
+    CHUNK_DAYS,
+    FIGURE_WORDS,
+    FIGURES,
+    SimulationTooLarge,
+    simulate,
+)
 
 from ._study import problem_lines, study_result_from_reference
 
@@ -95,9 +101,12 @@ class Command(BaseCommand):
         if plan not in core_study.plans_by_id:
             known = ", ".join(item.id for item in core_study.plans) or "none"
             raise CommandError(f"study {core_study.id!r} has no plan {plan!r} (plans: {known})")
-        simulation = simulate(
-            core_study, plan, days=days_n, seed=seed_n, progress=self._progress(days_n)
-        )
+        try:
+            simulation = simulate(
+                core_study, plan, days=days_n, seed=seed_n, progress=self._progress(days_n)
+            )
+        except SimulationTooLarge as error:
+            raise CommandError(str(error)) from None
         summary = simulation.summary()
         if json:
             self.stdout.write(_dumps(summary), ending="")
