@@ -19,6 +19,9 @@ __all__ = [
     "LIMITS",
     "Limit",
     "MAX_PER_DAY",
+    "PENDING_IMPORTS_PER_USER",
+    "PENDING_IMPORT_BYTES_PER_USER",
+    "PENDING_IMPORT_LIFETIME_S",
     "PHRASE_LENGTH",
     "SIMULATION_CORE_MAX_DAYS",
     "SIMULATION_MAX_DAYS",
@@ -86,6 +89,16 @@ SIMULATION_MAX_DAYS = 20_000
 SIMULATION_CORE_MAX_DAYS = 100_000
 
 # --- Pages and pending work ----------------------------------------------------------
+
+#: How long an uploaded spreadsheet waits for its preview to be applied (seconds): a
+#: working day; after it the file is deleted and must be uploaded again.
+PENDING_IMPORT_LIFETIME_S = 24 * 3600
+#: The most spreadsheets one user may have waiting at once (one per study); a new upload
+#: past it drops that user's oldest.
+PENDING_IMPORTS_PER_USER = 5
+#: The most bytes of spreadsheets one user may have waiting at once (four of the largest
+#: files read); a new upload past it drops that user's oldest.
+PENDING_IMPORT_BYTES_PER_USER = 4 * SPREADSHEET_MAX_BYTES
 
 
 #: Every limit, for the README's Operations section and ``manage.py limits``.
@@ -173,5 +186,26 @@ LIMITS: tuple[Limit, ...] = (
         "days",
         "one simulation run",
         "simulation core and database",
+    ),
+    Limit(
+        "PENDING_IMPORT_LIFETIME_S",
+        PENDING_IMPORT_LIFETIME_S,
+        "seconds",
+        "a spreadsheet waiting to be applied",
+        "import page, on each upload, manage.py housekeeping",
+    ),
+    Limit(
+        "PENDING_IMPORTS_PER_USER",
+        PENDING_IMPORTS_PER_USER,
+        "files",
+        "spreadsheets one user has waiting (past it the oldest is dropped)",
+        "spreadsheet upload, before the file is kept",
+    ),
+    Limit(
+        "PENDING_IMPORT_BYTES_PER_USER",
+        PENDING_IMPORT_BYTES_PER_USER,
+        "bytes",
+        "spreadsheets one user has waiting (past it the oldest are dropped)",
+        "spreadsheet upload, before the file is kept",
     ),
 )
