@@ -218,7 +218,9 @@ def pending_import(
     """The file ``user`` has waiting for ``study``'s plan ``plan_key``, if any, unexpired
     and intact (the user's expired files are deleted on the way)."""
     now = now or timezone.now()
-    m.PendingImport.objects.filter(user=user, expires_at__lte=now).delete()
+    expired = m.PendingImport.objects.filter(user=user, expires_at__lte=now)
+    if expired.exists():  # a page view writes only when there is something to delete
+        expired.delete()
     pending = m.PendingImport.objects.filter(user=user, study=study, plan_key=plan_key).first()
     if pending is None:
         return None
