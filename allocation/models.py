@@ -740,3 +740,43 @@ class WorkloadRating(models.Model):
 
     def __str__(self) -> str:
         return f"{self.plan_key}/{self.task_key} {self.participant}: {self.score:.1f}"
+
+
+# -- pending work ------------------------------------------------------------------------
+
+
+class PendingImport(models.Model):
+    """A spreadsheet one user uploaded for a plan and has not applied or discarded yet.
+
+    The file is kept as uploaded (at most ``SPREADSHEET_MAX_BYTES``; smaller than the
+    study it would propose, and read again against the study as it is when applied), for
+    that user alone. Transient: deleted on apply, on discard and once ``expires_at`` has
+    passed; left out of backups. One waits per user and study (an upload for another plan
+    of the study replaces it).
+    """
+
+    user = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.CASCADE, related_name="+")
+    study = models.ForeignKey(Study, on_delete=models.CASCADE, related_name="+")
+    plan_key = models.CharField("plan id", max_length=64)
+    name = models.CharField(max_length=200)
+    data = models.BinaryField()
+    sha256 = models.CharField(max_length=64)
+    size = models.PositiveIntegerField()
+    created_at = models.DateTimeField()
+    expires_at = models.DateTimeField(db_index=True)
+
+    class Meta:
+        ordering = ["created_at", "pk"]
+        constraints = [
+            models.UniqueConstraint(fields=["user", "study"], name="pending_import_one_per_study"),
+            models.CheckConstraint(
+                condition=Q(sha256__regex=r"^[0-9a-f]{64}$"), name="pending_import_hash_hex"
+            ),
+            models.CheckConstraint(condition=Q(size__gte=1), name="pending_import_not_empty"),
+            models.CheckConstraint(
+                condition=Q(expires_at__gt=F("created_at")), name="pending_import_expires_later"
+            ),
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.name} for {self.study_id}/{self.plan_key} ({self.size:,} bytes)"

@@ -14,6 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 __all__ = [
+    "CHAIN_ENTRIES_MAX",
     "INTEGER_DIGITS",
     "LABEL_LENGTH",
     "LIMITS",
@@ -22,7 +23,11 @@ __all__ = [
     "MODE_STATES_MAX",
     "MODE_STEPS_MAX",
     "NOTE_LENGTH",
+    "PENDING_IMPORTS_PER_USER",
+    "PENDING_IMPORT_BYTES_PER_USER",
+    "PENDING_IMPORT_LIFETIME_S",
     "PHRASE_LENGTH",
+    "REVIEW_TEXT_LENGTH",
     "SIMULATION_CORE_MAX_DAYS",
     "SIMULATION_MAX_BIN_S",
     "SIMULATION_MAX_BYTES",
@@ -33,7 +38,12 @@ __all__ = [
     "SPREADSHEET_MAX_ROWS",
     "SPREADSHEET_MAX_UNPACKED_BYTES",
     "STUDY_FILE_MAX_BYTES",
-    "REVIEW_TEXT_LENGTH",
+    "STUDY_MAX_AGENTS",
+    "STUDY_MAX_EVENTS",
+    "STUDY_MAX_ITEMS",
+    "STUDY_MAX_LINKS",
+    "STUDY_MAX_PLANS",
+    "STUDY_MAX_TASKS",
     "WORD_LENGTH",
 ]
 
@@ -137,6 +147,16 @@ SIMULATION_MAX_BIN_S = 86_400
 SIMULATION_MAX_BYTES = 1024**3
 
 # --- Pages and pending work ----------------------------------------------------------
+
+#: How long an uploaded spreadsheet waits for its preview to be applied (seconds): a
+#: working day; after it the file is deleted and must be uploaded again.
+PENDING_IMPORT_LIFETIME_S = 24 * 3600
+#: The most spreadsheets one user may have waiting at once (one per study); a new upload
+#: past it drops that user's oldest.
+PENDING_IMPORTS_PER_USER = 5
+#: The most bytes of spreadsheets one user may have waiting at once (four of the largest
+#: files read); a new upload past it drops that user's oldest.
+PENDING_IMPORT_BYTES_PER_USER = 4 * SPREADSHEET_MAX_BYTES
 
 
 #: The most items of each list of a study file, by its key.
@@ -324,5 +344,26 @@ LIMITS: tuple[Limit, ...] = (
         "bytes",
         "the estimated memory of one simulation (a chunk's working set and the combining)",
         "simulation request, before a run is stored; simulation core, before drawing",
+    ),
+    Limit(
+        "PENDING_IMPORT_LIFETIME_S",
+        PENDING_IMPORT_LIFETIME_S,
+        "seconds",
+        "a spreadsheet waiting to be applied",
+        "import page, on each upload, manage.py housekeeping",
+    ),
+    Limit(
+        "PENDING_IMPORTS_PER_USER",
+        PENDING_IMPORTS_PER_USER,
+        "files",
+        "spreadsheets one user has waiting (past it the oldest is dropped)",
+        "spreadsheet upload, before the file is kept",
+    ),
+    Limit(
+        "PENDING_IMPORT_BYTES_PER_USER",
+        PENDING_IMPORT_BYTES_PER_USER,
+        "bytes",
+        "spreadsheets one user has waiting (past it the oldest are dropped)",
+        "spreadsheet upload, before the file is kept",
     ),
 )

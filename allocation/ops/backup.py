@@ -24,14 +24,16 @@ Values are Django's own serialized forms (the ``python`` serializer, so a foreig
 the primary key it points to), which is why every field a model has, now or after a
 migration, is carried without this module naming any of them.
 
-What is backed up: every model of the ``allocation`` app (studies with all their rows,
+What is backed up: every model of the ``allocation`` app but the transient ones
+(:data:`TRANSIENT_MODELS`) (studies with all their rows,
 memberships, snapshots, comments, decisions, workload ratings, the audit trail,
 simulation runs with their chunks and results) and every user (username, password hash,
 names, e-mail, flags, dates). Left out: the users' Django groups and permissions
 (Baton's access is the study memberships), sessions, the admin's own log, django-axes's
 sign-in attempt records and access log (a restored Baton starts with no one locked out)
-and the task queue (a run still queued or running at backup time comes back with its
-chunks so far and no queued work: request it again).
+the task queue (a run still queued or running at backup time comes back with its
+chunks so far and no queued work: request it again) and the spreadsheets waiting to be
+applied (:data:`TRANSIENT_MODELS`: they live a day at most; upload them again).
 
 Reading the database for a backup happens in one read transaction (``REPEATABLE READ``
 on PostgreSQL; a deferred read transaction on SQLite, whose WAL keeps writers going), so
@@ -86,6 +88,7 @@ from allocation import __version__
 __all__ = [
     "FORMAT",
     "FORMAT_VERSION",
+    "TRANSIENT_MODELS",
     "BackupRefused",
     "Manifest",
     "ModelEntry",
@@ -99,6 +102,10 @@ __all__ = [
 
 FORMAT = "baton-backup"
 FORMAT_VERSION = 1
+#: Models of the ``allocation`` app left out of backups on purpose: work in progress that
+#: expires on its own (a spreadsheet waiting for its preview to be applied). Every other
+#: model of the app is backed up; a test holds the two lists to the app's models.
+TRANSIENT_MODELS = frozenset({"allocation.pendingimport"})
 #: Rows read from the database per query while backing up.
 _CHUNK = 1000
 
@@ -160,10 +167,15 @@ class Manifest:
 
 def backed_up_models() -> list[type[models.Model]]:
     """The user model and every model of the ``allocation`` app (with any many-to-many
-    tables Django makes for it), ordered so that a model comes after those it points to.
+    tables Django makes for it) but :data:`TRANSIENT_MODELS`, ordered so that a model
+    comes after those it points to.
     """
     chosen = [get_user_model()]
-    chosen += list(apps.get_app_config("allocation").get_models(include_auto_created=True))
+    chosen += [
+        model
+        for model in apps.get_app_config("allocation").get_models(include_auto_created=True)
+        if model._meta.label_lower not in TRANSIENT_MODELS
+    ]
     order: graphlib.TopologicalSorter = graphlib.TopologicalSorter()
     for model in chosen:
         targets = {

@@ -1,16 +1,13 @@
 """Spreadsheet import: upload a CSV or XLSX for a plan, preview every row problem and
 what would change, then apply it (editors and owners).
 
-The uploaded file is kept in the user's session (base64, at most
-:data:`allocation.core.spreadsheets.reading.MAX_BYTES`) between the preview and the
-apply, under the study and plan it was uploaded for; it is never served back.
+The uploaded file waits in the database between the preview and the apply, for the
+user who uploaded it alone, under the study and plan it was uploaded for (the session
+holds nothing of it); it is never served back. The bounds on what waits are the
+services' (:mod:`allocation.services.spreadsheets`).
 """
 
 from __future__ import annotations
-
-import base64
-import binascii
-import hashlib
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
@@ -22,14 +19,15 @@ from django_htmx.http import HttpResponseClientRedirect
 
 from allocation import models as m
 from allocation import services
+from allocation.core.limits import (
+    PENDING_IMPORT_BYTES_PER_USER,
+    PENDING_IMPORT_LIFETIME_S,
+    PENDING_IMPORTS_PER_USER,
+)
 from allocation.core.spreadsheets import reading as spreadsheets
 from allocation.core.spreadsheets.reading import SpreadsheetInvalid, Upload
 from allocation.views.common import StudyPage, study_page
 from allocation.web.uploads import upload_refusal
-
-
-def _key(pk: int, plan: str) -> str:
-    return f"baton.spreadsheet.{pk}.{plan}"
 
 
 def _version(page: StudyPage) -> str:
@@ -37,20 +35,35 @@ def _version(page: StudyPage) -> str:
     return row.isoformat() if row else ""
 
 
-def _pending(request: HttpRequest, pk: int, plan: str) -> tuple[Upload, dict] | None:
-    """The file waiting in the session for this study and plan, if any (and intact)."""
-    stored = request.session.get(_key(pk, plan))
-    if not isinstance(stored, dict):
+def _pending(
+    request: HttpRequest, page: StudyPage, plan: str
+) -> tuple[Upload, m.PendingImport] | None:
+    """The file this user has waiting for this study and plan, if any (and intact)."""
+    # Files kept in the session by earlier versions go the first time the user looks.
+    for key in [key for key, _ in request.session.items() if key.startswith("baton.spread")]:
+        del request.session[key]
+    pending = services.pending_import(user=request.user, study=page.row, plan_key=plan)
+    if pending is None:
         return None
-    try:
-        data = base64.b64decode(stored["data"], validate=True)
-    except (KeyError, TypeError, ValueError, binascii.Error):
-        request.session.pop(_key(pk, plan), None)
-        return None
-    if hashlib.sha256(data).hexdigest() != stored.get("sha256"):
-        request.session.pop(_key(pk, plan), None)
-        return None
-    return Upload(str(stored.get("name", "")), data), stored
+    return Upload(pending.name, pending.data), pending
+
+
+def _mib(size: int) -> str:
+    return f"{size / (1024 * 1024):.1f} MiB"
+
+
+def _dropped_message(kept: services.PendingKept) -> str:
+    """Which older files an upload dropped, naming the bounds and what the user had."""
+    files = "; ".join(
+        f"{item['name']} (plan {item['plan_key']} of {item['study_title']}, {_mib(item['size'])})"
+        for item in kept.dropped
+    )
+    return (
+        f"You had {kept.files} spreadsheet(s) waiting to be imported ({_mib(kept.bytes)}); "
+        f"at most {PENDING_IMPORTS_PER_USER} files and "
+        f"{_mib(PENDING_IMPORT_BYTES_PER_USER)} wait per person, so the oldest, not "
+        f"imported, were dropped: {files}. Upload one again to import it."
+    )
 
 
 def _context(page: StudyPage, plan: str, pending, upload_problems=None) -> dict:
@@ -89,13 +102,20 @@ def _done(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     return HttpResponseClientRedirect(url) if request.htmx else redirect(url)
 
 
+_NOTHING_WAITING = (
+    "No file is waiting to be imported (a file waits "
+    f"{PENDING_IMPORT_LIFETIME_S // 3600} hours, until it is applied or discarded); "
+    "upload it again."
+)
+
+
 @require_GET
 @login_required
 def plan_import(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     """The upload form, and the preview of the file waiting for this plan."""
     page = study_page(request, pk, role=m.Role.EDITOR)
     page.plan_or_404(plan)
-    return _render(request, _context(page, plan, _pending(request, pk, plan)))
+    return _render(request, _context(page, plan, _pending(request, page, plan)))
 
 
 @require_POST
@@ -120,20 +140,17 @@ def plan_import_upload(request: HttpRequest, pk: int, plan: str) -> HttpResponse
         elif upload.size == 0:
             problem, status = f"{upload.name} is empty", 400
     if problem is not None:
-        context = _context(page, plan, _pending(request, pk, plan), [problem])
+        context = _context(page, plan, _pending(request, page, plan), [problem])
         return _render(request, context, status=200 if request.htmx else status)
     data = upload.read(spreadsheets.MAX_BYTES + 1)
     # One file waits per study: a file uploaded for another plan is forgotten.
-    for key in [key for key, _ in request.session.items() if key.startswith(_key(pk, ""))]:
-        del request.session[key]
-    request.session[_key(pk, plan)] = {
-        "name": upload.name[:200],
-        "data": base64.b64encode(data).decode("ascii"),
-        "sha256": hashlib.sha256(data).hexdigest(),
-        "size": len(data),
-    }
+    kept = services.pending_import_keep(
+        user=request.user, study=page.row, plan_key=plan, upload=Upload(upload.name, data)
+    )
+    if kept.dropped:
+        messages.warning(request, _dropped_message(kept))
     if request.htmx:
-        return _render(request, _context(page, plan, _pending(request, pk, plan)))
+        return _render(request, _context(page, plan, _pending(request, page, plan)))
     return redirect(_page_url(pk, plan))
 
 
@@ -143,13 +160,13 @@ def plan_import_apply(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     """Apply the previewed file: everything in it, or nothing."""
     page = study_page(request, pk, role=m.Role.EDITOR)
     page.plan_or_404(plan)
-    pending = _pending(request, pk, plan)
+    pending = _pending(request, page, plan)
     if pending is None:
-        messages.error(request, "No file is waiting to be imported; upload it again.")
+        messages.error(request, _NOTHING_WAITING)
         return _done(request, pk, plan)
     upload, stored = pending
     seen = (request.POST.get("version"), request.POST.get("sha256"))
-    if seen != (_version(page), stored["sha256"]):
+    if seen != (_version(page), stored.sha256):
         # The preview the user saw is not what would be applied now: show it again.
         messages.warning(
             request,
@@ -158,9 +175,7 @@ def plan_import_apply(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         )
         return _done(request, pk, plan)
     try:
-        preview = services.spreadsheet_apply(
-            study=page.row, plan_key=plan, upload=upload, user=request.user
-        )
+        preview = services.spreadsheet_apply_pending(pending=stored, user=request.user)
     except SpreadsheetInvalid as error:
         count = sum(1 for problem in error.problems if problem.is_error)
         messages.error(
@@ -169,7 +184,9 @@ def plan_import_apply(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
             "Nothing was stored.",
         )
         return _done(request, pk, plan)
-    request.session.pop(_key(pk, plan), None)
+    if preview is None:  # applied or discarded from another tab meanwhile
+        messages.error(request, _NOTHING_WAITING)
+        return _done(request, pk, plan)
     if preview.changes is None or preview.changes.empty:
         messages.info(request, f"{upload.name} changes nothing in the study; nothing was stored.")
     else:
@@ -183,6 +200,6 @@ def plan_import_discard(request: HttpRequest, pk: int, plan: str) -> HttpRespons
     """Forget the file waiting for this plan."""
     page = study_page(request, pk, role=m.Role.EDITOR)
     page.plan_or_404(plan)
-    if request.session.pop(_key(pk, plan), None) is not None:
+    if services.pending_import_discard(user=request.user, study=page.row, plan_key=plan):
         messages.info(request, "The uploaded file was discarded; nothing was imported.")
     return _done(request, pk, plan)

@@ -281,7 +281,7 @@ def test_good_workbook_previews_then_applies_and_the_rows_match(client, study, e
     assert sorted(a.task.key for a in manual) == ["T1", "T2"]
     assert m.ModeOverride.objects.filter(state__plan__study=study).count() == 1
     # The file is no longer kept once applied.
-    assert not any(key.startswith("baton.spreadsheet") for key, _ in client.session.items())
+    assert not m.PendingImport.objects.exists()
 
 
 def test_good_csv_sets_the_plan_and_ignores_the_computed_columns(client, study, editor):
@@ -383,10 +383,10 @@ def test_a_file_with_errors_stores_nothing_even_when_applied(client, study, edit
     assert "Apply to plan" not in page
     assert problem_cells(page) == BAD_WORKBOOK_ERRORS
     before = everything(study)
-    session = client.session[f"baton.spreadsheet.{study.pk}.auto"]
+    waiting = m.PendingImport.objects.get(study=study, plan_key="auto")
     response = client.post(
         page_url(study, action="apply"),
-        {"version": study_version(study), "sha256": session["sha256"]},
+        {"version": study_version(study), "sha256": waiting.sha256},
     )
     assert response.status_code == 302
     assert "was not imported: it has 11 error(s)" in client.get(page_url(study)).content.decode()
@@ -440,7 +440,7 @@ def test_an_oversized_file_is_refused_before_it_is_read(client, study, editor):
     response = upload(client, study, data, "huge.csv")
     assert response.status_code == 400
     assert "larger than 2 MiB" in response.content.decode()
-    assert f"baton.spreadsheet.{study.pk}.auto" not in client.session
+    assert not m.PendingImport.objects.exists()
 
 
 def test_limits_on_rows_and_on_unpacked_size(study):
@@ -560,14 +560,14 @@ def test_a_study_changed_since_the_preview_is_not_imported(client, study, editor
     page = client.get(page_url(study)).content.decode()
     assert "Apply to plan auto" in page
     seen_version = study_version(study)
-    session = client.session[f"baton.spreadsheet.{study.pk}.auto"]
+    waiting = m.PendingImport.objects.get(study=study, plan_key="auto")
     services.task_save(
         study=study,
         key="T1",
         item={**selectors.study_document(study)["tasks"][1], "title": "Notice it"},
     )
     response = client.post(
-        page_url(study, action="apply"), {"version": seen_version, "sha256": session["sha256"]}
+        page_url(study, action="apply"), {"version": seen_version, "sha256": waiting.sha256}
     )
     assert response.status_code == 302
     assert "changed since that preview" in client.get(page_url(study)).content.decode()
@@ -577,15 +577,15 @@ def test_a_study_changed_since_the_preview_is_not_imported(client, study, editor
 def test_discard_forgets_the_file(client, study, editor):
     upload(client, study, good_workbook(), "g.xlsx")
     client.post(page_url(study, action="discard"))
-    assert f"baton.spreadsheet.{study.pk}.auto" not in client.session
+    assert not m.PendingImport.objects.exists()
     assert "Preview of" not in client.get(page_url(study)).content.decode()
 
 
 def test_one_file_waits_per_study(client, study, editor):
     upload(client, study, good_workbook(), "g.xlsx", plan="manual")
     upload(client, study, good_workbook(), "g.xlsx", plan="auto")
-    waiting = [key for key, _ in client.session.items() if key.startswith("baton.spreadsheet")]
-    assert waiting == [f"baton.spreadsheet.{study.pk}.auto"]
+    waiting = m.PendingImport.objects.values_list("study", "plan_key")
+    assert list(waiting) == [(study.pk, "auto")]
 
 
 def test_htmx_gets_the_region_alone(client, study, editor):

@@ -11,7 +11,9 @@ same figures with it running (on the objects each run makes) are printed beside 
 from __future__ import annotations
 
 import gc
+import io
 import json
+import random
 import statistics
 import time
 from collections.abc import Callable
@@ -138,6 +140,8 @@ class Command(BaseCommand):
         if not no_web:
             self.stdout.write("")
             self.pages(repeats=max(repeats, 5), seed=seed)
+            self.stdout.write("")
+            self.pending_imports(repeats=max(repeats, 5))
 
     def engine(self, *, repeats: int, seed: int, large: int) -> None:
         rows = {}
@@ -400,6 +404,70 @@ class Command(BaseCommand):
                     f"    {label:52} {seconds * 1000:8.1f} ms  "
                     f"{ratio:6.1f}x trivial (target <= {PAGE_LIMIT:g}: {verdict})"
                 )
+        finally:
+            if owns_database:
+                connection.creation.destroy_test_db(old_name, verbosity=0)
+                teardown_test_environment()
+
+    def pending_imports(self, *, repeats: int) -> None:
+        """A trivial page of a user with eleven spreadsheets of 1.9 MB uploaded (one per
+        study) and not applied: its time, and the size of the user's session row."""
+        from django.contrib.sessions.models import Session
+        from django.db import connection
+        from django.test import Client
+        from django.test.utils import setup_test_environment, teardown_test_environment
+        from django.urls import reverse
+
+        from allocation import services
+
+        try:
+            setup_test_environment()
+        except RuntimeError:  # already inside a test run, on its test database
+            owns_database = False
+        else:
+            owns_database = True
+            old_name = connection.creation.create_test_db(verbosity=0, autoclobber=True)
+        try:
+            from django.contrib.auth import get_user_model
+
+            user = get_user_model().objects.create_user("bench-importer")
+            client = Client()
+            client.force_login(user)
+            trivial_url = reverse("study-list")
+
+            def trivial():
+                client.get(trivial_url)
+
+            def session_bytes() -> int:
+                key = client.session.session_key
+                return len(Session.objects.get(session_key=key).session_data)
+
+            before_s = _median_seconds(trivial, repeats * 4, True)
+            before_b = session_bytes()
+            # 1.9 MB that does not compress, as an XLSX (a zip archive) does not; kept as
+            # uploaded, it is read only for a preview.
+            data = random.Random(1).randbytes(1_900_000)
+            uploads: list[float] = []
+            for index in range(11):
+                document = synthetic_study(tasks=5, links=4, events=1, plans=1, seed=index)
+                document["study"]["id"] = f"bench-import-{index}"
+                study = services.study_import(data=document, owner=user)
+                plan = document["plans"][0]["id"]
+                url = reverse("plan-import-upload", args=[study.pk, plan])
+                file = io.BytesIO(data)
+                file.name = f"plan-{index}.xlsx"
+                start = time.perf_counter()
+                client.post(url, {"file": file})
+                uploads.append(time.perf_counter() - start)
+            after_s = _median_seconds(trivial, repeats * 4, True)
+            after_b = session_bytes()
+            self.stdout.write(
+                f"a user with 11 spreadsheets of {len(data) / 1e6:.1f} MB uploaded, not "
+                f"applied: trivial page {before_s * 1000:.1f} ms before, "
+                f"{after_s * 1000:.1f} ms after; session row {before_b:,} bytes before, "
+                f"{after_b:,} bytes after; an upload {statistics.median(uploads) * 1000:.0f} ms "
+                f"(median), the last {uploads[-1] * 1000:.0f} ms"
+            )
         finally:
             if owns_database:
                 connection.creation.destroy_test_db(old_name, verbosity=0)
