@@ -22,12 +22,16 @@ __all__ = [
     "PHRASE_LENGTH",
     "SIMULATION_CORE_MAX_DAYS",
     "SIMULATION_MAX_DAYS",
+    "SIMULATION_STALLED_S",
     "SPREADSHEET_MAX_BYTES",
     "SPREADSHEET_MAX_COLUMNS",
     "SPREADSHEET_MAX_ROWS",
     "SPREADSHEET_MAX_UNPACKED_BYTES",
     "STUDY_FILE_MAX_BYTES",
     "REVIEW_TEXT_LENGTH",
+    "WORKER_DATABASE_RETRY_FIRST_S",
+    "WORKER_DATABASE_RETRY_MAX_S",
+    "WORKER_TASK_ATTEMPTS",
 ]
 
 
@@ -84,6 +88,20 @@ REVIEW_TEXT_LENGTH = 10_000
 SIMULATION_MAX_DAYS = 20_000
 #: The longest run the simulation core accepts (the database allows the same).
 SIMULATION_CORE_MAX_DAYS = 100_000
+#: Seconds a running simulation may go without progress (a worker taking or storing one
+#: of its chunks) before it is marked failed as stalled: its worker died. A chunk of the
+#: largest studies takes seconds and combining a run well under a minute, so this is
+#: far above any live worker's gap; a stalled run can be restarted, keeping its chunks.
+SIMULATION_STALLED_S = 600
+#: The background worker's first wait (seconds) after the database could not be
+#: reached; each failed attempt doubles it, up to the next limit.
+WORKER_DATABASE_RETRY_FIRST_S = 1
+#: The longest wait (seconds) between the worker's attempts to reach the database: once
+#: the database is back, the worker resumes within this time.
+WORKER_DATABASE_RETRY_MAX_S = 30
+#: The most times a task is taken from the queue when the database goes away while it
+#: runs; it is put back after each outage and recorded as failed after the last.
+WORKER_TASK_ATTEMPTS = 5
 
 # --- Pages and pending work ----------------------------------------------------------
 
@@ -173,5 +191,33 @@ LIMITS: tuple[Limit, ...] = (
         "days",
         "one simulation run",
         "simulation core and database",
+    ),
+    Limit(
+        "SIMULATION_STALLED_S",
+        SIMULATION_STALLED_S,
+        "seconds",
+        "a running simulation without progress (then marked failed, restartable)",
+        "simulation page and its status, a new request, the background worker",
+    ),
+    Limit(
+        "WORKER_DATABASE_RETRY_FIRST_S",
+        WORKER_DATABASE_RETRY_FIRST_S,
+        "seconds",
+        "the worker's first wait for a database it cannot reach (doubled each time)",
+        "background worker (manage.py worker)",
+    ),
+    Limit(
+        "WORKER_DATABASE_RETRY_MAX_S",
+        WORKER_DATABASE_RETRY_MAX_S,
+        "seconds",
+        "the worker's longest wait between attempts to reach the database",
+        "background worker (manage.py worker)",
+    ),
+    Limit(
+        "WORKER_TASK_ATTEMPTS",
+        WORKER_TASK_ATTEMPTS,
+        "attempts",
+        "times one task is taken again after the database went away while it ran",
+        "background worker (manage.py worker)",
     ),
 )
