@@ -181,24 +181,18 @@ def simulation_request(
             run.full_clean()
             run.save()
             # The chunks of a run of the same question that stalled are not simulated
-            # again (as a restart of it would keep them).
-            stalled = (
-                m.SimulationRun.objects.select_for_update()
-                .filter(
-                    study=study,
-                    study_version=version,
-                    plan_key=plan_key,
-                    days=days,
-                    seed=seed,
-                    stalled=True,
-                )
-                .order_by("-progress_at", "-pk")
-                .first()
+            # again (as a restart of it would keep them); those of a stalled run of an
+            # earlier version of the study can serve no run any more and go.
+            stalled = m.SimulationRun.objects.select_for_update().filter(
+                study=study, plan_key=plan_key, days=days, seed=seed, stalled=True
             )
-            if stalled is None:
-                _enqueue(run, range(run.chunks_total))
-            else:
-                _enqueue(run, _hand_over(stalled, run, version))
+            todo: list[int] | range = range(run.chunks_total)
+            for old in stalled.order_by("-progress_at", "-pk"):
+                if old.study_version == version and run.chunks_done == 0:
+                    todo = _hand_over(old, run, version)
+                else:
+                    _hand_over(old, None, version)
+            _enqueue(run, todo)
     except IntegrityError:
         # Another process stored the same question between our look and our write
         # (databases without row locks); its run answers this request too.
@@ -220,17 +214,18 @@ def _enqueue(run: m.SimulationRun, chunks: range | list[int]) -> None:
         simulate_run_chunk.enqueue(run_id=run.pk, chunk=index)
 
 
-def _hand_over(old: m.SimulationRun, new: m.SimulationRun, version: Any) -> list[int]:
+def _hand_over(old: m.SimulationRun, new: m.SimulationRun | None, version: Any) -> list[int]:
     """Move the chunks ``old`` stored to ``new`` (both locked, ``new`` just stored) when
     the study still has the version they were simulated for, and return the chunks
-    ``new`` still needs; ``old`` keeps no chunks and is no longer restartable.
+    ``new`` still needs; ``old`` keeps no chunks and is no longer restartable (with no
+    ``new``, its chunks are only dropped).
 
     A chunk depends only on the study, the seed and its number, so it is the chunk the
     new run would simulate. At least one is left to simulate, since the task that stores
     the last chunk is the one that combines the run.
     """
     kept: list[int] = []
-    if old.study_version == version and new.chunks_total == old.chunks_total:
+    if new is not None and old.study_version == version and new.chunks_total == old.chunks_total:
         kept = sorted(old.chunks.values_list("index", flat=True))[: new.chunks_total - 1]
         old.chunks.filter(index__in=kept).update(run=new)
         new.chunks_done = len(kept)
@@ -239,6 +234,8 @@ def _hand_over(old: m.SimulationRun, new: m.SimulationRun, version: Any) -> list
     if old.stalled:
         old.stalled = False
         old.save(update_fields=["stalled"])
+    if new is None:
+        return []
     kept_set = set(kept)
     return [index for index in range(new.chunks_total) if index not in kept_set]
 
@@ -343,10 +340,7 @@ def simulation_restart(*, run: m.SimulationRun, user: User) -> m.SimulationRun:
             status__in=m.SimulationStatus.reusable(),
         ).first()
         if existing is not None:
-            old.chunks.all().delete()
-            if old.stalled:
-                old.stalled = False
-                old.save(update_fields=["stalled"])
+            _hand_over(old, None, version)
             return existing
         new = m.SimulationRun(
             study_id=old.study_id,
