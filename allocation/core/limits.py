@@ -197,7 +197,7 @@ LIMITS: tuple[Limit, ...] = (
         SIMULATION_STALLED_S,
         "seconds",
         "a running simulation without progress (then marked failed, restartable)",
-        "simulation page and its status, a new request, the background worker",
+        "simulation pages and status poll, a new request, the worker (every 60 s)",
     ),
     Limit(
         "WORKER_DATABASE_RETRY_FIRST_S",

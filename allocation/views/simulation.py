@@ -302,6 +302,8 @@ def study_simulation_compare(request: HttpRequest, pk: int) -> HttpResponse:
     figure = request.GET.get("figure") if request.GET.get("figure") in FIGURES else "burden_s"
     plans = []
     series = []
+    if checked and study:
+        services.simulation_fail_stalled(study=page.row)
     for plan in study.plans if study else ():
         run = selectors.simulation_run_for(page.row, plan.id, *checked) if checked else None
         done = run is not None and run.status == m.SimulationStatus.DONE and run.result

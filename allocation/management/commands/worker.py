@@ -42,11 +42,12 @@ def fail_stalled_runs() -> None:
 
 class Command(db_worker.Command):
     help = (
-        "Run the background worker for simulation runs (django-tasks-db's db_worker, "
-        "which keeps running when the database goes away: it tries again after "
+        "Run the background worker for simulation runs: django-tasks-db's worker, made to "
+        "keep running when the database goes away (it tries again after "
         f"{WORKER_DATABASE_RETRY_FIRST_S} s, doubling up to {WORKER_DATABASE_RETRY_MAX_S} "
-        "s, and puts a task the database went away under back in the queue); it also "
-        f"fails runs that made no progress for {SIMULATION_STALLED_S} s."
+        "s, and puts a task the database went away under back in the queue). It also "
+        f"fails runs that made no progress for {SIMULATION_STALLED_S} s. Run this one "
+        "rather than db_worker."
     )
 
     def handle(
