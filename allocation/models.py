@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING
 from django.conf import settings
 from django.db import models
 from django.db.models import F, Q
+from django.utils import timezone
 
 from allocation.core import vocabulary
 from allocation.core.canonical import BATON_1
@@ -452,6 +453,11 @@ class SimulationRun(models.Model):
     created_at = models.DateTimeField(auto_now_add=True)
     finished_at = models.DateTimeField(null=True, blank=True)
     cancel_requested = models.BooleanField(default=False)
+    # When the run last moved: asked for, a chunk taken by a worker, or a chunk stored. A
+    # running run that has not moved for ``limits.SIMULATION_STALLED_S`` has lost its
+    # worker and is failed as ``stalled``, keeping its chunks for a restart.
+    progress_at = models.DateTimeField(default=timezone.now)
+    stalled = models.BooleanField(default=False)
 
     class Meta:
         ordering = ["-created_at", "-pk"]
@@ -495,6 +501,11 @@ class SimulationRun(models.Model):
     @property
     def finished(self) -> bool:
         return self.status not in SimulationStatus.active()
+
+    @property
+    def restartable(self) -> bool:
+        """Still going (its worker may have died), or failed as stalled."""
+        return not self.finished or self.stalled
 
 
 class SimulationChunk(models.Model):

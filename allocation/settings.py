@@ -84,7 +84,7 @@ MIDDLEWARE = [
 
 # Background work (simulation runs) goes through Django's tasks API; the database backend
 # keeps the queue in the database, so workers on any machine sharing it can take tasks
-# (`manage.py db_worker`; `manage.py start` runs one beside the dev server).
+# (`manage.py worker`; `manage.py start` runs one beside the dev server).
 TASKS = {"default": {"BACKEND": "django_tasks_db.DatabaseBackend", "QUEUES": ["default"]}}
 
 ROOT_URLCONF = "allocation.urls"
@@ -129,7 +129,15 @@ TEMPLATES = [
 ]
 
 if os.environ.get("DATABASE_URL"):
-    DATABASES = {"default": dj_database_url.parse(os.environ["DATABASE_URL"], conn_max_age=60)}
+    # Connections are kept for 60 s between requests (and the worker's polls); each is
+    # checked (a trivial query) before its first use in a request, so a connection the
+    # database dropped (a restart) is replaced instead of failing the request with the
+    # 503 page, which stays for a database that cannot be reached at all.
+    DATABASES = {
+        "default": dj_database_url.parse(
+            os.environ["DATABASE_URL"], conn_max_age=60, conn_health_checks=True
+        )
+    }
 else:
     DATABASES = {
         "default": {

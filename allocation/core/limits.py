@@ -33,6 +33,7 @@ __all__ = [
     "SIMULATION_MAX_BYTES",
     "SIMULATION_MAX_DAYS",
     "SIMULATION_MIN_BIN_S",
+    "SIMULATION_STALLED_S",
     "SPREADSHEET_MAX_BYTES",
     "SPREADSHEET_MAX_COLUMNS",
     "SPREADSHEET_MAX_ROWS",
@@ -45,6 +46,9 @@ __all__ = [
     "STUDY_MAX_PLANS",
     "STUDY_MAX_TASKS",
     "WORD_LENGTH",
+    "WORKER_DATABASE_RETRY_FIRST_S",
+    "WORKER_DATABASE_RETRY_MAX_S",
+    "WORKER_TASK_ATTEMPTS",
 ]
 
 
@@ -145,6 +149,20 @@ SIMULATION_MAX_BIN_S = 86_400
 #: (:func:`allocation.core.simulation.simulation_memory_estimate`). A tool assumption:
 #: a gibibyte is what one worker of a team server can give one run.
 SIMULATION_MAX_BYTES = 1024**3
+#: Seconds a running simulation may go without progress (a worker taking or storing one
+#: of its chunks) before it is marked failed as stalled: its worker died. A chunk of the
+#: largest studies takes seconds and combining a run well under a minute, so this is
+#: far above any live worker's gap; a stalled run can be restarted, keeping its chunks.
+SIMULATION_STALLED_S = 600
+#: The background worker's first wait (seconds) after the database could not be
+#: reached; each failed attempt doubles it, up to the next limit.
+WORKER_DATABASE_RETRY_FIRST_S = 1
+#: The longest wait (seconds) between the worker's attempts to reach the database: once
+#: the database is back, the worker resumes within this time.
+WORKER_DATABASE_RETRY_MAX_S = 30
+#: The most times a task is taken from the queue when the database goes away while it
+#: runs; it is put back after each outage and recorded as failed after the last.
+WORKER_TASK_ATTEMPTS = 5
 
 # --- Pages and pending work ----------------------------------------------------------
 
@@ -365,5 +383,33 @@ LIMITS: tuple[Limit, ...] = (
         "bytes",
         "spreadsheets one user has waiting (past it the oldest are dropped)",
         "spreadsheet upload, before the file is kept",
+    ),
+    Limit(
+        "SIMULATION_STALLED_S",
+        SIMULATION_STALLED_S,
+        "seconds",
+        "a running simulation without progress (then marked failed, restartable)",
+        "simulation pages and status poll, a new request, the worker (every 60 s)",
+    ),
+    Limit(
+        "WORKER_DATABASE_RETRY_FIRST_S",
+        WORKER_DATABASE_RETRY_FIRST_S,
+        "seconds",
+        "the worker's first wait for a database it cannot reach (doubled each time)",
+        "background worker (manage.py worker)",
+    ),
+    Limit(
+        "WORKER_DATABASE_RETRY_MAX_S",
+        WORKER_DATABASE_RETRY_MAX_S,
+        "seconds",
+        "the worker's longest wait between attempts to reach the database",
+        "background worker (manage.py worker)",
+    ),
+    Limit(
+        "WORKER_TASK_ATTEMPTS",
+        WORKER_TASK_ATTEMPTS,
+        "attempts",
+        "times one task is taken again after the database went away while it ran",
+        "background worker (manage.py worker)",
     ),
 )

@@ -22,20 +22,29 @@ calls :func:`simulation_chunk_run`, which
    count complete combines all chunks into the run's result
    (:func:`simulation_finish`). The lock makes that exactly one task, however many
    workers share the database.
+
+A database that goes away while a chunk is simulated or stored does not fail the run:
+the error goes to the worker (``manage.py worker``), which waits for the database and
+puts the chunk back in the queue. A run whose worker died stops moving; once it has not
+moved for ``limits.SIMULATION_STALLED_S`` it is failed as *stalled*
+(:func:`simulation_fail_stalled`, when its page or status is read, when the same
+question is asked again, and by the worker) and keeps its chunks for a restart.
 """
 
 from __future__ import annotations
 
+import datetime as dt
 from typing import Any
 
 from django.contrib.auth.models import User
 from django.core.exceptions import PermissionDenied
-from django.db import IntegrityError, transaction
+from django.db import IntegrityError, InterfaceError, OperationalError, transaction
 from django.utils import timezone
 
 from allocation import models as m
 from allocation import selectors
 from allocation.core import Study, limits
+from allocation.core.describe import seconds_text
 from allocation.core.simulation import (
     CHUNK_DAYS,
     SimulationChunk,
@@ -58,6 +67,7 @@ __all__ = [
     "simulation_chunk_run",
     "simulation_chunk_store",
     "simulation_fail",
+    "simulation_fail_stalled",
     "simulation_finish",
     "simulation_may_restart",
     "simulation_request",
@@ -150,6 +160,8 @@ def simulation_request(
     if not m.Membership.objects.filter(study=study, user=user).exists():
         raise PermissionDenied("Only members of a study can simulate it.")
     _check_size(_check_plan(study, plan_key), plan_key, days)
+    # A run of this question whose worker died is not joined: it fails as stalled here.
+    simulation_fail_stalled(study=study)
     try:
         with transaction.atomic():
             # The study row lock makes concurrent identical requests take turns, so the
@@ -180,7 +192,19 @@ def simulation_request(
             )
             run.full_clean()
             run.save()
-            _enqueue_chunks(run)
+            # The chunks of a run of the same question that stalled are not simulated
+            # again (as a restart of it would keep them); those of a stalled run of an
+            # earlier version of the study can serve no run any more and go.
+            stalled = m.SimulationRun.objects.select_for_update().filter(
+                study=study, plan_key=plan_key, days=days, seed=seed, stalled=True
+            )
+            todo: list[int] | range = range(run.chunks_total)
+            for old in stalled.order_by("-progress_at", "-pk"):
+                if old.study_version == version and run.chunks_done == 0:
+                    todo = _hand_over(old, run, version)
+                else:
+                    _hand_over(old, None, version)
+            _enqueue(run, todo)
     except IntegrityError:
         # Another process stored the same question between our look and our write
         # (databases without row locks); its run answers this request too.
@@ -202,8 +226,30 @@ def _enqueue(run: m.SimulationRun, chunks: range | list[int]) -> None:
         simulate_run_chunk.enqueue(run_id=run.pk, chunk=index)
 
 
-def _enqueue_chunks(run: m.SimulationRun) -> None:
-    _enqueue(run, range(run.chunks_total))
+def _hand_over(old: m.SimulationRun, new: m.SimulationRun | None, version: Any) -> list[int]:
+    """Move the chunks ``old`` stored to ``new`` (both locked, ``new`` just stored) when
+    the study still has the version they were simulated for, and return the chunks
+    ``new`` still needs; ``old`` keeps no chunks and is no longer restartable (with no
+    ``new``, its chunks are only dropped).
+
+    A chunk depends only on the study, the seed and its number, so it is the chunk the
+    new run would simulate. At least one is left to simulate, since the task that stores
+    the last chunk is the one that combines the run.
+    """
+    kept: list[int] = []
+    if new is not None and old.study_version == version and new.chunks_total == old.chunks_total:
+        kept = sorted(old.chunks.values_list("index", flat=True))[: new.chunks_total - 1]
+        old.chunks.filter(index__in=kept).update(run=new)
+        new.chunks_done = len(kept)
+        new.save(update_fields=["chunks_done"])
+    old.chunks.all().delete()
+    if old.stalled:
+        old.stalled = False
+        old.save(update_fields=["stalled"])
+    if new is None:
+        return []
+    kept_set = set(kept)
+    return [index for index in range(new.chunks_total) if index not in kept_set]
 
 
 def simulation_cancel(*, run: m.SimulationRun, user: User | None = None) -> m.SimulationRun:
@@ -247,18 +293,20 @@ def simulation_may_restart(*, run: m.SimulationRun, user: User) -> bool:
 
 
 def simulation_restart(*, run: m.SimulationRun, user: User) -> m.SimulationRun:
-    """Restart a queued or running run whose worker stopped (killed, or its machine gone):
-    the old run becomes *failed* ("restarted") and a new run asks the same question.
+    """Restart a queued or running run whose worker stopped (killed, or its machine gone),
+    or one that failed as stalled: the old run becomes (or stays) *failed* and a new run
+    asks the same question.
 
-    A run stays *running* forever when the worker simulating it dies, and a request for
-    the same question joins it; a restart is the way out. The chunks the old run already
+    A run stops moving when the worker simulating it dies, and a request for the same
+    question joins it until it fails as stalled (:func:`simulation_fail_stalled`); a
+    restart is the way out, at once or after. The chunks the old run already
     stored are moved to the new run when the study still has the version they were
     simulated for (a chunk depends only on the study, the seed and its number, so it is
     the chunk the new run would simulate); only the missing chunks are enqueued, and at
     least one, since the task that stores the last chunk is the one that combines the
     run. A worker of the old run that is still alive finds its run failed and drops its
     work. Returns the new run (or the run that already answers the question for the
-    study's current version); a run that has already ended is returned unchanged.
+    study's current version); a run that has otherwise ended is returned unchanged.
 
     Raises ``PermissionDenied`` unless :func:`simulation_may_restart`, and
     :class:`SimulationRefused` when the study now has errors or lost the plan (the old
@@ -268,7 +316,7 @@ def simulation_restart(*, run: m.SimulationRun, user: User) -> m.SimulationRun:
         raise PermissionDenied(
             "Only the member who asked for a run, or an editor or owner, can restart it."
         )
-    if run.finished:
+    if not run.restartable:
         return run
     _check_plan(run.study, run.plan_key)
     with transaction.atomic():
@@ -280,13 +328,21 @@ def simulation_restart(*, run: m.SimulationRun, user: User) -> m.SimulationRun:
             .get(pk=run.study_id)
         )
         old = m.SimulationRun.objects.select_for_update().get(pk=run.pk)
-        if old.status not in m.SimulationStatus.active():
+        if not old.restartable:
             return old
-        name = user.get_username()
-        old.status = m.SimulationStatus.FAILED
-        old.error = f"restarted by {name} after {old.chunks_done} of {old.chunks_total} parts"
-        old.finished_at = timezone.now()
-        old.save(update_fields=["status", "error", "finished_at"])
+        restarted = (
+            f"restarted by {user.get_username()} after {old.chunks_done} of "
+            f"{old.chunks_total} parts"
+        )
+        if old.stalled:
+            # Failed already: what stopped it stays said.
+            old.error = f"{old.error}; {restarted}"
+            old.save(update_fields=["error"])
+        else:
+            old.status = m.SimulationStatus.FAILED
+            old.error = restarted
+            old.finished_at = timezone.now()
+            old.save(update_fields=["status", "error", "finished_at"])
         existing = m.SimulationRun.objects.filter(
             study_id=old.study_id,
             study_version=version,
@@ -296,7 +352,7 @@ def simulation_restart(*, run: m.SimulationRun, user: User) -> m.SimulationRun:
             status__in=m.SimulationStatus.reusable(),
         ).first()
         if existing is not None:
-            old.chunks.all().delete()
+            _hand_over(old, None, version)
             return existing
         new = m.SimulationRun(
             study_id=old.study_id,
@@ -309,17 +365,7 @@ def simulation_restart(*, run: m.SimulationRun, user: User) -> m.SimulationRun:
         )
         new.full_clean()
         new.save()
-        kept: list[int] = []
-        if old.study_version == version and new.chunks_total == old.chunks_total:
-            kept = sorted(old.chunks.values_list("index", flat=True))
-            # Leave one chunk to simulate again: its task combines the run.
-            kept = kept[: new.chunks_total - 1]
-            old.chunks.filter(index__in=kept).update(run=new)
-            new.chunks_done = len(kept)
-            new.save(update_fields=["chunks_done"])
-        old.chunks.all().delete()
-        kept_set = set(kept)
-        _enqueue(new, [index for index in range(new.chunks_total) if index not in kept_set])
+        _enqueue(new, _hand_over(old, new, version))
     new.refresh_from_db()
     return new
 
@@ -371,7 +417,8 @@ def _changed(run: m.SimulationRun) -> bool:
 
 
 def simulation_start(*, run_id: int) -> m.SimulationRun:
-    """A task takes run ``run_id``: a queued run becomes *running*.
+    """A task takes run ``run_id``: a queued run becomes *running*, and the run has moved
+    (its ``progress_at``: a worker is alive).
 
     Raises
     ------
@@ -383,9 +430,10 @@ def simulation_start(*, run_id: int) -> m.SimulationRun:
     with transaction.atomic():
         run = _run_locked(run_id)
         changed = run is not None and _changed(run)
-        if run is not None and not changed and run.status == m.SimulationStatus.QUEUED:
+        if run is not None and not changed:
             run.status = m.SimulationStatus.RUNNING
-            run.save(update_fields=["status"])
+            run.progress_at = timezone.now()
+            run.save(update_fields=["status", "progress_at"])
     if run is None:
         raise SimulationRunOver
     if changed:
@@ -395,8 +443,13 @@ def simulation_start(*, run_id: int) -> m.SimulationRun:
 
 def simulation_chunk_store(*, run_id: int, chunk: int, data: dict[str, Any]) -> bool:
     """Store chunk ``chunk`` of run ``run_id`` (its JSON form ``data``) and count it;
-    return whether it was the one that completed the run. A chunk stored twice (a
-    retried task) counts once.
+    return whether the run now has every chunk, so that this task combines it. A chunk
+    stored twice (a retried task) counts once.
+
+    Every chunk counted normally means the count was just completed; it also holds for a
+    chunk task taken again after the database went away while the run was being
+    combined (every chunk stored, no result yet), which then combines it. Only a live
+    run is combined, once: the result is stored under the run's lock.
 
     Raises :class:`SimulationRunOver` and :class:`SimulationStudyChanged` as
     :func:`simulation_start` does; the chunk is not stored then.
@@ -406,14 +459,14 @@ def simulation_chunk_store(*, run_id: int, chunk: int, data: dict[str, Any]) -> 
         run = _run_locked(run_id)
         changed = run is not None and _changed(run)
         if run is not None and not changed:
-            before = run.chunks_done
             # update_or_create: a chunk that runs twice (a retried task) counts once.
             m.SimulationChunk.objects.update_or_create(
                 run=run, index=chunk, defaults={"result": data}
             )
             run.chunks_done = run.chunks.count()
-            run.save(update_fields=["chunks_done"])
-            completed = before < run.chunks_total == run.chunks_done
+            run.progress_at = timezone.now()
+            run.save(update_fields=["chunks_done", "progress_at"])
+            completed = run.chunks_done == run.chunks_total
     if run is None:
         raise SimulationRunOver
     if changed:
@@ -467,6 +520,46 @@ def simulation_finish(*, run_id: int, study: Study) -> None:
         raise SimulationStudyChanged
 
 
+def simulation_fail_stalled(
+    *, study: m.Study | None = None, now: dt.datetime | None = None
+) -> list[int]:
+    """Fail every running run (of ``study``, or of every study) that has not moved for
+    ``limits.SIMULATION_STALLED_S``: its worker died. Returns their ids.
+
+    Such a run becomes *failed* and ``stalled``, with an error naming how long it stood
+    still and the limit; it keeps its chunks, so that a restart
+    (:func:`simulation_restart`) or a new request for the same question simulates only
+    the rest. Each run is checked again under its lock, so a chunk stored meanwhile
+    keeps it going. A queued run is never failed here: it waits for a worker.
+    """
+    now = now or timezone.now()
+    limit = limits.SIMULATION_STALLED_S
+    cutoff = now - dt.timedelta(seconds=limit)
+    still = m.SimulationRun.objects.filter(
+        status=m.SimulationStatus.RUNNING, progress_at__lt=cutoff
+    )
+    if study is not None:
+        still = still.filter(study=study)
+    failed = []
+    for run_id in list(still.values_list("pk", flat=True)):
+        with transaction.atomic():
+            run = still.select_for_update().filter(pk=run_id).first()
+            if run is None:
+                continue
+            idle = (now - run.progress_at).total_seconds()
+            run.status = m.SimulationStatus.FAILED
+            run.stalled = True
+            run.finished_at = now
+            run.error = (
+                f"nothing was simulated for {seconds_text(idle)} (the limit is "
+                f"{seconds_text(limit)}): its worker stopped; restart the run to simulate "
+                f"the rest ({run.chunks_done} of {run.chunks_total} parts are kept)"
+            )
+            run.save(update_fields=["status", "stalled", "finished_at", "error"])
+        failed.append(run_id)
+    return failed
+
+
 def simulation_fail(*, run_id: int, message: str) -> None:
     """Run ``run_id`` fails with ``message`` (a run that has ended is left as it is)."""
     with transaction.atomic():
@@ -481,8 +574,10 @@ def simulation_chunk_run(*, run_id: int, chunk: int) -> str:
 
     Returns what became of it: ``"stored"``, ``"done"`` (it combined the run),
     ``"dropped"`` (the run had finished or was cancelled) or ``"failed"`` (the study
-    changed). Any other error fails the run, saying what was being done, and is raised
-    again.
+    changed). A database error (``OperationalError``, ``InterfaceError``: the database
+    went away) is raised as it is, leaving the run going, for the worker to take the
+    chunk again once the database is back; any other error fails the run, saying what
+    was being done, and is raised again.
     """
     doing = f"simulating days {chunk * CHUNK_DAYS:,} onwards"
     try:
@@ -508,6 +603,9 @@ def simulation_chunk_run(*, run_id: int, chunk: int) -> str:
     except SimulationStudyChanged:
         simulation_fail(run_id=run_id, message=STUDY_CHANGED)
         return "failed"
+    except (OperationalError, InterfaceError):
+        # Not the run's fault, and the run could not be written now anyway.
+        raise
     except Exception as error:
         simulation_fail(run_id=run_id, message=f"{doing} failed: {error}")
         raise

@@ -156,6 +156,8 @@ def _region_context(page: StudyPage, plan: Plan, request: HttpRequest) -> dict[s
     checked = _checked(days, seed)
     run = None
     if checked is not None and page.study is not None:
+        # Reading a run's status is when a run whose worker died is seen to have stalled.
+        services.simulation_fail_stalled(study=page.row)
         run = selectors.simulation_run_for(page.row, plan.id, *checked)
     which = "worst" if request.GET.get("day") == "worst" else "typical"
     context: dict[str, Any] = {
@@ -179,7 +181,7 @@ def _region_context(page: StudyPage, plan: Plan, request: HttpRequest) -> dict[s
         + urlencode({"days": days, "seed": seed}),
         "channels": CHANNELS,
         "can_restart": run is not None
-        and not run.finished
+        and run.restartable
         and services.simulation_may_restart(run=run, user=request.user),
     }
     if run is not None and run.status == m.SimulationStatus.DONE and run.result:
@@ -265,8 +267,9 @@ def plan_simulation_restart(request: HttpRequest, pk: int, plan: str) -> HttpRes
 
 
 def _live_run(request: HttpRequest, pk: int, plan: str, verb: str):
-    """The page, the days and seed asked about, and their run if it is still going
-    (``None``, with a message saying why, when there is none to ``verb``)."""
+    """The page, the days and seed asked about, and their run if it is still going (or,
+    to restart, stalled); ``None``, with a message saying why, when there is none to
+    ``verb``."""
     page = study_page(request, pk)
     page.plan_or_404(plan)
     days, seed = _question(request)
@@ -274,7 +277,7 @@ def _live_run(request: HttpRequest, pk: int, plan: str, verb: str):
     run = selectors.simulation_run_for(page.row, plan, *checked) if checked else None
     if run is None:
         messages.error(request, f"There is no such run to {verb}.")
-    elif run.finished:
+    elif run.finished and not (verb == "restart" and run.stalled):
         messages.info(request, f"The run had already ended ({run.get_status_display().lower()}).")
         run = None
     return page, days, seed, run
@@ -299,6 +302,8 @@ def study_simulation_compare(request: HttpRequest, pk: int) -> HttpResponse:
     figure = request.GET.get("figure") if request.GET.get("figure") in FIGURES else "burden_s"
     plans = []
     series = []
+    if checked and study:
+        services.simulation_fail_stalled(study=page.row)
     for plan in study.plans if study else ():
         run = selectors.simulation_run_for(page.row, plan.id, *checked) if checked else None
         done = run is not None and run.status == m.SimulationStatus.DONE and run.result

@@ -68,14 +68,15 @@ class Command(BaseCommand):
                 self._worker_stop(worker)
 
     def _worker_start(self) -> subprocess.Popen | None:
-        """The database backend's worker (``manage.py db_worker``) in its own process."""
+        """Baton's worker (``manage.py worker``, which waits out a database restart) in its
+        own process."""
         if not isinstance(task_backends["default"], DatabaseBackend):
             self.stdout.write("The task backend is not the database one: no worker started.")
             return None
         env = {**os.environ}
         env.setdefault("DJANGO_SETTINGS_MODULE", "allocation.settings")
         # No autoreload (the server runs without one too), so stopping it stops it all.
-        command = [sys.executable, "-m", "django", "db_worker", "--no-reload"]
+        command = [sys.executable, "-m", "django", "worker", "--no-reload"]
         worker = subprocess.Popen(command, env=env, cwd=settings.BASE_DIR)
         self.stdout.write(f"Started a background worker (process {worker.pid}).")
         return worker
