@@ -22,9 +22,9 @@ from .limits import (
     MAX_PER_DAY,
     NOTE_LENGTH,
     PHRASE_LENGTH,
-    STUDY_MAX_ITEMS,
     SIMULATION_MAX_BIN_S,
     SIMULATION_MIN_BIN_S,
+    STUDY_MAX_ITEMS,
     WORD_LENGTH,
 )
 from .model import (
