@@ -20,6 +20,8 @@ __all__ = [
     "Limit",
     "MAX_PER_DAY",
     "NOTE_LENGTH",
+    "PAGE_PROBLEMS",
+    "PAGE_ROWS",
     "PHRASE_LENGTH",
     "SIMULATION_CORE_MAX_DAYS",
     "SIMULATION_MAX_DAYS",
@@ -110,6 +112,13 @@ SIMULATION_CORE_MAX_DAYS = 100_000
 
 # --- Pages and pending work ----------------------------------------------------------
 
+#: The most rows one page lists (tasks, assignments, links, events, agents, findings,
+#: handovers, review items, differences): an answer's size follows the page, not the
+#: study; the other rows are a page link away.
+PAGE_ROWS = 100
+#: The most problems the study's checks list on a page (the rest are counted; the
+#: command ``python -m allocation.core.validate`` lists every one).
+PAGE_PROBLEMS = 100
 
 #: The most items of each list of a study file, by its key.
 STUDY_MAX_ITEMS = {
@@ -226,6 +235,21 @@ LIMITS: tuple[Limit, ...] = (
         "days",
         "one simulation run",
         "simulation core and database",
+    ),
+    Limit(
+        "PAGE_ROWS",
+        PAGE_ROWS,
+        "rows",
+        "one page of a list (plan editor, inventory, overview, dashboard, review, "
+        "compare, graph, differences)",
+        "every paged view, from the page asked for (any page number is shown as a page)",
+    ),
+    Limit(
+        "PAGE_PROBLEMS",
+        PAGE_PROBLEMS,
+        "problems",
+        "the study's problems listed on one page",
+        "every study page",
     ),
     Limit(
         "STUDY_MAX_TASKS",
