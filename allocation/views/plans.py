@@ -19,7 +19,7 @@ from allocation import services
 from allocation.core import Problem, Study, StudyInvalid
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.describe import task_outline
-from allocation.core.limits import PAGE_ROWS
+from allocation.core.limits import PAGE_ROW_CHOICES, PAGE_ROWS
 from allocation.core.model import Task
 from allocation.core.registry import ASSIGNMENT_STATUS_WORDS, figure_text
 from allocation.core.scales import level_text
@@ -57,6 +57,9 @@ def _choices(study: Study) -> dict[str, Any]:
         "statuses": [(key, ASSIGNMENT_STATUS_WORDS[key].label) for key in ASSIGNMENT_STATUSES],
         "stages": STAGES,
         "per_stage_allowed": study.scale == "sv10",
+        # Past this many agents a row's agent fields are typed (suggested from lists sent
+        # once a page), so that a row's size does not grow with the study's agents.
+        "typed": len(study.agents) > PAGE_ROW_CHOICES,
     }
 
 
