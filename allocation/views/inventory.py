@@ -149,7 +149,7 @@ def _sections(request: HttpRequest, page: StudyPage) -> dict[str, Any]:
     links = page_of(
         request, range(len(study.links)), param="links_page", target="section-links", path=url
     )
-    first = links.first_row - 1
+    first = (links.number - 1) * links.size
     # The rows of the page's links only, in the order the study file lists them.
     link_rows = list(
         page.row.links.order_by("position", "pk").values_list("pk", flat=True)[

@@ -206,3 +206,16 @@ def test_many_agents_are_typed_in_each_row_and_listed_once(client, owner):
     )
     assigned = selectors.study_document(study)["plans"][0]["assignments"][task]
     assert assigned == {"human": "extra-3"}
+
+
+def test_the_lists_of_an_empty_study_have_one_empty_page(client, owner):
+    study = services.study_new(owner=owner, key="empty", title="Empty", scale="sv10")
+    client.force_login(owner)
+    for url in (
+        reverse("study-inventory", args=[study.pk]),
+        reverse("study-detail", args=[study.pk]) + "?tasks_page=2&links_page=abc",
+        reverse("study-inventory", args=[study.pk]) + "?links_page=3",
+    ):
+        response = client.get(url)
+        assert response.status_code == 200, url
+        assert 'class="pager' not in response.content.decode()
