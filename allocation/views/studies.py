@@ -23,6 +23,7 @@ from allocation.core.describe import (
     severity_text,
     task_outline,
 )
+from allocation.core.limits import PAGE_PROBLEMS
 from allocation.core.reading import parse_json_text
 from allocation.views.common import study_page
 from allocation.views.paging import page_of
@@ -52,7 +53,13 @@ def study_upload(request: HttpRequest) -> HttpResponse:
         except StudyInvalid as error:
             problems = error.problems
     if problems:
-        context = {"problems": problems, "filename": getattr(upload, "name", "")}
+        context = {
+            "problems": problems,
+            "filename": getattr(upload, "name", ""),
+            # A file may have thousands of problems: the first are listed.
+            "problems_shown": PAGE_PROBLEMS,
+            "problems_slice": f":{PAGE_PROBLEMS}",
+        }
         template = "studies/list.html#upload" if request.htmx else "studies/list.html"
         if not request.htmx:
             context["studies"] = selectors.studies_for_user(user=request.user)

@@ -187,3 +187,18 @@ def test_a_study_at_the_limits_is_accepted():
     assert len(document["tasks"]) == STUDY_MAX_TASKS
     result = load_study(document)
     assert result.errors == []
+
+
+def test_an_upload_with_thousands_of_problems_lists_the_first(client, owner):
+    # 3,000 tasks, each with an unknown key: 3,000 problems, of which PAGE_PROBLEMS shown.
+    from allocation.core.limits import PAGE_PROBLEMS
+
+    document = tasks_only(3000)
+    for task in document["tasks"]:
+        task["colour"] = "red"
+    upload = io.BytesIO(json.dumps(document).encode())
+    upload.name = "odd.json"
+    client.force_login(owner)
+    page = client.post(reverse("study-upload"), {"file": upload}).content.decode()
+    assert page.count("is not a known key here") == PAGE_PROBLEMS
+    assert f"The first {PAGE_PROBLEMS} of 3000 are listed" in page
