@@ -23,6 +23,9 @@ __all__ = [
     "MODE_STATES_MAX",
     "MODE_STEPS_MAX",
     "NOTE_LENGTH",
+    "PAGE_PROBLEMS",
+    "PAGE_ROWS",
+    "PAGE_ROW_CHOICES",
     "PENDING_IMPORTS_PER_USER",
     "PENDING_IMPORT_BYTES_PER_USER",
     "PENDING_IMPORT_LIFETIME_S",
@@ -44,6 +47,7 @@ __all__ = [
     "STUDY_MAX_ITEMS",
     "STUDY_MAX_LINKS",
     "STUDY_MAX_PLANS",
+    "STUDY_MAX_PLAN_TASKS",
     "STUDY_MAX_TASKS",
     "WORD_LENGTH",
     "WORKER_DATABASE_RETRY_FIRST_S",
@@ -102,11 +106,20 @@ WORD_LENGTH = 100
 
 # --- Study size and analyses ---------------------------------------------------------
 
-#: The most tasks (goals and leaves) in one study: four times the large study the bench
-#: measures; a flat study of twice as many analyses in about five seconds.
-STUDY_MAX_TASKS = 20_000
+#: The most tasks (goals and leaves) in one study, as many as a spreadsheet's rows. Every
+#: page of a study reads the whole study and analyses at least one plan: at 5,000 tasks,
+#: 15,000 links and four plans, reading it from the database and analysing one plan takes
+#: about 7 s on a cold server process and every page after that under a second; at
+#: 10,000 tasks twice as long (measured with ``manage.py bench`` figures and page timings
+#: in the README's Operations section).
+STUDY_MAX_TASKS = 5_000
 #: The most links in one study (three per task, as in the bench's studies).
-STUDY_MAX_LINKS = 60_000
+STUDY_MAX_LINKS = 15_000
+#: The most plan-task pairs: plans times tasks. Each plan's analysis, plan editor and
+#: review cover every task, and the study page and the comparison analyse every plan: four
+#: plans of 5,000 tasks (the study page in about 10 s on a cold process, then 0.1 s), or
+#: a hundred plans of 200 tasks.
+STUDY_MAX_PLAN_TASKS = 20_000
 #: The most agents, events and plans in one study.
 STUDY_MAX_AGENTS = 500
 STUDY_MAX_EVENTS = 5_000
@@ -176,6 +189,17 @@ PENDING_IMPORTS_PER_USER = 5
 #: files read); a new upload past it drops that user's oldest.
 PENDING_IMPORT_BYTES_PER_USER = 4 * SPREADSHEET_MAX_BYTES
 
+#: The most rows one page lists (tasks, assignments, links, events, agents, findings,
+#: handovers, review items, differences): an answer's size follows the page, not the
+#: study; the other rows are a page link away.
+PAGE_ROWS = 100
+#: The most choices a row of the plan editor offers in a list (its person, device and
+#: accountable agent): past this many agents, each row's agent is typed by its id and the
+#: agents are listed once a page as suggestions, so that a row's size stays bounded.
+PAGE_ROW_CHOICES = 20
+#: The most problems the study's checks list on a page (the rest are counted; the
+#: command ``python -m allocation.core.validate`` lists every one).
+PAGE_PROBLEMS = 100
 
 #: The most items of each list of a study file, by its key.
 STUDY_MAX_ITEMS = {
@@ -308,10 +332,39 @@ LIMITS: tuple[Limit, ...] = (
         "simulation core and database",
     ),
     Limit(
+        "PAGE_ROWS",
+        PAGE_ROWS,
+        "rows",
+        "one page of a list (plan editor, inventory, overview, dashboard, review, "
+        "compare, graph, differences)",
+        "every paged view, from the page asked for (any page number is shown as a page)",
+    ),
+    Limit(
+        "PAGE_ROW_CHOICES",
+        PAGE_ROW_CHOICES,
+        "agents",
+        "the agents a plan-editor row offers in its lists (more are typed by id)",
+        "plan editor",
+    ),
+    Limit(
+        "PAGE_PROBLEMS",
+        PAGE_PROBLEMS,
+        "problems",
+        "the study's problems listed on one page",
+        "every study page",
+    ),
+    Limit(
         "STUDY_MAX_TASKS",
         STUDY_MAX_TASKS,
         "tasks",
         "tasks of one study",
+        "study reader (every read, import and edit), before the items are read",
+    ),
+    Limit(
+        "STUDY_MAX_PLAN_TASKS",
+        STUDY_MAX_PLAN_TASKS,
+        "plan-task pairs",
+        "plans times tasks of one study",
         "study reader (every read, import and edit), before the items are read",
     ),
     Limit(

@@ -25,6 +25,7 @@ from .limits import (
     SIMULATION_MAX_BIN_S,
     SIMULATION_MIN_BIN_S,
     STUDY_MAX_ITEMS,
+    STUDY_MAX_PLAN_TASKS,
     WORD_LENGTH,
 )
 from .model import (
@@ -413,6 +414,19 @@ class StudyReader:
                     child_path("$", key),
                     f"holds {len(items):,} {key}; a study may hold at most {most:,} "
                     f"(limit STUDY_MAX_{key.upper()})",
+                )
+                too_large = True
+        tasks, plans = root.get("tasks"), root.get("plans")
+        if not too_large and isinstance(tasks, list) and isinstance(plans, list):
+            pairs = len(tasks) * len(plans)
+            if pairs > STUDY_MAX_PLAN_TASKS:
+                # Each plan is analysed, edited and reviewed over every task.
+                self.error(
+                    "$.plans",
+                    f"holds {len(plans):,} plans of a study of {len(tasks):,} tasks, "
+                    f"{pairs:,} plan-task pairs; a study may hold at most "
+                    f"{STUDY_MAX_PLAN_TASKS:,} (limit STUDY_MAX_PLAN_TASKS): fewer plans, "
+                    "or the study split in two",
                 )
                 too_large = True
         return too_large

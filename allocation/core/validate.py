@@ -9,18 +9,34 @@ import sys
 from pathlib import Path
 
 from .fileformat import load_study_text
+from .limits import STUDY_FILE_MAX_BYTES
 
 __all__ = ["main"]
 
 
 def main(argv: list[str] | None = None) -> int:
     paths = sys.argv[1:] if argv is None else argv
-    if not paths:
+    if not paths or paths[0] in ("-h", "--help"):
         print("usage: python -m allocation.core.validate FILE [FILE ...]", file=sys.stderr)
         return 2
     failed = False
     for name in paths:
-        result = load_study_text(Path(name).read_bytes())
+        path = Path(name)
+        if not path.is_file():
+            print(f"{name}: no such file", file=sys.stderr)
+            failed = True
+            continue
+        size = path.stat().st_size
+        if size > STUDY_FILE_MAX_BYTES:
+            # The same limit as an upload: the file is not read.
+            print(
+                f"{name}: {size:,} bytes, over the {STUDY_FILE_MAX_BYTES:,} a study file may "
+                "have (limit STUDY_FILE_MAX_BYTES)",
+                file=sys.stderr,
+            )
+            failed = True
+            continue
+        result = load_study_text(path.read_bytes())
         for problem in result.problems:
             print(f"{name}: {problem.level}: {problem}")
         failed = failed or not result.ok

@@ -10,6 +10,7 @@ from typing import Any
 from django import forms
 
 from allocation.core import Study
+from allocation.core.limits import PAGE_ROWS
 from allocation.core.vocabulary import (
     AGENT_KINDS,
     CHANNELS,
@@ -175,6 +176,14 @@ def _occurrence(data: dict[str, Any], item: dict[str, Any]) -> None:
         item["every_days"] = file_number(data.get("every_days"))
 
 
+def typed_when_long(field: forms.ChoiceField, help_text: str) -> None:
+    """A choice among more items than a page lists is typed (its id), not picked from a
+    list sent whole with every form; the choices still check what is typed."""
+    if len(field.choices) > PAGE_ROWS:
+        field.widget = forms.TextInput({"maxlength": 64})
+        field.help_text = help_text
+
+
 def _anchor_choices(channel: str) -> list[tuple[str, str]]:
     return [("", "—")] + [
         (f"{value:g}", f"{value:g} — {words}") for value, words in VACP_ANCHORS[channel]
@@ -251,6 +260,8 @@ class TaskForm(ItemForm):
             (task.id, f"{task.id} {task.title}") for task in study.tasks if task.id != task_id
         ]
         self.fields["event"].choices = [("", "—")] + [(e.id, e.name) for e in study.events]
+        typed_when_long(self.fields["parent"], "The goal's id; leave empty for the top level.")
+        typed_when_long(self.fields["event"], "The event's id, if an event starts the task.")
 
     @staticmethod
     def initial_for(item: dict[str, Any]) -> dict[str, Any]:
@@ -334,6 +345,8 @@ class LinkForm(ItemForm):
         leaves = [(task.id, f"{task.id} {task.title}") for task in study.leaves]
         self.fields["source"].choices = leaves
         self.fields["target"].choices = leaves
+        typed_when_long(self.fields["source"], "The id of the task the link leaves.")
+        typed_when_long(self.fields["target"], "The id of the task the link reaches.")
 
     @staticmethod
     def initial_for(item: dict[str, Any]) -> dict[str, Any]:

@@ -12,6 +12,7 @@ from typing import Any
 from django import forms
 
 from allocation.core import Study
+from allocation.core.limits import PAGE_ROWS
 from allocation.core.tlx import PAIRS, SUBSCALE_NAMES, SUBSCALE_QUESTIONS, SUBSCALES
 from allocation.forms.base import TextForm
 
@@ -50,6 +51,11 @@ class RatingForm(TextForm):
         self.fields["task"].choices = [
             (task.id, f"{task.id} — {task.title}") for task in study.leaves
         ]
+        if len(study.leaves) > PAGE_ROWS:
+            # A list of more tasks than a page shows is not sent: the task is typed by
+            # its id (each task's "rate" link fills it in); the choices still check it.
+            self.fields["task"].widget = forms.TextInput({"maxlength": 64})
+            self.fields["task"].help_text = "The task's id, e.g. T12."
         for key in SUBSCALES:
             question, low, high = SUBSCALE_QUESTIONS[key]
             self.fields[key] = forms.FloatField(

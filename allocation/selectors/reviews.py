@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import re
 import zlib
-from collections import defaultdict
+from collections import Counter, defaultdict
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -186,7 +186,11 @@ def _levels_words(study: Study, assignment) -> str:
 
 
 def _assignment_item(
-    study: Study, plan_id: str, task_id: str, analysis: PlanAnalysis | None
+    study: Study,
+    plan_id: str,
+    task_id: str,
+    analysis: PlanAnalysis | None,
+    crossings: Counter[str] | None = None,
 ) -> ReviewItem:
     task = study.task(task_id)
     assignment = study.plans_by_id[plan_id].assignments.get(task_id)
@@ -210,9 +214,7 @@ def _assignment_item(
             ("awareness", None if figures.awareness is None else figures.awareness.index),
         ):
             facts.append(_figure_fact(key, value))
-        crossing = sum(
-            1 for h in analysis.handovers if task_id in (h.site.from_task, h.site.to_task)
-        )
+        crossing = (crossings or _crossings(analysis))[task_id]
         facts.append(_figure_fact("handovers", crossing))
     reasons = [f"status {words.lower()}"] if words and status in OPEN_STATUSES else []
     return ReviewItem(
@@ -224,6 +226,16 @@ def _assignment_item(
         facts=facts,
         message=(assignment.rationale or "") if assignment is not None else "",
     )
+
+
+def _crossings(analysis: PlanAnalysis) -> Counter[str]:
+    """How many handovers each task takes part in, counted once for the whole plan."""
+    counts: Counter[str] = Counter()
+    for handover in analysis.handovers:
+        counts[handover.site.from_task] += 1
+        if handover.site.to_task != handover.site.from_task:
+            counts[handover.site.to_task] += 1
+    return counts
 
 
 def _figure_fact(key: str, value: float | None) -> tuple[str, str]:
@@ -362,8 +374,9 @@ def review_items(
         decided[(decision.target_kind, decision.plan_key, decision.target_key)].append(decision)
 
     items: list[ReviewItem] = []
+    crossings = None if analysis is None else _crossings(analysis)
     for task in study.leaves:
-        items.append(_assignment_item(study, plan_id, task.id, analysis))
+        items.append(_assignment_item(study, plan_id, task.id, analysis, crossings))
     if analysis is not None:
         seen_keys = set()
         for handover in analysis.handovers:

@@ -11,6 +11,7 @@ from allocation import models as m
 from allocation import selectors
 from allocation.core import LoadResult, Study
 from allocation.core.analysis import PlanAnalysis
+from allocation.core.limits import PAGE_PROBLEMS, PAGE_ROWS
 
 #: The study's screens, in tab order: label, URL name, whether the URL takes a plan.
 STUDY_TABS = (
@@ -69,6 +70,11 @@ class StudyPage:
             "study_row": self.row,
             "study": self.study,
             "problems": self.result.problems,
+            # Only the first problems are listed: a study may have thousands.
+            "problems_shown": PAGE_PROBLEMS,
+            # A choice among more items than a page lists is typed, not picked.
+            "page_rows": PAGE_ROWS,
+            "problems_slice": f":{PAGE_PROBLEMS}",
             "tabs": study_tabs(self, active),
             "can_edit": self.can_edit,
             **extra,

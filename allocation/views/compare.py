@@ -30,9 +30,11 @@ from allocation.core.analysis.compare import (
     weight_problems,
 )
 from allocation.core.assumptions import OBJECTIVE_WEIGHTS
+from allocation.core.limits import PAGE_ROWS
 from allocation.core.registry import figure, figure_number, figure_text
 from allocation.figures.compare import burden_moved_figure, objective_figure
 from allocation.views.common import StudyPage, study_page
+from allocation.views.paging import RowPage, page_of
 
 #: Tasks shown per plan in the burden-moved table and chart.
 TOP_TASKS = 30
@@ -138,14 +140,34 @@ def _handover_rows(handovers) -> list[dict[str, Any]]:
     ]
 
 
-def _delta_context(delta: PlanDelta, comparison: Comparison) -> dict[str, Any]:
+def _delta_context(
+    request: HttpRequest | None, delta: PlanDelta, comparison: Comparison
+) -> dict[str, Any]:
+    """The plan in focus against the baseline; the handovers and findings that appear or
+    go are listed a page at a time, each list with its own page parameter."""
     shown = delta.shifts[:TOP_TASKS]
+    lists = {
+        name: page_of(request, rows, param=f"{name}_page", target=f"compare-{name}")
+        if request is not None
+        else None
+        for name, rows in (
+            ("handovers_added", delta.handovers_added),
+            ("handovers_removed", delta.handovers_removed),
+            ("findings_added", delta.findings_added),
+            ("findings_removed", delta.findings_removed),
+        )
+    }
     return {
         "delta": delta,
         "name": comparison.names[delta.plan],
         "chart_id": "compare-burden-chart",
-        "handovers_added": _handover_rows(delta.handovers_added),
-        "handovers_removed": _handover_rows(delta.handovers_removed),
+        "lists": lists,
+        "handovers_added": _handover_rows(_rows(lists["handovers_added"], delta.handovers_added)),
+        "handovers_removed": _handover_rows(
+            _rows(lists["handovers_removed"], delta.handovers_removed)
+        ),
+        "findings_added": _rows(lists["findings_added"], delta.findings_added),
+        "findings_removed": _rows(lists["findings_removed"], delta.findings_removed),
         "figure": burden_moved_figure(delta, top=TOP_TASKS),
         "shifts": [
             {
@@ -166,6 +188,11 @@ def _delta_context(delta: PlanDelta, comparison: Comparison) -> dict[str, Any]:
         "net": figure_number("burden_change", delta.burden_change, signed=True),
         "net_text": figure_text("burden_change", delta.burden_change, signed=True),
     }
+
+
+def _rows(shown: RowPage | None, rows) -> list:
+    """A list's page, or (without a request to ask for one) its first page."""
+    return list(rows[:PAGE_ROWS]) if shown is None else shown.rows
 
 
 def _objective_context(comparison: Comparison) -> dict[str, Any]:
@@ -208,7 +235,10 @@ def _objective_context(comparison: Comparison) -> dict[str, Any]:
 
 
 def _compare_context(
-    page: StudyPage, query: QueryDict, form: WeightForm | None = None
+    page: StudyPage,
+    query: QueryDict,
+    form: WeightForm | None = None,
+    request: HttpRequest | None = None,
 ) -> dict[str, Any]:
     chosen, notes = _selection(page, query)
     focus = query.get("focus", "")
@@ -256,7 +286,7 @@ def _compare_context(
             comparison.people, {agent.id: agent.name for agent in page.study.humans}
         ),
         top_tasks=TOP_TASKS,
-        item=_delta_context(comparison.delta(focus), comparison),
+        item=_delta_context(request, comparison.delta(focus), comparison),
         form=form,
         **_objective_context(comparison),
     )
@@ -268,7 +298,7 @@ def _compare_context(
 def study_compare(request: HttpRequest, pk: int) -> HttpResponse:
     """The comparison page; to htmx (the plan picker) only the comparison below it."""
     page = study_page(request, pk)
-    context = page.context("study-compare", **_compare_context(page, request.GET))
+    context = page.context("study-compare", **_compare_context(page, request.GET, request=request))
     # A boosted request or a history restore wants the whole page, like a plain visit.
     if request.htmx and not (request.htmx.boosted or request.htmx.history_restore_request):
         return render(request, "compare/compare.html#region", context)

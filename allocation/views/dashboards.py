@@ -25,6 +25,7 @@ from allocation.core.registry import (
 )
 from allocation.figures import dashboards as dashboard_figures
 from allocation.views.common import StudyPage, study_page
+from allocation.views.paging import page_of
 
 #: Handovers shown before "show all".
 HANDOVERS_SHOWN = 50
@@ -65,7 +66,7 @@ def plan_dashboard(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     )
     analysis = page.analysis(chosen.id) if page.result.ok else None
     if analysis is not None:
-        context.update(_dashboard(page, analysis, show_all))
+        context.update(_dashboard(request, page, analysis, show_all))
     if request.htmx and not request.htmx.boosted:
         if request.htmx.target == "dashboard-handovers" and "handovers" in context:
             return render(request, "dashboards/plan.html#handovers", context)
@@ -98,7 +99,11 @@ def _agent_name(page: StudyPage, agent_id: str | None) -> str:
     return agent.name if agent else agent_id
 
 
-def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[str, Any]:
+def _dashboard(
+    request: HttpRequest, page: StudyPage, analysis: PlanAnalysis, show_all: bool
+) -> dict[str, Any]:
+    """What the panels show: the goals, handovers (all of them a page at a time) and
+    findings a page at a time (``goals_page``, ``handovers_page``, ``findings_page``)."""
     study = analysis.study
     plan_id = analysis.plan.id
     people = []
@@ -124,6 +129,9 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
                 ],
             }
         )
+    goals_page = page_of(
+        request, dashboard_figures.goal_person_time(analysis), param="goals_page", target="goals"
+    )
     goals = [
         {
             **row,
@@ -134,9 +142,17 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
             ],
             "total": figure_text("person_s_per_day", sum(row["seconds"].values()), unit=False),
         }
-        for row in dashboard_figures.goal_person_time(analysis)
+        for row in goals_page.rows
     ]
-    handovers = [_handover_row(page, handover, plan_id) for handover in analysis.handovers]
+    if show_all:
+        handovers_page = page_of(
+            request, analysis.handovers, param="handovers_page", target="dashboard-handovers"
+        )
+        shown_handovers = handovers_page.rows
+    else:
+        handovers_page = None
+        shown_handovers = analysis.handovers[:HANDOVERS_SHOWN]
+    handovers = [_handover_row(page, handover, plan_id) for handover in shown_handovers]
     awareness = [
         {
             **row,
@@ -158,6 +174,7 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
             f for f in analysis.findings if f.kind in MODE_FINDING_KINDS
         )
     }
+    findings_page = page_of(request, analysis.findings, param="findings_page", target="findings")
     findings = [
         {
             "finding": finding,
@@ -171,7 +188,7 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
                 else None
             ),
         }
-        for finding in analysis.findings
+        for finding in findings_page.rows
     ]
     modes = []
     if analysis.plan.modes:
@@ -199,13 +216,16 @@ def _dashboard(page: StudyPage, analysis: PlanAnalysis, show_all: bool) -> dict[
         "people": people,
         "people_names": [study.agent(agent_id).name for agent_id in analysis.people],
         "goals": goals,
-        "handovers": handovers if show_all else handovers[:HANDOVERS_SHOWN],
-        "handover_count": len(handovers),
+        "goals_page": goals_page,
+        "handovers": handovers,
+        "handovers_page": handovers_page,
+        "handover_count": len(analysis.handovers),
         "handovers_shown": HANDOVERS_SHOWN,
         "awareness": awareness,
         "awareness_count": len(dashboard_figures.awareness_rows(analysis, None)),
         "awareness_shown": AWARENESS_SHOWN,
         "findings": findings,
+        "findings_page": findings_page,
         "finding_kinds": sorted(kinds.items(), key=lambda kv: (-kv[1], kv[0])),
         "modes": modes,
         "policy": analysis.policy,

@@ -33,6 +33,7 @@ from allocation.core.registry import (
 from allocation.core.vocabulary import CHANNELS, SEVERITIES, STAGE_NAMES, STAGES, VACP_ANCHORS
 from allocation.figures import graph as graph_figures
 from allocation.views.common import StudyPage, study_page
+from allocation.views.paging import page_of
 
 #: Above this many leaf tasks the graph opens on one goal (tool assumption: a few hundred
 #: nodes is about what a layered drawing shows legibly at once).
@@ -154,6 +155,7 @@ def _graph_region(request: HttpRequest, page: StudyPage) -> dict[str, Any]:
         else:
             query.errors["task"] = f"This study has no leaf task “{preselected}” to show."
     goal = study.tasks_by_id.get(query.goal) if query.goal else None
+    task_page = page_of(request, list(selection.focus), param="tasks_page", target="graph-tasks")
     return {
         "query": query,
         "analysis": analysis,
@@ -186,8 +188,9 @@ def _graph_region(request: HttpRequest, page: StudyPage) -> dict[str, Any]:
                 "holder": _agent_name(study, holders.get(task_id)) if analysis else "—",
                 "url": _task_url(page, task_id, query.plan),
             }
-            for task_id in selection.focus
+            for task_id in task_page.rows
         ],
+        "task_page": task_page,
         "details": details,
     }
 

@@ -29,6 +29,7 @@ from allocation.forms.inventory import AgentForm, EventForm, LinkForm, StudyForm
 from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import conflict_context, posted_version
+from allocation.views.paging import page_of
 
 
 @dataclass(frozen=True)
@@ -137,14 +138,33 @@ def problems_by_key(problems: list[Problem], kind: Kind) -> tuple[dict[str, list
     return by_key, general
 
 
-def _sections(page: StudyPage) -> dict[str, Any]:
-    """What the four inventory sections list."""
+def _sections(request: HttpRequest, page: StudyPage) -> dict[str, Any]:
+    """What the four inventory sections list: one page of each (``agents_page``,
+    ``events_page``, ``tasks_page``, ``links_page``), whatever the study's size."""
     study = page.study
-    link_rows = list(page.row.links.order_by("position", "pk").values_list("pk", flat=True))
+    url = reverse("study-inventory", args=[page.row.pk])
+    tasks = page_of(
+        request, task_outline(study), param="tasks_page", target="section-tasks", path=url
+    )
+    links = page_of(
+        request, range(len(study.links)), param="links_page", target="section-links", path=url
+    )
+    first = (links.number - 1) * links.size
+    # The rows of the page's links only, in the order the study file lists them.
+    link_rows = list(
+        page.row.links.order_by("position", "pk").values_list("pk", flat=True)[
+            first : first + len(links.rows)
+        ]
+    )
     return {
-        "agents": study.agents,
-        "events": study.events,
-        "outline": [
+        "agents": page_of(
+            request, study.agents, param="agents_page", target="section-agents", path=url
+        ),
+        "events": page_of(
+            request, study.events, param="events_page", target="section-events", path=url
+        ),
+        "outline": tasks,
+        "outline_rows": [
             {
                 "task": task,
                 "depth": depth,
@@ -153,9 +173,10 @@ def _sections(page: StudyPage) -> dict[str, Any]:
                 "duration": duration_text(task.duration_s),
                 "severity": severity_text(task.severity),
             }
-            for task, depth in task_outline(study)
+            for task, depth in tasks.rows
         ],
-        "links": list(zip(link_rows, study.links, strict=False)),
+        "links": links,
+        "link_rows": list(zip(link_rows, [study.links[i] for i in links.rows], strict=False)),
     }
 
 
@@ -165,13 +186,13 @@ def study_inventory(request: HttpRequest, pk: int) -> HttpResponse:
     page = study_page(request, pk)
     if page.study is None:
         raise Http404("The study cannot be read.")
-    context = page.context("study-inventory", **_sections(page))
+    context = page.context("study-inventory", **_sections(request, page))
     return render(request, "inventory/page.html", context)
 
 
 def _section_response(request: HttpRequest, page: StudyPage, kind: Kind) -> HttpResponse:
     page = study_page(request, page.row.pk, role=m.Role.EDITOR)
-    context = page.context("study-inventory", kind=kind.name, **_sections(page))
+    context = page.context("study-inventory", kind=kind.name, **_sections(request, page))
     response = render(request, f"inventory/page.html#section-{kind.name}", context)
     return retarget(response, f"#section-{kind.name}")
 

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+from collections import Counter
 from typing import Any
+from urllib.parse import urlencode
 
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
@@ -17,6 +19,8 @@ from allocation import services
 from allocation.core import Problem, Study, StudyInvalid
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.describe import task_outline
+from allocation.core.limits import PAGE_ROW_CHOICES, PAGE_ROWS
+from allocation.core.model import Task
 from allocation.core.registry import ASSIGNMENT_STATUS_WORDS, figure_text
 from allocation.core.scales import level_text
 from allocation.core.vocabulary import ASSIGNMENT_STATUSES, CUES, INITIATORS, STAGES
@@ -25,6 +29,7 @@ from allocation.forms.plans import WHO_CHOICES, AssignmentForm, BulkForm, PlanFo
 from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import conflict_context, posted_version
+from allocation.views.paging import page_number, page_of
 
 #: The plan's figures beside the editor, and each person's (the registry names them).
 HEADLINE_FIGURES = (
@@ -52,16 +57,29 @@ def _choices(study: Study) -> dict[str, Any]:
         "statuses": [(key, ASSIGNMENT_STATUS_WORDS[key].label) for key in ASSIGNMENT_STATUSES],
         "stages": STAGES,
         "per_stage_allowed": study.scale == "sv10",
+        # Past this many agents a row's agent fields are typed (suggested from lists sent
+        # once a page), so that a row's size does not grow with the study's agents.
+        "typed": len(study.agents) > PAGE_ROW_CHOICES,
     }
 
 
-def _versions(page: StudyPage, plan_id: str) -> dict[str, int]:
-    """The version of each allocated task's assignment row (absent: not allocated, 0)."""
+def _versions(page: StudyPage, plan_id: str, task_ids: list[str]) -> dict[str, int]:
+    """The version of each of these tasks' assignment rows (absent: not allocated, 0)."""
     return dict(
-        m.Assignment.objects.filter(plan__study=page.row, plan__key=plan_id).values_list(
-            "task__key", "version"
-        )
+        m.Assignment.objects.filter(
+            plan__study=page.row, plan__key=plan_id, task__key__in=task_ids
+        ).values_list("task__key", "version")
     )
+
+
+def _handover_counts(analysis: PlanAnalysis | None) -> Counter[str]:
+    """How many handovers each task takes part in (counted once for the whole plan)."""
+    counts: Counter[str] = Counter()
+    for handover in () if analysis is None else analysis.handovers:
+        counts[handover.site.from_task] += 1
+        if handover.site.to_task != handover.site.from_task:
+            counts[handover.site.to_task] += 1
+    return counts
 
 
 def _row(
@@ -73,6 +91,7 @@ def _row(
     problems: list[Problem] = (),
     initial: dict[str, Any] | None = None,
     version: int = 0,
+    handovers: Counter[str] | None = None,
 ) -> dict[str, Any]:
     """Everything one editor row shows: the assignment's values, its figures, errors, and
     the version of the assignment the row was rendered from (0: not allocated)."""
@@ -102,9 +121,7 @@ def _row(
             "per_day": figures.per_day,
             "person_s_per_day": sum(figures.person_s_per_day.values()),
             "awareness": None if figures.awareness is None else figures.awareness.index,
-            "handovers": sum(
-                1 for h in analysis.handovers if task_id in (h.site.from_task, h.site.to_task)
-            ),
+            "handovers": (handovers or _handover_counts(analysis))[task_id],
         }
     return row
 
@@ -133,28 +150,41 @@ def _analysis(page: StudyPage, plan_id: str) -> PlanAnalysis | None:
 @require_GET
 @login_required
 def plan_editor(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
-    """The plan's rows; a large study opens on one goal at a time (``?goal=``)."""
+    """The plan's rows, a page at a time (``?page=``); a large study opens on one goal at
+    a time (``?goal=``)."""
     page = study_page(request, pk)
     page.plan_or_404(plan)
     study = page.study
-    analysis = _analysis(page, plan)
     goal = _goal_shown(study, request.GET.get("goal", ""))
-    goal_ids = {task.id for task in study.goals}
-    versions = _versions(page, plan)
-    rows = []
-    for task, depth in task_outline(study):
-        if goal and not _under(study, task.id, goal):
-            continue
-        if task.id in goal_ids:
+    shown = page_of(request, _outline(study, goal), target="plan-rows")
+    analysis = _analysis(page, plan)
+    leaves = [task.id for task, _ in shown.rows if not study.is_goal(task.id)]
+    versions = _versions(page, plan, leaves)
+    handovers = _handover_counts(analysis)
+    rows = [
+        {"goal": goal_task, "depth": depth, "continued": True}
+        for goal_task, depth in _goals_above(study, shown.rows, goal)
+    ]
+    for task, depth in shown.rows:
+        if study.is_goal(task.id):
             rows.append({"goal": task, "depth": depth})
         else:
             rows.append(
-                _row(study, plan, task.id, depth, analysis, version=versions.get(task.id, 0))
+                _row(
+                    study,
+                    plan,
+                    task.id,
+                    depth,
+                    analysis,
+                    version=versions.get(task.id, 0),
+                    handovers=handovers,
+                )
             )
     context = page.context(
         "plan-editor",
         plan=study.plans_by_id[plan],
         rows=rows,
+        rows_page=shown,
         choices=_choices(study),
         headline=_headline(study, analysis),
         plan_form=PlanForm(),
@@ -164,6 +194,47 @@ def plan_editor(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         leaf_count=len(study.leaves),
     )
     return render(request, "plans/editor.html", context)
+
+
+def _outline(study: Study, goal: str) -> list[tuple[Task, int]]:
+    """The editor's rows in outline order (goals and leaves), under ``goal`` if given."""
+    return [
+        (task, depth)
+        for task, depth in task_outline(study)
+        if not goal or _under(study, task.id, goal)
+    ]
+
+
+def _goals_above(study: Study, rows: list[tuple[Task, int]], goal: str) -> list[tuple[Task, int]]:
+    """The goals a page's first row lies under, outermost first, when the page starts
+    inside them (so that every page says whose tasks it shows)."""
+    if not rows:
+        return []
+    above = []
+    parent = rows[0][0].parent
+    while parent is not None:
+        above.append(study.tasks_by_id[parent])
+        if parent == goal:
+            break
+        parent = study.tasks_by_id[parent].parent
+    depth = rows[0][1]
+    return [(task, depth - index - 1) for index, task in enumerate(above)][::-1]
+
+
+def _place(study: Study, task_id: str) -> str:
+    """The editor's query string that shows ``task_id``'s row: its goal (in a large study)
+    and the page it falls on."""
+    goal = _goal_shown(study, "")
+    if goal and not _under(study, task_id, goal):
+        goal = task_id
+        while study.tasks_by_id[goal].parent is not None:
+            goal = study.tasks_by_id[goal].parent
+    ids = [task.id for task, _ in _outline(study, goal)]
+    number = ids.index(task_id) // PAGE_ROWS + 1 if task_id in ids else 1
+    query = {key: value for key, value in (("goal", goal), ("page", number)) if value}
+    if query.get("page") == 1:
+        del query["page"]
+    return urlencode(query)
 
 
 #: Above this many leaf tasks the editor shows one top-level goal at a time.
@@ -241,7 +312,9 @@ def plan_row_save(request: HttpRequest, pk: int, plan: str, task: str) -> HttpRe
             f"{task} was not saved: " + "; ".join(str(problem) for problem in problems),
         )
     if not request.htmx:
-        return redirect(reverse("plan-editor", args=[pk, plan]) + f"#row-{task}")
+        query = _place(study, task)
+        url = reverse("plan-editor", args=[pk, plan]) + (f"?{query}" if query else "")
+        return redirect(url + f"#row-{task}")
     page = study_page(request, pk)
     analysis = _analysis(page, plan)
     depth = {t.id: d for t, d in task_outline(page.study)}[task]
@@ -250,7 +323,7 @@ def plan_row_save(request: HttpRequest, pk: int, plan: str, task: str) -> HttpRe
     initial = dict(request.POST.items())
     initial["per_stage"] = "per_stage" in request.POST
     if conflict is None:
-        version = _versions(page, plan).get(task, 0)
+        version = _versions(page, plan, [task]).get(task, 0)
     context = page.context(
         "plan-editor",
         plan=page.study.plans_by_id[plan],
@@ -277,7 +350,12 @@ def _row_as_stored(request: HttpRequest, pk: int, plan: str, task: str) -> HttpR
         "plan-editor",
         plan=page.study.plans_by_id[plan],
         row=_row(
-            page.study, plan, task, depth, analysis, version=_versions(page, plan).get(task, 0)
+            page.study,
+            plan,
+            task,
+            depth,
+            analysis,
+            version=_versions(page, plan, [task]).get(task, 0),
         ),
         choices=_choices(page.study),
         headline=_headline(page.study, analysis),
@@ -331,8 +409,23 @@ def plan_bulk(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     else:
         messages.error(request, "Nothing was changed: select tasks, and a level or a status.")
     if request.htmx:
+        # The page the request came from (its goal and page) is shown again.
         return HttpResponseClientRefresh()
-    return redirect("plan-editor", pk, plan)
+    return redirect(_editor_url(page.study, pk, plan, request.POST))
+
+
+def _editor_url(study: Study, pk: int, plan: str, posted: Any) -> str:
+    """The editor at the goal and page a form was posted from (both checked: only a goal
+    of the study and a page number go into the address)."""
+    query = {}
+    goal = str(posted.get("goal", ""))
+    if goal == "all" or (goal in study.tasks_by_id and study.is_goal(goal)):
+        query["goal"] = goal
+    number = page_number(posted.get("page"), 10**9)
+    if number > 1:
+        query["page"] = number
+    url = reverse("plan-editor", args=[pk, plan])
+    return url + (f"?{urlencode(query)}" if query else "")
 
 
 @require_POST

@@ -21,6 +21,7 @@ from allocation.figures.ratings import task_rows, tlx_scatter_chart
 from allocation.forms.ratings import RatingForm
 from allocation.selectors import ratings as rating_selectors
 from allocation.views.common import StudyPage, study_page
+from allocation.views.paging import page_of
 
 REGION = "ratings"
 
@@ -117,13 +118,20 @@ def _context(
         "delete_url": reverse("plan-rating-delete", args=[page.row.pk, chosen.id]),
         "page_url": _page_url(page.row.pk, chosen.id),
     }
+    path = _page_url(page.row.pk, chosen.id)
     titles = {task.id: task.title for task in page.study.tasks}
     groups: dict[str, list[dict[str, Any]]] = {}
     for row in rows:
         groups.setdefault(row["rating"].task_key, []).append(row)
+    # The ratings, by task, a page of tasks at a time; the predictions beside them, the
+    # rated and the unrated tasks, each a page at a time (every list its own parameter).
+    groups_page = page_of(
+        request, list(groups.items()), param="ratings_page", target="rating-list", path=path
+    )
+    context["groups_page"] = groups_page
     context["groups"] = [
         {"task": task, "title": titles.get(task, "(no longer in the study)"), "rows": items}
-        for task, items in groups.items()
+        for task, items in groups_page.rows
     ]
     analysis = page.analysis(chosen.id) if page.result.ok else None
     if analysis is not None:
@@ -145,10 +153,26 @@ def _context(
                 else "—"
             )
         people = list(analysis.people)
+        rated = page_of(
+            request,
+            [task for task in tasks if task["count"]],
+            param="rated_page",
+            target="ratings-rated",
+            path=path,
+        )
+        unrated = page_of(
+            request,
+            [task for task in tasks if not task["count"]],
+            param="unrated_page",
+            target="ratings-unrated",
+            path=path,
+        )
         context.update(
             analysis=analysis,
-            rated=[task for task in tasks if task["count"]],
-            unrated=[task for task in tasks if not task["count"]],
+            rated=rated.rows,
+            rated_page=rated,
+            unrated=unrated.rows,
+            unrated_page=unrated,
             rated_tasks=sum(1 for task in tasks if task["count"]),
             chart=tlx_scatter_chart(tasks),
             simulation=_simulation(page, chosen.id, people),

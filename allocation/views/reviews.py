@@ -3,6 +3,8 @@ workshop view that walks them one at a time on a projector."""
 
 from __future__ import annotations
 
+from urllib.parse import urlencode
+
 from django.contrib import messages
 from django.contrib.auth.decorators import login_required
 from django.http import HttpRequest, HttpResponse
@@ -19,6 +21,7 @@ from allocation.services.conflicts import EditConflict
 from allocation.services.reviews import PLAN_KINDS
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import posted_version
+from allocation.views.paging import PAGE_ROWS, page_of
 
 #: The sections of the methods document behind the figures the review shows beside each
 #: item.
@@ -80,11 +83,13 @@ def plan_review(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
     page.plan_or_404(plan)
     show_all = request.GET.get("show") == "all"
     items = _items(page, plan, show_all)
+    shown = page_of(request, items, target="review-items")
     context = _review_context(
         page,
         "plan-review",
         plan,
-        items=items,
+        items=shown.rows,
+        items_page=shown,
         summary=review_summary(items),
         show_all=show_all,
         view="review",
@@ -96,11 +101,15 @@ def plan_review(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
 
 
 def _targets(page: StudyPage) -> list[tuple[str, str]]:
-    """What the page's general comment form may be about: the plan, the study, a task."""
+    """What the page's general comment form may be about: the plan, the study, a task.
+    A study of more tasks than a page lists offers "a task" with a field for its id."""
+    tasks = page.study.tasks
+    if len(tasks) > PAGE_ROWS:
+        return [("plan:", "this plan"), ("study:", "the study as a whole"), ("task:", "a task")]
     return [
         ("plan:", "this plan"),
         ("study:", "the study as a whole"),
-        *((f"task:{task.id}", f"task {task.id} {task.title}") for task in page.study.tasks),
+        *((f"task:{task.id}", f"task {task.id} {task.title}") for task in tasks),
     ]
 
 
@@ -165,6 +174,8 @@ def _target_from_post(request: HttpRequest) -> tuple[str, str]:
     about = request.POST.get("about")
     if about is not None:
         kind, _, key = about.partition(":")
+        if kind == "task" and not key:  # "a task", named in its own field
+            key = request.POST.get("task", "").strip()
         return kind, key
     return request.POST.get("kind", ""), request.POST.get("key", "")
 
@@ -214,8 +225,9 @@ def _answer(
         return HttpResponseClientRedirect(reverse("plan-review", args=[pk, plan]))
     if not request.htmx or item is None:
         anchor = f"#{item.anchor}" if item is not None else ""
-        query = "?show=all" if show_all else ""
-        return redirect(reverse("plan-review", args=[pk, plan]) + query + anchor)
+        return redirect(
+            reverse("plan-review", args=[pk, plan]) + _place(page, plan, show_all, item) + anchor
+        )
     context = _review_context(
         page, "plan-review", plan, item=item, view="review", show_all=show_all
     )
@@ -248,6 +260,17 @@ def review_comment(request: HttpRequest, pk: int, plan: str) -> HttpResponse:
         return _answer(request, pk, plan, target, error=f"Not posted: {refused}")
     target = (comment.target_kind, comment.plan_key, comment.target_key)
     return _answer(request, pk, plan, target, done="Comment posted.")
+
+
+def _place(page: StudyPage, plan: str, show_all: bool, item: ReviewItem | None) -> str:
+    """The review page's query string that shows ``item``: the filter and its page."""
+    query: dict[str, object] = {"show": "all"} if show_all else {}
+    if item is not None:
+        keys = [(i.kind, i.plan_key, i.key) for i in _items(page, plan, show_all)]
+        where = (item.kind, item.plan_key, item.key)
+        if where in keys and keys.index(where) >= PAGE_ROWS:
+            query["page"] = keys.index(where) // PAGE_ROWS + 1
+    return f"?{urlencode(query)}" if query else ""
 
 
 def _refused(request: HttpRequest, pk: int, plan: str, error: str) -> HttpResponse:

@@ -24,9 +24,11 @@ from allocation import audit, services
 from allocation import models as m
 from allocation.core import StudyInvalid
 from allocation.core.difference import KINDS, Change, Difference
+from allocation.core.limits import PAGE_ROWS
 from allocation.core.registry import FIGURES, Figure, figure_number
 from allocation.selectors import snapshots as reads
 from allocation.views.common import StudyPage, study_page
+from allocation.views.paging import page_of
 
 NOW = "now"
 
@@ -244,7 +246,9 @@ def _version(page: StudyPage, asked: str) -> reads.Version | None:
     return None if snapshot is None else reads.snapshot_version(snapshot)
 
 
-def _difference_context(page: StudyPage, query) -> dict[str, Any]:
+def _difference_context(
+    page: StudyPage, query, request: HttpRequest | None = None
+) -> dict[str, Any]:
     snapshots = list(reads.snapshots_for_study(study=page.row))
     default_from = str(snapshots[0].pk) if snapshots else ""
     asked_from = query.get("from", "") or default_from
@@ -278,13 +282,21 @@ def _difference_context(page: StudyPage, query) -> dict[str, Any]:
         after_short=_short(after.sha256),
         same_hash=before.sha256 is not None and before.sha256 == after.sha256,
         summary=[{"kind": kind, "label": KINDS[kind], **counts[kind]} for kind in groups],
-        groups=[
-            {"kind": kind, "label": KINDS[kind], "rows": _change_rows(items)}
-            for kind, items in groups.items()
-        ],
+        groups=[_group(request, kind, items) for kind, items in groups.items()],
         headline_groups=_headline_groups(difference),
     )
     return context
+
+
+def _group(request: HttpRequest | None, kind: str, items: list) -> dict[str, Any]:
+    """One kind's changes, a page at a time (``{kind}_page``)."""
+    shown = (
+        page_of(request, items, param=f"{kind}_page", target=f"difference-{kind}")
+        if request is not None
+        else None
+    )
+    rows = items[:PAGE_ROWS] if shown is None else shown.rows
+    return {"kind": kind, "label": KINDS[kind], "rows": _change_rows(rows), "page": shown}
 
 
 @require_GET
@@ -293,7 +305,7 @@ def snapshot_difference(request: HttpRequest, pk: int) -> HttpResponse:
     """What changed between two snapshots, or a snapshot and now (``?from=N&to=M|now``);
     to htmx (the picker) only the differences."""
     page = study_page(request, pk)
-    context = page.context("study-snapshots", **_difference_context(page, request.GET))
+    context = page.context("study-snapshots", **_difference_context(page, request.GET, request))
     if request.htmx and not (request.htmx.boosted or request.htmx.history_restore_request):
         return render(request, "snapshots/difference.html#region", context)
     return render(request, "snapshots/difference.html", context)

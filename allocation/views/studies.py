@@ -23,8 +23,10 @@ from allocation.core.describe import (
     severity_text,
     task_outline,
 )
+from allocation.core.limits import PAGE_PROBLEMS
 from allocation.core.reading import parse_json_text
 from allocation.views.common import study_page
+from allocation.views.paging import page_of
 from allocation.web.uploads import upload_refusal
 
 
@@ -51,7 +53,13 @@ def study_upload(request: HttpRequest) -> HttpResponse:
         except StudyInvalid as error:
             problems = error.problems
     if problems:
-        context = {"problems": problems, "filename": getattr(upload, "name", "")}
+        context = {
+            "problems": problems,
+            "filename": getattr(upload, "name", ""),
+            # A file may have thousands of problems: the first are listed.
+            "problems_shown": PAGE_PROBLEMS,
+            "problems_slice": f":{PAGE_PROBLEMS}",
+        }
         template = "studies/list.html#upload" if request.htmx else "studies/list.html"
         if not request.htmx:
             context["studies"] = selectors.studies_for_user(user=request.user)
@@ -76,6 +84,9 @@ def _upload_problems(upload) -> list[Problem]:
 def study_detail(request: HttpRequest, pk: int) -> HttpResponse:
     page = study_page(request, pk)
     study = page.study
+    # One page of each list (``agents_page``, ``tasks_page``, ``links_page``,
+    # ``events_page``), whatever the study's size.
+    tasks = page_of(request, task_outline(study), param="tasks_page", target="tasks")
     outline = [
         {
             "task": task,
@@ -86,7 +97,7 @@ def study_detail(request: HttpRequest, pk: int) -> HttpResponse:
             "window": "—" if task.window_s is None else seconds_text(task.window_s),
             "severity": severity_text(task.severity),
         }
-        for task, depth in task_outline(study)
+        for task, depth in tasks.rows
     ]
     analyses = page.analyses()
     plans = [
@@ -98,7 +109,14 @@ def study_detail(request: HttpRequest, pk: int) -> HttpResponse:
         for plan in study.plans
     ]
     context = page.context(
-        "study-detail", outline=outline, plans=plans, leaf_count=len(study.leaves)
+        "study-detail",
+        outline=outline,
+        tasks_page=tasks,
+        agents_page=page_of(request, study.agents, param="agents_page", target="agents"),
+        links_page=page_of(request, study.links, param="links_page", target="links"),
+        events_page=page_of(request, study.events, param="events_page", target="events"),
+        plans=plans,
+        leaf_count=len(study.leaves),
     )
     return render(request, "studies/detail.html", context)
 

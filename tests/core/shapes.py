@@ -114,14 +114,13 @@ def modes(rng: random.Random) -> dict[str, Any]:
     document = _base()
     plan = document["plans"][0]
     leaves = list(plan["assignments"])
+    device = next(agent["id"] for agent in document["agents"] if agent["kind"] == "automation")
     states = [
         {
             "id": f"m{i}",
             "name": f"Mode {i}",
             "indication": f"lamp {i % 7}",
-            "overrides": {leaves[i % len(leaves)]: {"human": None, "automation": "device"}}
-            if i % 3 == 0
-            else {},
+            "overrides": {leaves[i % len(leaves)]: {"automation": device}} if i % 3 == 0 else {},
         }
         for i in range(mode_count)
     ]

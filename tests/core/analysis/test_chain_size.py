@@ -62,22 +62,24 @@ def _refusals_of_long_chain(tasks: int) -> list[list[str]]:
 
 
 def test_a_long_chain_file_is_refused_by_the_reader_within_a_cap():
-    # 20,000 tasks, the most a study holds: its chain would hold 200,010,000 entries
-    # (n(n+1)/2, hand-worked). Counting stops at the sixth trigger, T5: the first five
-    # reach 20,000 + 19,999 + ... + 19,996 = 99,990 tasks, the sixth passes 100,000.
+    # 5,000 tasks, the most a study holds: its chain would hold 12,502,500 entries
+    # (n(n+1)/2, hand-worked). Counting stops at the 21st trigger, T20: the first twenty
+    # reach 5,000 + 4,999 + ... + 4,981 = 99,810 tasks, the 21st passes 100,000.
+    assert STUDY_MAX_TASKS == 5_000, "the hand-worked figures below are for 5,000 tasks"
     [(path, message)] = _refusals_of_long_chain(STUDY_MAX_TASKS)
-    assert path == "$.tasks[5].occurs"
+    assert path == "$.tasks[20].occurs"
     assert f"at least {CHAIN_ENTRIES_MAX + 1:,} task-in-chain entries" in message
     assert f"the limit is {CHAIN_ENTRIES_MAX:,}" in message
     assert f"schedule:T0 ({STUDY_MAX_TASKS:,} tasks)" in message
 
 
 def test_the_30000_task_chain_file_is_refused_by_its_size_within_a_cap():
-    # The 30,000-task chain (about 4.9 MB compact) is refused for its count of tasks
-    # before its chains are counted.
-    [(path, message)] = _refusals_of_long_chain(30_000)
-    assert path == "$.tasks"
-    assert "30,000 tasks" in message and "STUDY_MAX_TASKS" in message
+    # The 30,000-task chain (about 4.9 MB compact) is refused for its count of tasks (and
+    # of links, 29,999) before its chains are counted: no refusal is about an item.
+    refusals = dict(_refusals_of_long_chain(30_000))
+    assert set(refusals) == {"$.tasks", "$.links"}
+    assert "30,000 tasks" in refusals["$.tasks"] and "STUDY_MAX_TASKS" in refusals["$.tasks"]
+    assert "29,999 links" in refusals["$.links"] and "STUDY_MAX_LINKS" in refusals["$.links"]
 
 
 def test_a_study_just_under_the_limit_is_accepted_and_analysed_within_a_cap():
