@@ -152,6 +152,8 @@ class Event(models.Model):
     jitter_s = models.FloatField(null=True, blank=True)
     per_day = models.FloatField(null=True, blank=True)
     when = models.CharField(max_length=8, blank=True, choices=_choices(vocabulary.EVENT_WHEN))
+    # Whose day a rate follows: a human's id ("" for the only sleeper, or none).
+    of = models.CharField(max_length=64, blank=True)
     every_days = models.FloatField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)

@@ -327,8 +327,8 @@ METHOD_NOTES = (
     (
         "rates",
         TOOL,
-        "A rate per day is a Poisson process, spread evenly over the awake, the "
-        "asleep or the whole day of the first human with an asleep window.",
+        "A rate per day is a Poisson process, spread evenly over the awake or asleep time "
+        "of the person it names (of), or over the whole day (when: any, the default).",
     ),
     (
         "chains",

@@ -14,10 +14,11 @@ from collections.abc import Callable, Iterable
 from typing import Any
 
 from .analysis.modecheck import mode_search_size
+from .assumptions import resolve_assumptions
 from .errors import Problem
 from .graph import chain_entries, hierarchy_cycle, never_occurring, precedence_cycle, triggers
 from .limits import CHAIN_ENTRIES_MAX
-from .model import Assignment, ModeMap, Plan, Study
+from .model import Assignment, Event, ModeMap, Occurs, Plan, Study
 from .reading import child_path
 
 __all__ = ["check_study"]
@@ -74,6 +75,7 @@ class _Checker:
         self.agents()
         self.hierarchy()
         self.tasks()
+        self.whose_days()
         cycle_free = self.links()
         for index, plan in enumerate(study.plans):
             self.plan(plan, self.locate(plan, f"$.plans[{index}]"))
@@ -185,6 +187,42 @@ class _Checker:
             if task.severity is None:
                 self.warn(
                     path, f"leaf task {task.id} has no severity; it counts as 1 (negligible)"
+                )
+
+    def whose_days(self) -> None:
+        """Every rate that follows someone's awake or asleep day says whose, where more
+        than one person sleeps; and names a human of the study."""
+        study = self.study
+        sleepers = [agent.id for agent in study.humans if agent.asleep is not None]
+        assumptions = study.assumptions if isinstance(study.assumptions, dict) else {}
+        every_days_awake = resolve_assumptions(assumptions)["every_days_when"] == "awake"
+        rules: list[tuple[Event | Occurs, str]] = [
+            (event, self.locate(event, f"$.events[{index}]"))
+            for index, event in enumerate(study.events)
+        ]
+        rules += [
+            (task.occurs, child_path(self.task_paths[task.id], "occurs"))
+            for task in study.tasks
+            if task.occurs is not None and not study.is_goal(task.id)
+        ]
+        for rule, path in rules:
+            if rule.of is not None:
+                agent = study.agents_by_id.get(rule.of)
+                if agent is None or not agent.is_human:
+                    what = "an automation" if agent is not None else "not in the study"
+                    self.error(
+                        child_path(path, "of"),
+                        f"names {rule.of!r}, {what}: a rate follows the day of a human",
+                    )
+                continue
+            follows = rule.per_day is not None and rule.when in ("awake", "asleep")
+            follows = follows or (rule.every_days is not None and every_days_awake)
+            if follows and len(sleepers) > 1:
+                what = f"{rule.when} time" if rule.per_day is not None else "awake day"
+                self.error(
+                    child_path(path, "of"),
+                    f"is missing: the rate follows someone's {what}, and "
+                    f"{', '.join(sleepers)} each have an asleep window; say whose",
                 )
 
     def links(self) -> bool:

@@ -43,7 +43,10 @@ def occurs_text(study: Study, task: Task) -> str:
         jitter = f" (± {seconds_text(occurs.jitter_s)})" if occurs.jitter_s else ""
         return f"at {', '.join(occurs.times)}{jitter}"
     if occurs.per_day is not None:
-        return f"{occurs.per_day:g} a day ({occurs.when or 'awake'})"
+        when = occurs.when or "any"
+        if when == "any":
+            return f"{occurs.per_day:g} a day, at any time"
+        return f"{occurs.per_day:g} a day while {occurs.of or 'the person'} is {when}"
     if occurs.every_days is not None:
         return f"every {occurs.every_days:g} days"
     event = study.events_by_id.get(occurs.event or "")

@@ -114,6 +114,8 @@ class Event:
     when: str | None = None
     every_days: Number | None = None
     notes: str | None = None
+    #: Whose day a rate follows (``when`` awake or asleep, or every N days): a human's id.
+    of: str | None = None
 
 
 @dataclass(frozen=True)
@@ -127,6 +129,8 @@ class Occurs:
     every_days: Number | None = None
     event: str | None = None
     probability: Number | None = None
+    #: Whose day a rate follows (``when`` awake or asleep, or every N days): a human's id.
+    of: str | None = None
 
     @property
     def way(self) -> str:

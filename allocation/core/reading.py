@@ -1,9 +1,14 @@
-"""Reading a study file (JSON format version 1) into the model.
+"""Reading a study file (JSON format version 2, or version 1 upgraded) into the model.
 
 Reading checks the shape of every value: unknown and missing keys, types, enumerations,
 ranges, times of day. It collects every problem with its JSON path rather than stopping
 at the first, and builds as much of the study as it can so that the cross-reference
 checks of :mod:`allocation.core.checks` can run on the rest.
+
+A version 1 file is upgraded as it is read, losslessly: a rate without ``when`` follows
+the awake day (version 1's default; version 2's is ``any``), and where more than one
+person has an asleep window a rate that follows someone's day takes the first of them,
+with a warning at its path (version 1 named no one).
 """
 
 from __future__ import annotations
@@ -56,10 +61,19 @@ from .vocabulary import (
     TRANSITION_CAUSES,
 )
 
-__all__ = ["FORMAT_NAME", "FORMAT_VERSION", "StudyReader", "child_path", "parse_json_text"]
+__all__ = [
+    "FORMAT_NAME",
+    "FORMAT_VERSION",
+    "FORMAT_VERSIONS",
+    "StudyReader",
+    "child_path",
+    "parse_json_text",
+]
 
 FORMAT_NAME = "baton.study"
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
+#: The versions this reader reads; older ones are upgraded as they are read.
+FORMAT_VERSIONS = (1, 2)
 
 _IDENTIFIER = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,63}\Z")
 _PLAIN_KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*\Z")
@@ -200,6 +214,9 @@ class StudyReader:
     def __init__(self) -> None:
         self.problems: list[Problem] = []
         self.located: dict[int, str] = {}
+        self.version = FORMAT_VERSION
+        # The humans with an asleep window, in file order (for upgrading version 1).
+        self.sleepers: list[Agent] = []
 
     def locate(self, obj: object, default: str) -> str:
         """The JSON path ``obj`` was read from (``default`` if it was not read here)."""
@@ -209,6 +226,9 @@ class StudyReader:
 
     def error(self, path: str, message: str) -> None:
         self.problems.append(Problem(path, message))
+
+    def warn(self, path: str, message: str) -> None:
+        self.problems.append(Problem(path, message, "warning"))
 
     def obj(
         self, value: Any, path: str, required: Iterable[str], optional: Iterable[str] = ()
@@ -443,14 +463,16 @@ class StudyReader:
             self.error(
                 "$.format", f"must be {json.dumps(FORMAT_NAME)}, not {json.dumps(root['format'])}"
             )
-        if "version" in root and (
-            isinstance(root["version"], bool) or root["version"] != FORMAT_VERSION
-        ):
-            self.error(
-                "$.version",
-                f"must be {FORMAT_VERSION}; this Baton reads version "
-                f"{FORMAT_VERSION} only, not {json.dumps(root['version'])}",
-            )
+        if "version" in root:
+            version = root["version"]
+            if isinstance(version, bool) or version not in FORMAT_VERSIONS:
+                self.error(
+                    "$.version",
+                    f"must be {FORMAT_VERSION} (or 1, upgraded as it is read); this Baton "
+                    f"reads versions 1 and 2, not {json.dumps(version)}",
+                )
+            else:
+                self.version = int(version)
         header = (
             self.obj(
                 root["study"],
@@ -471,6 +493,9 @@ class StudyReader:
         bin_s = self.optional(header, "bin_s", path, self.bin_width)
         assumptions = self.optional(header, "assumptions", path, self.assumptions)
         risk_policy = self.optional(header, "risk_policy", path, self.risk_policy)
+        # Agents first: upgrading a version 1 rate needs to know who sleeps.
+        agents = self.entries(root, "agents", "$", self.agent)
+        self.sleepers = [agent for agent in agents if agent.is_human and agent.asleep]
         return Study(
             id=study_id or "study",
             title=title or "?",
@@ -479,7 +504,7 @@ class StudyReader:
             bin_s=bin_s,
             assumptions=assumptions,
             risk_policy=risk_policy,
-            agents=self.entries(root, "agents", "$", self.agent),
+            agents=agents,
             events=self.entries(root, "events", "$", self.event),
             tasks=self.entries(root, "tasks", "$", self.task),
             links=self.entries(root, "links", "$", self.link),
@@ -624,12 +649,35 @@ class StudyReader:
             path,
             lambda v, p: self.number(v, p, positive=True, minimum=1 / MAX_PER_DAY),
         )
+        fields["of"] = self.optional(data, "of", path, self.identifier)
         self._one_way(data, path, ("times", "per_day", "every_days", "event"))
         if "jitter_s" in data and "times" not in data:
             self.error(child_path(path, "jitter_s"), "goes only with times")
         if "when" in data and "per_day" not in data:
             self.error(child_path(path, "when"), "goes only with per_day")
+        if "of" in data and "per_day" not in data and "every_days" not in data:
+            self.error(child_path(path, "of"), "goes only with per_day or every_days")
+        if self.version == 1:
+            self._upgrade_rate(fields, data, path)
         return fields
+
+    def _upgrade_rate(self, fields: dict[str, Any], data: dict[str, Any], path: str) -> None:
+        """A version 1 rate in version 2's terms: the same figures, said explicitly."""
+        if "per_day" in data and "when" not in data:
+            fields["when"] = "awake"  # version 1's default; version 2's is "any"
+        follows_a_day = fields.get("when") in ("awake", "asleep") or "every_days" in data
+        if follows_a_day and "of" not in data and len(self.sleepers) > 1:
+            first = self.sleepers[0]
+            fields["of"] = first.id
+            others = [agent.id for agent in self.sleepers[1:]]
+            also = f"{' and '.join(others)} {'sleeps' if len(others) == 1 else 'sleep'} too"
+            way = "when" if "when" in data else "per_day" if "per_day" in data else "every_days"
+            self.warn(
+                child_path(path, way),
+                f"taken as the day and night of {first.id!r}, the first person listed with an "
+                f"asleep window (a version 1 file names no one; {also}): say whose "
+                'with "of"',
+            )
 
     def _one_way(self, data: dict[str, Any], path: str, ways: tuple[str, ...]) -> None:
         given = [way for way in ways if way in data]
@@ -641,7 +689,7 @@ class StudyReader:
             value,
             path,
             ("id", "name"),
-            ("times", "jitter_s", "per_day", "when", "every_days", "notes"),
+            ("times", "jitter_s", "per_day", "when", "of", "every_days", "notes"),
         )
         if data is None or "id" not in data:
             return None
@@ -663,7 +711,7 @@ class StudyReader:
             value,
             path,
             (),
-            ("times", "jitter_s", "per_day", "when", "every_days", "event", "probability"),
+            ("times", "jitter_s", "per_day", "when", "of", "every_days", "event", "probability"),
         )
         if data is None:
             return None

@@ -62,6 +62,8 @@ def _events(rng: random.Random, count: int) -> list[dict[str, Any]]:
         else:
             event["per_day"] = round(rng.uniform(0.05, 4.0), 2)
             event["when"] = rng.choice(("awake", "awake", "asleep", "any"))
+            if event["when"] != "any":
+                event["of"] = "person"  # two people sleep: a rate says whose day it follows
         events.append(event)
     return events
 
@@ -78,10 +80,10 @@ def _occurs(rng: random.Random, events: list[dict[str, Any]]) -> dict[str, Any]:
             occurs["probability"] = round(rng.uniform(0.2, 1.0), 2)
         return occurs
     if roll < 0.7:
-        return {"per_day": round(rng.uniform(0.1, 6.0), 2), "when": "awake"}
+        return {"per_day": round(rng.uniform(0.1, 6.0), 2), "when": "awake", "of": "person"}
     if roll < 0.85:
         return {"times": [f"{rng.randrange(7, 22):02d}:00"], "jitter_s": 900}
-    return {"every_days": rng.choice((2, 3, 7, 30))}
+    return {"every_days": rng.choice((2, 3, 7, 30)), "of": "person"}
 
 
 def _assignment(rng: random.Random, scale: str) -> dict[str, Any]:

@@ -1,4 +1,4 @@
-"""Writing a study back to the JSON format version 1.
+"""Writing a study back to the JSON format version 2.
 
 Only the keys the study sets are written, so reading a file and writing it again gives
 the same data (FORMAT.md: import then export is lossless).
@@ -40,7 +40,7 @@ def _range(value: Any) -> Any:
 
 
 def study_to_json(study: Study) -> dict[str, Any]:
-    """The study as a JSON-ready dict in format version 1."""
+    """The study as a JSON-ready dict in format version 2."""
     header = _compact(
         {
             "id": study.id,
@@ -86,6 +86,7 @@ def _ways(item: Event | Occurs) -> dict[str, Any]:
         "jitter_s": item.jitter_s,
         "per_day": item.per_day,
         "when": item.when,
+        "of": item.of,
         "every_days": item.every_days,
     }
 

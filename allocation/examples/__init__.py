@@ -1,4 +1,4 @@
-"""The example studies shipped with Baton, as study files (format version 1).
+"""The example studies shipped with Baton, as study files (format version 2).
 
 All three are invented for Baton: no real people, products or brands.
 """

@@ -129,6 +129,12 @@ class EventForm(ItemForm):
     jitter_s = forms.FloatField(required=False, label="jitter (s)")
     per_day = forms.FloatField(required=False, label="per day")
     when = forms.ChoiceField(required=False, choices=[(w, w) for w in EVENT_WHEN])
+    of = forms.ChoiceField(
+        required=False,
+        label="whose day",
+        help_text="the person whose awake or asleep time the rate follows; needed where "
+        "more than one person has an asleep window",
+    )
     every_days = forms.FloatField(required=False, label="every (days)")
     notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
 
@@ -139,15 +145,20 @@ class EventForm(ItemForm):
         ("Times and jitter", "times", ("times", "jitter_s")),
         ("Rate per day, when", "per_day", ("per_day", "when")),
         ("Every N days", "every_days", ("every_days",)),
+        ("Whose day", "of", ("of",)),
         ("Notes", "notes", ("notes",)),
     )
+
+    def __init__(self, *args: Any, study: Study, **kwargs: Any):
+        super().__init__(*args, **kwargs)
+        self.fields["of"].choices = _whose_day_choices(study)
 
     @staticmethod
     def initial_for(item: dict[str, Any]) -> dict[str, Any]:
         way = next((w for w in ("times", "per_day", "every_days") if w in item), "times")
         initial = {
             key: item.get(key, "")
-            for key in ("id", "name", "jitter_s", "per_day", "when", "every_days", "notes")
+            for key in ("id", "name", "jitter_s", "per_day", "when", "of", "every_days", "notes")
         }
         initial["times"] = ", ".join(item.get("times") or [])
         initial["way"] = way
@@ -174,6 +185,12 @@ def _occurrence(data: dict[str, Any], item: dict[str, Any]) -> None:
             item["when"] = data["when"]
     elif way == "every_days":
         item["every_days"] = file_number(data.get("every_days"))
+    if way in ("per_day", "every_days") and data.get("of"):
+        item["of"] = data["of"]
+
+
+def _whose_day_choices(study: Study) -> list[tuple[str, str]]:
+    return [("", "—")] + [(agent.id, agent.name) for agent in study.humans]
 
 
 def typed_when_long(field: forms.ChoiceField, help_text: str) -> None:
@@ -213,6 +230,12 @@ class TaskForm(ItemForm):
     jitter_s = forms.FloatField(required=False, label="jitter (s)")
     per_day = forms.FloatField(required=False, label="per day")
     when = forms.ChoiceField(required=False, choices=[(w, w) for w in EVENT_WHEN])
+    of = forms.ChoiceField(
+        required=False,
+        label="whose day",
+        help_text="the person whose awake or asleep time the rate follows; needed where "
+        "more than one person has an asleep window",
+    )
     every_days = forms.FloatField(required=False, label="every (days)")
     duration_low, duration_typical, duration_high = range_fields("duration (s)")
     window_s = forms.FloatField(required=False, label="window (s)")
@@ -235,7 +258,17 @@ class TaskForm(ItemForm):
         (
             "Occurs",
             "occurs",
-            ("way", "event", "probability", "times", "jitter_s", "per_day", "when", "every_days"),
+            (
+                "way",
+                "event",
+                "probability",
+                "times",
+                "jitter_s",
+                "per_day",
+                "when",
+                "every_days",
+                "of",
+            ),
         ),
         (
             "Duration, s (min, typical, max)",
@@ -260,6 +293,7 @@ class TaskForm(ItemForm):
             (task.id, f"{task.id} {task.title}") for task in study.tasks if task.id != task_id
         ]
         self.fields["event"].choices = [("", "—")] + [(e.id, e.name) for e in study.events]
+        self.fields["of"].choices = _whose_day_choices(study)
         typed_when_long(self.fields["parent"], "The goal's id; leave empty for the top level.")
         typed_when_long(self.fields["event"], "The event's id, if an event starts the task.")
 
@@ -274,7 +308,15 @@ class TaskForm(ItemForm):
         initial.update(
             {
                 key: occurs.get(key, "")
-                for key in ("event", "probability", "jitter_s", "per_day", "when", "every_days")
+                for key in (
+                    "event",
+                    "probability",
+                    "jitter_s",
+                    "per_day",
+                    "when",
+                    "of",
+                    "every_days",
+                )
             }
         )
         initial["times"] = ", ".join(occurs.get("times") or [])

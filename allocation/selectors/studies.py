@@ -101,7 +101,7 @@ def study_rows(study: m.Study) -> m.Study:
 
 
 def _document_from_rows(study: m.Study) -> dict[str, Any]:
-    """The study as a JSON-ready dict in the study file format (version 1)."""
+    """The study as a JSON-ready dict in the study file format (version 2)."""
     study = study_rows(study)
     header = _compact(
         {
@@ -181,7 +181,7 @@ def study_remember(study: m.Study, document: dict[str, Any], result: LoadResult)
 
 
 def study_document(study: m.Study) -> dict[str, Any]:
-    """The study as a JSON-ready dict in the study file format (version 1).
+    """The study as a JSON-ready dict in the study file format (version 2).
 
     Shared with other readers of the same version: do not change it; copy it first.
     """
@@ -243,6 +243,7 @@ def _event(event: m.Event) -> dict[str, Any]:
             "jitter_s": _number(event.jitter_s),
             "per_day": _number(event.per_day),
             "when": event.when,
+            "of": event.of,
             "every_days": _number(event.every_days),
             "notes": event.notes,
         }

@@ -45,6 +45,7 @@ def event_values(item: dict[str, Any]) -> dict[str, Any]:
         "jitter_s": item.get("jitter_s"),
         "per_day": item.get("per_day"),
         "when": item.get("when", ""),
+        "of": item.get("of", ""),
         "every_days": item.get("every_days"),
         "notes": item.get("notes", ""),
     }

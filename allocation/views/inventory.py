@@ -117,7 +117,7 @@ def _form(
     kind: Kind, page: StudyPage, key: str, data: Any = None, initial: dict[str, Any] | None = None
 ) -> ItemForm:
     extra: dict[str, Any] = {}
-    if kind.form in (TaskForm, LinkForm):
+    if kind.form in (TaskForm, LinkForm, EventForm):
         extra["study"] = page.study
     if kind.form is TaskForm:
         extra["task_id"] = None if key == "new" else key

@@ -14,7 +14,7 @@ import pytest
 #: links[0] T1 -> T2; plans[0] manual, plans[1] auto with modes schedule and hold.
 HOME_HEATING: dict[str, Any] = {
     "format": "baton.study",
-    "version": 1,
+    "version": 2,
     "study": {
         "id": "home-heating",
         "title": "Home heating schedule",

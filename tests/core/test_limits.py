@@ -36,7 +36,7 @@ def test_a_list_past_its_limit_is_refused_at_its_path_before_its_items_are_read(
 
     tasks = [0] * (limits.STUDY_MAX_TASKS + 1)
     result = load_study(
-        {"format": "baton.study", "version": 1, "study": {"id": "s", "title": "S"}, "tasks": tasks}
+        {"format": "baton.study", "version": 2, "study": {"id": "s", "title": "S"}, "tasks": tasks}
     )
     paths = [problem.path for problem in result.errors]
     assert "$.tasks" in paths

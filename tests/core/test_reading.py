@@ -116,10 +116,10 @@ def test_a_wrong_format_name_is_an_error(make_study):
     assert_problem(result, "$.format", 'must be "baton.study", not "baton.plan"')
 
 
-@pytest.mark.parametrize("version", [2, 0, "1", True, None, [1]])
-def test_a_version_other_than_1_is_an_error(make_study, version):
+@pytest.mark.parametrize("version", [3, 0, "1", "2", True, None, [1]])
+def test_a_version_other_than_1_or_2_is_an_error(make_study, version):
     result = load_changed(make_study, setting("version", value=version))
-    assert_problem(result, "$.version", "must be 1; this Baton reads version 1 only")
+    assert_problem(result, "$.version", "must be 2 (or 1, upgraded as it is read)")
 
 
 # -- keys ----------------------------------------------------------------------------

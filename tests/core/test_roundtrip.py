@@ -291,6 +291,19 @@ def risk_policies(draw) -> dict[str, Any]:
     return with_optional(draw, {}, optional)
 
 
+def whose_day(draw, agent_list: list[dict[str, Any]], rules: list[dict[str, Any]]) -> None:
+    """Rates name whose day they follow (``of``): at times where anyone may, always
+    where several people sleep and the rate follows someone's awake or asleep time."""
+    humans = [agent["id"] for agent in agent_list if agent["kind"] == "human"]
+    sleepers = [agent["id"] for agent in agent_list if "asleep" in agent and agent["id"] in humans]
+    for rule in rules:
+        if "per_day" not in rule and "every_days" not in rule or not humans:
+            continue
+        follows = rule.get("when") in ("awake", "asleep") or "every_days" in rule
+        if follows and len(sleepers) > 1 or draw(st.booleans(), label="of"):
+            rule["of"] = draw(st.sampled_from(humans), label="of")
+
+
 @st.composite
 def study_files(draw, scale: str) -> dict[str, Any]:
     """A valid study file of the given scale."""
@@ -306,9 +319,11 @@ def study_files(draw, scale: str) -> dict[str, Any]:
     header = with_optional(
         draw, {"id": IDS, "title": TEXT, "scale": st.just(scale)}, header_optional
     )
+    rules = [*event_list, *(task["occurs"] for task in task_list if "occurs" in task)]
+    whose_day(draw, agent_list, rules)
     return {
         "format": "baton.study",
-        "version": 1,
+        "version": 2,
         "study": header,
         "agents": agent_list,
         "events": event_list,

@@ -37,7 +37,7 @@ def study_file(tasks, links=(), events=(), plans=None, agents=None, assumptions=
     and a pump, the given tasks under one goal."""
     return {
         "format": "baton.study",
-        "version": 1,
+        "version": 2,
         "study": {"id": "s", "title": "S", "scale": "sv10", "assumptions": assumptions or {}},
         "agents": agents
         or [

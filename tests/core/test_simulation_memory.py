@@ -38,7 +38,7 @@ def build(people, rate, bin_s, chain=1):
             tasks.append(task)
             assign[task["id"]] = {"human": f"h{i}"}
     return read_study({
-        "format": "baton.study", "version": 1,
+        "format": "baton.study", "version": 2,
         "study": {"id": "s", "title": "S", "scale": "sv10", "bin_s": bin_s},
         "agents": agents, "events": [], "tasks": tasks, "links": links,
         "plans": [{"id": "p", "name": "P", "assignments": assign}],

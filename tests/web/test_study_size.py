@@ -38,7 +38,7 @@ def tasks_only(count: int) -> dict:
     """A study file of ``count`` leaf tasks and nothing else (hand-built)."""
     return {
         "format": "baton.study",
-        "version": 1,
+        "version": 2,
         "study": {"id": "many", "title": "Many tasks", "scale": "sv10"},
         "agents": [],
         "events": [],

@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 
 from ..graph import Trigger, root_occurs, trigger_rule, triggers
 from ..model import Event, Occurs, Study, seconds_of_day
-from .timeofday import DayShare, asleep_intervals, awake_intervals, primary_sleeper
+from .timeofday import DayShare, asleep_intervals, awake_intervals, rule_sleeper
 
 __all__ = ["Occurrences", "TriggerTiming", "occurrences", "trigger_timings"]
 
@@ -42,12 +42,12 @@ class TriggerTiming:
 def _rate_and_timing(
     rule: Event | Occurs, study: Study, every_days_when: str
 ) -> tuple[float, DayShare]:
-    person = primary_sleeper(study)
+    person = rule_sleeper(study, rule)
     if rule.times is not None:
         seconds = [seconds_of_day(clock) for clock in rule.times]
         return float(len(seconds)), DayShare.at_times(seconds, rule.jitter_s or 0)
     if rule.per_day is not None:
-        when = rule.when or "awake"
+        when = rule.when or "any"
         pieces = {"awake": awake_intervals(person), "asleep": asleep_intervals(person), "any": []}[
             when
         ]

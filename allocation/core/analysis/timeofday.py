@@ -12,14 +12,15 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass
 
-from ..model import Agent, Study, seconds_of_day
+from ..model import Agent, Event, Occurs, Study, seconds_of_day
 
 __all__ = [
     "DAY_S",
     "DayShare",
     "asleep_intervals",
     "awake_intervals",
-    "primary_sleeper",
+    "rule_sleeper",
+    "sleepers",
     "wrap_interval",
 ]
 
@@ -61,10 +62,21 @@ def awake_intervals(agent: Agent | None) -> list[tuple[float, float]]:
     return pieces
 
 
-def primary_sleeper(study: Study) -> Agent | None:
-    """The human whose sleep defines "awake" and "asleep" for rates: the first human
-    with an asleep window (tool assumption; methods document, ``#fixed-rules``)."""
-    return next((agent for agent in study.humans if agent.asleep is not None), None)
+def sleepers(study: Study) -> list[Agent]:
+    """The humans with an asleep window, in file order."""
+    return [agent for agent in study.humans if agent.asleep is not None]
+
+
+def rule_sleeper(study: Study, rule: Event | Occurs) -> Agent | None:
+    """The human whose awake and asleep day a rate follows: the one it names (``of``),
+    else the only human with an asleep window. ``None`` where no one has one (awake is
+    then the whole day) and, in a study that the checks refuse, where several have one
+    and the rate names no one (methods document, ``#whose-day``)."""
+    if rule.of is not None:
+        agent = study.agents_by_id.get(rule.of)
+        return agent if agent is not None and agent.is_human else None
+    asleep = sleepers(study)
+    return asleep[0] if len(asleep) == 1 else None
 
 
 @dataclass(frozen=True)

@@ -20,7 +20,7 @@ from ..analysis.involvement import Involvement, involvement
 from ..analysis.modes import assignment_in_mode
 from ..analysis.occurrences import TriggerTiming
 from ..analysis.plan import INTERRUPTING, PlanAnalysis, StudyGraph
-from ..analysis.timeofday import DAY_S, asleep_intervals, awake_intervals, primary_sleeper
+from ..analysis.timeofday import DAY_S, asleep_intervals, awake_intervals, rule_sleeper
 from ..graph import trigger_rule
 from ..model import Study, seconds_of_day
 from ..vocabulary import CHANNELS, STAGES
@@ -124,7 +124,7 @@ def _rule(study: Study, trigger_timing: TriggerTiming, every_days_when: str) -> 
     if rule.per_day is not None:
         return TriggerRule(None, 0.0, float(rule.per_day), pieces, None)
     if rule.every_days is not None:
-        sleeper = primary_sleeper(study)
+        sleeper = rule_sleeper(study, rule)
         spread = awake_intervals(sleeper) if every_days_when == "awake" else [(0.0, 86400.0)]
         total = sum(b - a for a, b in spread)
         even = tuple((a, b, (b - a) / total) for a, b in spread if b > a)

@@ -14,7 +14,7 @@ from ._study import owner_from_option, problem_lines, study_file_bytes
 
 
 class Command(BaseCommand):
-    help = "Import a study file (JSON, format version 1) as a new study."
+    help = "Import a study file (JSON, format version 2, or 1 upgraded) as a new study."
 
     def add_arguments(self, parser) -> None:
         parser.add_argument("file", type=Path)

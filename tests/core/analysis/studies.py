@@ -56,7 +56,7 @@ def study_data(
         ]
     return {
         "format": "baton.study",
-        "version": 1,
+        "version": 2,
         "study": {
             "id": "s",
             "title": "Test study",
