@@ -158,7 +158,8 @@ class Task:
     severity: int | None = None
     demands: dict[str, Number] | None = None
     split: dict[str, Number] | None = None
-    needs: tuple[str, ...] | None = None
+    #: Capabilities: for every stage (a tuple), or per stage (a dict of tuples).
+    needs: tuple[str, ...] | dict[str, tuple[str, ...]] | None = None
     notes: str | None = None
 
     def carries_work(self) -> list[str]:
@@ -172,6 +173,13 @@ class Task:
         if self.split is None:
             return {stage: 1 / len(STAGES) for stage in STAGES}
         return {stage: float(self.split.get(stage, 0)) for stage in STAGES}
+
+    @property
+    def needs_by_stage(self) -> dict[str, frozenset[str]]:
+        """The capabilities each stage needs; a plain list applies to every stage."""
+        if isinstance(self.needs, dict):
+            return {stage: frozenset(self.needs.get(stage, ())) for stage in STAGES}
+        return {stage: frozenset(self.needs or ()) for stage in STAGES}
 
 
 @dataclass(frozen=True)

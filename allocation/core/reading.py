@@ -363,6 +363,19 @@ class StudyReader:
         good = [self.word(item, child_path(path, i)) for i, item in enumerate(items)]
         return tuple(item for item in good if item is not None)
 
+    def needs(self, value: Any, path: str) -> tuple[str, ...] | dict[str, tuple[str, ...]] | None:
+        """Capabilities for every stage (a list), or per stage (an object by stage)."""
+        if not isinstance(value, dict):
+            return self.strings(value, path)
+        data = self.obj(value, path, (), STAGES)
+        if data is None:
+            return None
+        return {
+            stage: self.strings(names, child_path(path, stage)) or ()
+            for stage, names in data.items()
+            if stage in STAGES
+        }
+
     def range_(self, value: Any, path: str) -> Range | None:
         """A ``[min, typical, max]`` list or a single number, all at least 0."""
         if isinstance(value, list):
@@ -785,7 +798,7 @@ class StudyReader:
             severity=self.optional(data, "severity", path, lambda v, p: self.integer(v, p, 1, 5)),
             demands=self.optional(data, "demands", path, self.demands),
             split=self.optional(data, "split", path, self.split),
-            needs=self.optional(data, "needs", path, self.strings),
+            needs=self.optional(data, "needs", path, self.needs),
             notes=self.optional(data, "notes", path, self.note),
         )
 

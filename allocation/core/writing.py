@@ -111,7 +111,9 @@ def task_to_json(task: Task) -> dict[str, Any]:
             "severity": task.severity,
             "demands": task.demands,
             "split": task.split,
-            "needs": _listed(task.needs),
+            "needs": {stage: list(names) for stage, names in task.needs.items()}
+            if isinstance(task.needs, dict)
+            else _listed(task.needs),
             "notes": task.notes,
         }
     )

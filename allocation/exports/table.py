@@ -20,6 +20,7 @@ import pandas as pd
 from allocation.core.assumptions import assumption_table
 from allocation.core.cautions import CAUTIONS
 from allocation.core.methods import methods_document
+from allocation.core.needs import needs_text
 from allocation.core.registry import (
     ASSUMPTION_STATUS_WORDS,
     FIGURES,
@@ -245,7 +246,7 @@ def tasks_table(source: ExportSource) -> pd.DataFrame:
                 "severity": task.get("severity"),
                 "demands": compact_json(task.get("demands")),
                 "split": compact_json(task.get("split")),
-                "needs": ",".join(task.get("needs") or ()),
+                "needs": needs_text(task.get("needs")),
                 "notes": task.get("notes", ""),
             }
         )

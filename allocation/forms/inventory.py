@@ -11,6 +11,7 @@ from django import forms
 
 from allocation.core import Study
 from allocation.core.limits import PAGE_ROWS
+from allocation.core.needs import needs_text, parse_needs
 from allocation.core.vocabulary import (
     AGENT_KINDS,
     CHANNELS,
@@ -248,7 +249,11 @@ class TaskForm(ItemForm):
     demand_auditory = _demand_field("auditory")
     demand_cognitive = _demand_field("cognitive")
     demand_psychomotor = _demand_field("psychomotor")
-    needs = forms.CharField(required=False, help_text="capabilities, comma-separated")
+    needs = forms.CharField(
+        required=False,
+        help_text="capabilities, comma-separated; per stage as "
+        "'decision: judgement; action: dosing'",
+    )
     notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
 
     groups = (
@@ -330,7 +335,7 @@ class TaskForm(ItemForm):
             initial["duration_typical"] = duration
         for channel, value in (item.get("demands") or {}).items():
             initial[f"demand_{channel}"] = f"{value:g}"
-        initial["needs"] = ", ".join(item.get("needs") or [])
+        initial["needs"] = needs_text(item.get("needs"))
         return initial
 
     def item(self) -> dict[str, Any]:
@@ -358,8 +363,13 @@ class TaskForm(ItemForm):
             item["demands"] = demands
         if self.existing is not None and self.existing.split is not None:
             item["split"] = dict(self.existing.split)  # kept: the editor does not show it
-        if data["needs"].strip():
-            item["needs"] = comma_words(data["needs"])
+        try:
+            needs = parse_needs(data["needs"])
+        except ValueError as problem:
+            self.add_error("needs", str(problem))
+        else:
+            if needs:
+                item["needs"] = needs
         self._text("notes", "notes", item)
         return item
 

@@ -24,6 +24,7 @@ from allocation.core.describe import (
 )
 from allocation.core.layout import goal_leaves, layered_layout, select_tasks
 from allocation.core.model import Study
+from allocation.core.needs import needs_text
 from allocation.core.registry import (
     AWARENESS_FACTORS,
     HANDOVER_SOURCES,
@@ -267,7 +268,7 @@ def task_details(page: StudyPage, analysis: PlanAnalysis | None, task_id: str) -
         "split": [
             {"stage": STAGE_NAMES[stage], "share": task.stage_split[stage]} for stage in STAGES
         ],
-        "needs": list(task.needs or ()),
+        "needs": needs_text(task.needs),
         "neighbours": neighbours,
         "plan": analysis.plan if analysis else None,
         "graph_url": reverse("study-graph", args=[page.row.pk])

@@ -154,24 +154,34 @@ def capability_findings(
     if not involved.applies or not task.needs:
         return []
     findings = []
+    # The stages each agent does: the human where the stage is not wholly automated, the
+    # automation where it has any part (methods document, #finding-capability).
     doers = []
-    if involved.human is not None and any(involved.degrees[s] < 1 for s in STAGES):
-        doers.append(involved.human)
-    if involved.automation is not None and any(involved.degrees[s] > 0 for s in STAGES):
-        doers.append(involved.automation)
+    if involved.human is not None:
+        doers.append((involved.human, [s for s in STAGES if involved.degrees[s] < 1]))
+    if involved.automation is not None:
+        doers.append((involved.automation, [s for s in STAGES if involved.degrees[s] > 0]))
     where = f" in mode {mode}" if mode else ""
-    for agent_id in doers:
+    needed = task.needs_by_stage
+    for agent_id, stages in doers:
         agent = study.agents_by_id.get(agent_id)
-        if agent is None:
+        if agent is None or not stages:
             continue
-        missing = sorted(set(task.needs) - agent.capability_set)
+        lacking = {s: sorted(needed[s] - agent.capability_set) for s in stages}
+        missing = sorted({name for names in lacking.values() for name in names})
         if missing:
+            by_stage = isinstance(task.needs, dict)
+            what = (
+                "; ".join(f"{', '.join(names)} for {s}" for s, names in lacking.items() if names)
+                if by_stage
+                else ", ".join(missing)
+            )
             findings.append(
                 Finding(
                     "capability",
                     task.severity or 1,
                     f"{agent.name} does part of {_label(study, task.id)}{where} but lacks "
-                    f"{', '.join(missing)}, which the task needs.",
+                    f"{what}, which the task needs.",
                     (task.id,),
                     (mode,) if mode else (),
                     (),

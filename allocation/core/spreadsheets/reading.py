@@ -35,6 +35,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from allocation.core import limits, load_study
+from allocation.core.needs import parse_needs
 from allocation.core.reading import parse_json_text
 from allocation.core.spreadsheets.layout import ALLOCATION_COLUMNS, LINK_COLUMNS, TASK_COLUMNS
 from allocation.core.vocabulary import STAGES
@@ -733,15 +734,15 @@ def _json(value: Any) -> Any:
     return data
 
 
-def _names(value: Any) -> list[str] | None:
-    """A comma-separated list of names (capabilities)."""
+def _needs(value: Any) -> list[str] | dict[str, list[str]] | None:
+    """Capabilities, comma-separated, or per stage (``decision: a, b; action: c``)."""
     text = _text(value)
     if text is None:
         return None
-    names = [part.strip() for part in text.split(",")]
-    if any(not part for part in names):
-        raise _CellError("has an empty name between commas")
-    return names
+    try:
+        return parse_needs(text)
+    except ValueError as problem:
+        raise _CellError(str(problem)) from None
 
 
 _STAGE_LEVEL = re.compile(r"^([A-Za-z_]+)\s*[:=]?\s*(\S+)$")
@@ -807,7 +808,7 @@ _TASK_CELLS = {
     "severity": _number,
     "demands": _json,
     "split": _json,
-    "needs": _names,
+    "needs": _needs,
     "notes": _text,
 }
 _LINK_CELLS = {
