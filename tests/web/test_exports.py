@@ -398,6 +398,13 @@ def pdf_text(data: bytes) -> str:
     return "\n".join(page.extract_text() for page in PdfReader(io.BytesIO(data)).pages)
 
 
+def pdf_body_text(data: bytes) -> str:
+    """The PDF's text without each page's running header and footer (its last two
+    lines), so that a paragraph broken across two pages reads as one."""
+    pages = [page.extract_text() for page in PdfReader(io.BytesIO(data)).pages]
+    return "\n".join(text.rsplit("\n", 2)[0] for text in pages)
+
+
 def test_report_appends_the_methods_document_with_ids_that_do_not_clash(auto):
     """Every section of the methods document is in the report under its own id, every id
     of the page is used once, and every link inside the page reaches an id."""
@@ -418,7 +425,7 @@ def test_pdf_prints_every_heading_figure_cell_and_caution_of_the_html(marked):
     """One template: whatever the HTML report shows as text, the PDF prints."""
     parser = _Shown()
     parser.feed(report_html(marked).decode("utf-8").split("<body>", 1)[1])
-    printed = squashed(pdf_text(report_pdf(marked)))
+    printed = squashed(pdf_body_text(report_pdf(marked)))
     shown = parser.items
     assert "Allocation" in shown and "Handovers" in shown and CAUTIONS in shown
     assert "0.67 / 0.67 / 0.67 / 0.67" in shown  # T2 at level 7 (module docstring)
@@ -465,9 +472,10 @@ def test_pdf_dates_and_header_follow_the_export(auto):
         assert squashed(f"snapshot {snapshot}") in squashed(text)
         assert f"page {number} of {len(pages)}" in text
         assert "2024-01-02T03:04:05Z" in text
-    # The sections that start a page do.
+    # The sections that start a page do (the appended methods document has sections of
+    # the same names, which may also fall at the top of a page).
     for heading in ("Charts", "Allocation", "Handovers", "Assumptions in force"):
-        assert sum(text.startswith(heading + " ") for text in pages) == 1, heading
+        assert any(text.startswith(heading + " ") for text in pages), heading
 
 
 def test_pdf_tables_repeat_their_header_rows_on_every_page():
