@@ -14,6 +14,8 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from .scales import EK10_LEVELS
+
 __all__ = [
     "ASSUMPTIONS",
     "METHOD_NOTES",
@@ -119,16 +121,29 @@ def _choice(options: tuple[str, ...]):
     return check
 
 
+def ek10_supervision_s(roles: tuple[str, str, str, str]) -> int:
+    """Seconds of supervision per occurrence at an ek10 level, from its roles.
+
+    Tool assumption, keyed as Endsley & Kaber's table is: by who Selects when the
+    computer Implements (the person selects: an approval, 5 s; both select: a veto
+    window, 8 s; the computer selects: a notice to read, 3 s), and none where the person
+    implements (they are doing the work) or nobody but the computer Monitors (no one
+    supervises). Levels with the same roles cost the same (methods document,
+    ``#supervision``).
+    """
+    monitoring, _generating, selecting, implementing = roles
+    if implementing != "C" or monitoring == "C":
+        return 0
+    return {"H": 5, "H/C": 8, "C": 3}[selecting]
+
+
 #: Seconds of supervision per occurrence by level (methods document, ``#supervision``),
 #: per scale. Tool assumption. sv10, by the level of the decision or action stage:
 #: approving (5), watching a veto window (6), reading a notification (7), looking things
-#: up (8, 9); 1-4 and 10 cost none. ek10, by the level's Selecting and Implementing roles: the
-#: person selects and the computer implements (3, 5, 7) costs an approval; blended
-#: selection (6) a veto window; computer selection with shared monitoring (8, 9) a
-#: notification or a look-up; the person implementing (1, 2, 4) or nobody (10) none.
+#: up (8, 9); 1-4 and 10 cost none. ek10, from each level's roles (above).
 SUPERVISION_S = {
     "sv10": {"1": 0, "2": 0, "3": 0, "4": 0, "5": 5, "6": 8, "7": 4, "8": 3, "9": 3, "10": 0},
-    "ek10": {"1": 0, "2": 0, "3": 5, "4": 0, "5": 5, "6": 8, "7": 5, "8": 4, "9": 3, "10": 0},
+    "ek10": {str(level): ek10_supervision_s(roles) for level, (_, roles) in EK10_LEVELS.items()},
 }
 
 FEEDBACK_KINDS = ("none", "on_request", "display", "alert", "alert_confirm")
