@@ -174,6 +174,11 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
     for i, task_id in enumerate(task_ids):
         task = study.task(task_id)
         base = analysis.tasks[task_id].involved
+        initial_mode = plan.modes.by_id.get(plan.modes.initial) if plan.modes else None
+        if initial_mode is not None and task_id in (initial_mode.overrides or {}):
+            # The analysis's involvement is the initial mode's override; the modes that
+            # do not override the task take the plan's own assignment.
+            base = involvement(study, task, assignment_in_mode(plan, None, task_id), assumptions)
         base_variant = len(variants)
         variants.append(base)
         for m, mode_id in enumerate(modes):
