@@ -77,7 +77,6 @@ class SimPlan:
     variant_of: np.ndarray  # tasks x modes -> variant
     variant_task: np.ndarray
     duration: np.ndarray  # variants x 3 (low, typical, high)
-    typical: np.ndarray
     stage_share: np.ndarray  # variants x 4: share of the duration the person works
     stage_offset: np.ndarray  # variants x 4: where each stage starts, share of duration
     supervision_s: np.ndarray
@@ -260,7 +259,6 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
         variant_of=variant_of,
         variant_task=variant_task,
         duration=duration,
-        typical=duration[:, 1].copy(),
         stage_share=stage_share,
         stage_offset=stage_offset,
         supervision_s=supervision,
