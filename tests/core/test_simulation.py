@@ -316,6 +316,31 @@ def test_a_skewed_duration_counts_at_its_triangular_mean():
     assert abs(values.mean() - 240) > 4 * error  # and far from the typical figure
 
 
+def test_a_night_latency_that_outlasts_the_night_moves_starts_out_of_it():
+    # Hand-worked: an event 6 times a day, evenly over the whole day, hands T1 to Pat, who
+    # sleeps 23:00-07:00 (28,800 s of 86,400) and responds in [10, 30, 50] s awake (mean
+    # 30 s) and [600, 1800, 6000] s asleep (mean (600 + 1800 + 6000) / 3 = 2,800 s, the
+    # triangular mean). A start is at night when the work arrives asleep and the asleep
+    # latency still ends before 07:00, or arrives awake within the awake latency before
+    # 23:00; arrivals are uniform over the day, so the chance is (28,800 - 2,800 + 30) /
+    # 86,400 = 0.30127 and night interruptions are 6 x 0.30127 = 1.8076 a day (not 6 / 3 =
+    # 2: the long night latency pushes some starts past 07:00).
+    document = study_file(
+        tasks=[{"id": "T1", "title": "Respond", "occurs": {"event": "e"}, "duration_s": 60}],
+        events=[{"id": "e", "name": "Alarm", "per_day": 6, "when": "any"}],
+    )
+    document["agents"][0]["response_s"] = {"awake": [10, 30, 50], "asleep": [600, 1800, 6000]}
+    study = read_study(document)
+    expected = 6 * (28_800 - 2_800 + 30) / 86_400
+    assert analyse_plan(study, "p").people["pat"].night_interruptions_per_day == pytest.approx(
+        expected
+    )
+    values = simulate(study, "p", days=3000, seed=13).figures["pat"]["night_interruptions"]
+    error = values.std(ddof=1) / np.sqrt(values.size)
+    assert abs(values.mean() - expected) <= 4 * error
+    assert abs(values.mean() - 2.0) > 4 * error
+
+
 @pytest.mark.parametrize("example", ["closed-loop-insulin", "driver-support", "home-heating"])
 def test_the_examples_expectations_agree_with_the_simulation(example):
     # The example studies have skewed durations and latencies (e.g. a bolus [5, 15, 60] s,
