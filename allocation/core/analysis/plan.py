@@ -372,21 +372,18 @@ class _Analysis:
                 else _default_initiator(study, task_id, graph, holders)
             )
             total = sum(item[0] for item in starts[task_id])
-            asleep_share = {
-                human: (
-                    sum(
-                        weight
-                        * _start_asleep_share(
-                            day, timing, pieces, latency_means[human], holders[task_id] == human
-                        )
-                        for weight, timing, day in starts[task_id]
-                    )
-                    / total
-                    if total and pieces
-                    else 0.0
-                )
-                for human, pieces in sleep.items()
-            }
+            asleep_share = dict.fromkeys(sleep, 0.0)
+            for weight, timing, day in starts[task_id] if total else ():
+                moved = None  # the chain's day shifted by the expected start, made once
+                for human, pieces in sleep.items():
+                    if not pieces:
+                        continue
+                    if holders[task_id] == human and timing.latency.mean > 0:
+                        share = _start_asleep_share(day, timing, pieces, latency_means[human])
+                    else:
+                        moved = moved or day.shifted(timing.start.mean)
+                        share = moved.share_within(pieces)
+                    asleep_share[human] += weight * share / total
             ready = (
                 sum(weight * timing.ready.typical for weight, timing, _d in starts[task_id])
                 / total
@@ -613,18 +610,16 @@ def _start_asleep_share(
     timing: TaskTiming,
     asleep: list[tuple[float, float]],
     latency_means: tuple[float, float],
-    receives: bool,
 ) -> float:
-    """The chance that a task of a chain starts inside a person's asleep window.
+    """The chance that a task of a chain, whose work reaches the person with a response
+    latency, starts inside their asleep window.
 
-    The chain's start times are shifted by the task's expected start. Where the work
-    reaches the person with a response latency, their latency is the asleep one when the
-    work arrives in their sleep and the awake one otherwise (as the simulation draws it):
-    the start is asleep when the work arrives asleep and the asleep latency leaves them
-    asleep, or arrives awake and the awake latency reaches into the window.
+    Their latency is the asleep one when the work arrives in their sleep and the awake one
+    otherwise (as the simulation draws it): the start is asleep when the work arrives
+    asleep and the asleep latency leaves them asleep, or arrives awake and the awake
+    latency reaches into the window. Without a latency, the chain's start times shifted
+    by the task's expected start place it.
     """
-    if not receives or timing.latency.mean <= 0:
-        return day.shifted(timing.start.mean).share_within(asleep)
     awake_s, asleep_s = latency_means
     stays = _overlap(asleep, _shift(asleep, -asleep_s))
     reaches = _outside(_shift(asleep, -awake_s), asleep)
