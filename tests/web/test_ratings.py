@@ -83,6 +83,9 @@ def test_page_shows_predictions_a_method_note_and_the_form(as_role, study):
     assert '<tr id="compare-T1">' in page and '<tr id="compare-T2">' in page
     t2 = page.split('<tr id="compare-T2">')[1].split("</tr>")[0]
     assert "11 s" in t2 and "Resident" in t2
+    # Beside it, labelled, the same at the typical duration: 10 s.
+    assert "(typical 10 s)" in t2
+    assert 'title="Person time per occurrence at typical durations"' in t2
     assert "Hart &amp; Staveland 1988" in page and "descriptive" in page
     assert CAUTIONS[:60] in page
     assert 'id="rating-form"' in page and "never a name" in page
