@@ -58,6 +58,7 @@ def task_rows(
                 "high": max(scores, default=None),
                 "mean_raw": statistics.fmean(raws) if raws else None,
                 "person_s": figures.person_s,
+                "typical_s": figures.typical_s,
                 "person_s_per_day": sum(figures.person_s_per_day.values()),
                 "per_day": figures.per_day,
                 "interactions_per_day": figures.per_day if figures.person_s > 0 else 0.0,

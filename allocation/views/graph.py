@@ -322,6 +322,7 @@ def _under_plan(study: Study, analysis: PlanAnalysis, task_id: str) -> dict[str,
         "levels": level_rows,
         "per_day": figures.per_day,
         "person_s": figure_text("person_s", figures.person_s),
+        "typical_s": figure_text("typical_s", figures.typical_s),
         "person_s_per_day": [
             {
                 "name": _agent_name(study, agent_id),

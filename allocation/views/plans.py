@@ -118,6 +118,7 @@ def _row(
             "category": involved.category if involved.applies else "not_applicable",
             "holder": involved.principal,
             "person_s": figures.person_s,
+            "typical_s": figures.typical_s,
             "per_day": figures.per_day,
             "person_s_per_day": sum(figures.person_s_per_day.values()),
             "awareness": None if figures.awareness is None else figures.awareness.index,

@@ -147,6 +147,9 @@ def _context(
             task["time"] = (
                 figure_text("person_s", task["person_s"], unit=False) if task["person_s"] else "—"
             )
+            task["time_typical"] = (
+                figure_text("typical_s", task["typical_s"], unit=False) if task["person_s"] else ""
+            )
             task["time_per_day"] = (
                 figure_text("person_s_per_day", task["person_s_per_day"], unit=False)
                 if task["person_s_per_day"]

@@ -108,9 +108,10 @@ def test_build_allocate_change_compare_export(signed_in):
     page.wait_for_url("**/plans/carer-only/edit")
     for task in ("T1", "T2"):
         set_row(page, task, human="carer", who="person")
-    # Hand check: 2 a night x (5 s + 300 s) = 610 s a day for the carer, 10.17 min: three
-    # significant digits in the largest unit that reads well.
-    assert headline_person_time(page) == "10.2 min a day"
+    # Hand check: T2's duration [60, 300, 900] s counts at its triangular mean
+    # (60 + 300 + 900) / 3 = 420 s, so 2 a night x (5 s + 420 s) = 850 s a day for the carer,
+    # 14.17 min: three significant digits in the largest unit that reads well.
+    assert headline_person_time(page) == "14.2 min a day"
 
     # A second plan: the monitor notices; the carer's time falls by 2 x 5 s.
     page.click("text=New plan or copy")
@@ -120,7 +121,7 @@ def test_build_allocate_change_compare_export(signed_in):
     page.wait_for_url("**/plans/monitor-notices/edit")
     expect(page.locator(".plan-picker a.active")).to_have_text("Monitor notices")
     set_row(page, "T1", automation="monitor", who="device")
-    assert headline_person_time(page) == "10 min a day"  # 600 s
+    assert headline_person_time(page) == "14 min a day"  # 2 x 420 s = 840 s
     assert page.javascript_errors == []
 
     # Compare the two plans.

@@ -59,7 +59,7 @@ def test_a_day_of_person_time_reads_in_hours():
 
 
 def test_durations_take_the_largest_unit_that_reads_well():
-    # 52 / 3 = 17.33 s (home heating, plan auto, T2: 10 s x 1/3 + 4 s + 10 s).
+    # 52 / 3 = 17.33 s, written to three significant digits.
     assert figure_text("person_s", 52 / 3) == "17.3 s"
     # 90 s = 1.5 min; 45 s stays in seconds; 2 days = 172,800 s.
     assert figure_text("monitoring_s_per_day", 90) == "1.5 min a day"

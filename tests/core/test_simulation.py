@@ -9,6 +9,7 @@ standard errors, the usual sampling-error band).
 
 from __future__ import annotations
 
+import json
 import random
 
 import numpy as np
@@ -30,6 +31,7 @@ from allocation.core.simulation import (
 )
 from allocation.core.simulation.sampling import triangular
 from allocation.core.simulation.timeline import Sweep, bin_edges
+from allocation.examples import EXAMPLES_DIR
 
 
 def study_file(tasks, links=(), events=(), plans=None, agents=None, assumptions=None) -> dict:
@@ -252,58 +254,170 @@ def test_peak_and_overload_of_concurrent_demands_in_a_day():
 
 # -- agreement with the analytic engine -------------------------------------------------
 
-AGREEING = study_file(
-    tasks=[
-        {"id": "T1", "title": "Notice", "occurs": {"event": "e"}, "duration_s": [10, 20, 30]},
-        {"id": "T2", "title": "Decide", "duration_s": [40, 60, 80]},
-        {"id": "T3", "title": "Act", "duration_s": 30},
-        {
-            "id": "T4",
-            "title": "Routine",
-            "occurs": {"per_day": 4, "when": "any"},
-            "duration_s": [100, 120, 140],
-        },
-        {"id": "T5", "title": "Review", "occurs": {"every_days": 3}, "duration_s": 600},
-    ],
-    links=[
-        {"from": "T1", "to": "T2", "kind": "precedes", "lag_s": [0, 30]},
-        {"from": "T2", "to": "T3", "kind": "precedes", "probability": 0.5},
-    ],
-    events=[{"id": "e", "name": "Event", "per_day": 8, "when": "any"}],
-    plans=[
-        {
-            "id": "p",
-            "name": "Plan",
-            "assignments": {
-                "T1": {"automation": "pump", "accountable": "pat"},
-                "T2": {"human": "pat", "automation": "pump", "levels": 5},
-                "T3": {"human": "pat"},
-                "T4": {"human": "pat", "automation": "pump", "levels": 7},
-                "T5": {"human": "pat"},
-            },
-        }
-    ],
+#: Each person's simulated daily figure and the analytic figure that is its expectation.
+EXPECTATIONS = (
+    ("burden_s", "burden_s_per_day"),
+    ("interactions", "interactions_per_day"),
+    ("interruptions", "interruptions_per_day"),
+    ("night_interruptions", "night_interruptions_per_day"),
+    ("monitoring_s", "monitoring_s_per_day"),
 )
 
 
-@pytest.mark.parametrize(
-    ("figure", "analytic"),
-    [
-        ("burden_s", "burden_s_per_day"),
-        ("interactions", "interactions_per_day"),
-        ("interruptions", "interruptions_per_day"),
-        ("night_interruptions", "night_interruptions_per_day"),
-        ("monitoring_s", "monitoring_s_per_day"),
-    ],
-)
-def test_simulated_means_agree_with_the_analytic_figures(figure, analytic):
-    # Symmetric duration ranges (mean = typical), rates over the whole day: the analytic
-    # figures are exact expectations here, so the means must lie within 4 standard errors.
-    study = read_study(AGREEING)
-    values = simulate(study, "p", days=1500, seed=21).figures["pat"][figure]
-    expected = getattr(analyse_plan(study, "p").people["pat"], analytic)
+def assert_expectations_agree(study, plan_id: str, days: int, seed: int) -> None:
+    """Every person's simulated mean of each daily figure lies within 4 standard errors
+    (the usual sampling-error band) of the analytic figure, its expectation."""
+    run = simulate(study, plan_id, days=days, seed=seed)
+    people = analyse_plan(study, plan_id).people
+    for human, person in people.items():
+        for figure, analytic in EXPECTATIONS:
+            values = run.figures[human][figure]
+            expected = getattr(person, analytic)
+            error = values.std(ddof=1) / np.sqrt(values.size)
+            assert abs(values.mean() - expected) <= 4 * error + 1e-9, (
+                plan_id,
+                human,
+                figure,
+                values.mean(),
+                expected,
+                error,
+            )
+
+
+def test_a_skewed_duration_counts_at_its_triangular_mean():
+    # Hand-worked: one task, duration [60, 120, 420] s, done by Pat twice a day. The
+    # triangular distribution's mean is (a + b + c) / 3 = (60 + 120 + 420) / 3 = 200 s
+    # (Evans, Hastings & Peacock 2000, ch. 40; scipy.stats.triang with c = (120 - 60) /
+    # (420 - 60) = 1/6, loc 60, scale 360 gives the same), so the expected time a day is
+    # 2 x 200 = 400 s, not 2 x 120 = 240 s at the typical duration.
+    assert stats.triang(1 / 6, loc=60, scale=360).mean() == pytest.approx(200)
+    study = read_study(
+        study_file(
+            tasks=[
+                {
+                    "id": "T1",
+                    "title": "Check",
+                    "occurs": {"times": ["09:00", "17:00"]},
+                    "duration_s": [60, 120, 420],
+                }
+            ]
+        )
+    )
+    analysis = analyse_plan(study, "p")
+    assert analysis.people["pat"].burden_s_per_day == pytest.approx(400)
+    task = analysis.to_json()["tasks"]["T1"]
+    assert task["expected_s"] == pytest.approx(200)
+    assert task["typical_s"] == pytest.approx(120)
+    assert task["person_s"] == pytest.approx(200)
+    # The simulation draws the durations: its mean day is 400 s within 4 standard errors.
+    values = simulate(study, "p", days=2000, seed=9).figures["pat"]["burden_s"]
     error = values.std(ddof=1) / np.sqrt(values.size)
-    assert abs(values.mean() - expected) <= 4 * error + 1e-9
+    assert abs(values.mean() - 400) <= 4 * error
+    assert abs(values.mean() - 240) > 4 * error  # and far from the typical figure
+
+
+def test_a_night_latency_that_outlasts_the_night_moves_starts_out_of_it():
+    # Hand-worked: an event 6 times a day, evenly over the whole day, hands T1 to Pat, who
+    # sleeps 23:00-07:00 (28,800 s of 86,400) and responds in [10, 30, 50] s awake (mean
+    # 30 s) and [600, 1800, 6000] s asleep (mean (600 + 1800 + 6000) / 3 = 2,800 s, the
+    # triangular mean). A start is at night when the work arrives asleep and the asleep
+    # latency still ends before 07:00, or arrives awake within the awake latency before
+    # 23:00; arrivals are uniform over the day, so the chance is (28,800 - 2,800 + 30) /
+    # 86,400 = 0.30127 and night interruptions are 6 x 0.30127 = 1.8076 a day (not 6 / 3 =
+    # 2: the long night latency pushes some starts past 07:00).
+    document = study_file(
+        tasks=[{"id": "T1", "title": "Respond", "occurs": {"event": "e"}, "duration_s": 60}],
+        events=[{"id": "e", "name": "Alarm", "per_day": 6, "when": "any"}],
+    )
+    document["agents"][0]["response_s"] = {"awake": [10, 30, 50], "asleep": [600, 1800, 6000]}
+    study = read_study(document)
+    expected = 6 * (28_800 - 2_800 + 30) / 86_400
+    assert analyse_plan(study, "p").people["pat"].night_interruptions_per_day == pytest.approx(
+        expected
+    )
+    values = simulate(study, "p", days=3000, seed=13).figures["pat"]["night_interruptions"]
+    error = values.std(ddof=1) / np.sqrt(values.size)
+    assert abs(values.mean() - expected) <= 4 * error
+    assert abs(values.mean() - 2.0) > 4 * error
+
+
+@pytest.mark.parametrize("example", ["closed-loop-insulin", "driver-support", "home-heating"])
+def test_the_examples_expectations_agree_with_the_simulation(example):
+    # The example studies have skewed durations and latencies (e.g. a bolus [5, 15, 60] s,
+    # a person's night latency [60, 600, 3600] s) and mode maps; every plan's analytic
+    # daily figures are expectations and agree with 1,500 simulated days.
+    study = read_study(json.loads((EXAMPLES_DIR / f"{example}.json").read_text("utf-8")))
+    for plan in study.plans:
+        assert_expectations_agree(study, plan.id, days=1500, seed=21)
+
+
+def skewed_study(seed: int) -> dict:
+    """A generated study with skewed ranges: a tree of tasks below an event that occurs
+    while Pat is awake, asleep or at any time, with durations such as [1, 2, 30] and
+    latencies with long right tails, each task Pat's, the pump's or shared."""
+    rng = np.random.default_rng(seed)
+    count = int(rng.integers(4, 7))
+    tasks, links, assignments = [], [], {}
+    for i in range(count):
+        low = float(rng.choice([1, 5, 20, 60]))
+        typical = low * float(rng.choice([1.5, 2, 3]))
+        high = typical * float(rng.choice([5, 10, 15]))
+        task = {"id": f"T{i}", "title": f"Task {i}", "duration_s": [low, typical, high]}
+        if i == 0:
+            task["occurs"] = {"event": "e"}
+        else:
+            source = int(rng.integers(0, i))  # one predecessor each: a tree
+            lag = float(rng.choice([0, 60, 600, 1800]))
+            links.append(
+                {
+                    "from": f"T{source}",
+                    "to": f"T{i}",
+                    "kind": "precedes",
+                    "lag_s": [0, lag],
+                    "probability": float(rng.choice([1.0, 0.5])),
+                }
+            )
+        tasks.append(task)
+        who = rng.choice(["human", "automation", "shared"])
+        if who == "human":
+            assignments[f"T{i}"] = {"human": "pat"}
+        elif who == "automation":
+            assignments[f"T{i}"] = {"automation": "pump", "accountable": "pat"}
+        else:
+            assignments[f"T{i}"] = {
+                "human": "pat",
+                "automation": "pump",
+                "levels": int(rng.integers(2, 10)),
+            }
+    when = str(rng.choice(["awake", "asleep", "any"]))
+    return study_file(
+        tasks=tasks,
+        links=links,
+        events=[{"id": "e", "name": "Event", "per_day": 6, "when": when}],
+        plans=[{"id": "p", "name": "Plan", "assignments": assignments}],
+        agents=[
+            {
+                "id": "pat",
+                "name": "Pat",
+                "kind": "human",
+                "asleep": ["23:00", "07:00"],
+                "response_s": {"awake": [5, 10, 300], "asleep": [60, 120, 3600]},
+            },
+            {
+                "id": "pump",
+                "name": "Pump",
+                "kind": "automation",
+                "response_s": {"any": [1, 2, 30]},
+            },
+        ],
+    )
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3, 4, 5, 6])
+def test_generated_skewed_studies_expectations_agree_with_the_simulation(seed):
+    # Skewed durations, lags and latencies: the typical value is far from the mean, so
+    # figures at typical values would miss by many standard errors.
+    assert_expectations_agree(read_study(skewed_study(seed)), "p", days=1500, seed=seed)
 
 
 def test_modes_hand_work_over_in_the_share_of_the_day_the_analysis_gives():
@@ -362,16 +476,50 @@ def test_modes_hand_work_over_in_the_share_of_the_day_the_analysis_gives():
     assert day["modes"][0] == [0.0, "auto"] and len(day["modes"]) > 1
 
 
+def window_miss_probability() -> float:
+    """The chance that CHAIN's T2 finishes more than 150 s after the event, computed
+    independently of Baton by numerical convolution of the densities (scipy.stats).
+
+    The finish is T1 (the pump's, triangular 10-20-30 s) + the lag (uniform 0-60 s) + Pat's
+    latency (the work changes hands: triangular 10-30-50 s awake, 60-300-540 s asleep) +
+    T2 (triangular 30-60-90 s). The event occurs evenly over the whole day, so the work
+    reaches Pat while asleep (23:00-07:00) with probability 8/24 = 1/3, whatever the
+    short delay before it.
+    """
+    step = 0.05
+    grid = np.arange(0, 800, step)
+
+    def density(distribution):
+        return distribution.pdf(grid) * step
+
+    t1 = density(stats.triang(0.5, loc=10, scale=20))
+    lag = density(stats.uniform(loc=0, scale=60))
+    t2 = density(stats.triang(0.5, loc=30, scale=60))
+    base = np.convolve(np.convolve(t1, lag), t2)
+    miss = []
+    for low, mode, high in ((10, 30, 50), (60, 300, 540)):
+        latency = density(stats.triang((mode - low) / (high - low), loc=low, scale=high - low))
+        total = np.convolve(base, latency)
+        miss.append(total[int(round(150 / step)) :].sum() / total.sum())
+    return 2 / 3 * miss[0] + 1 / 3 * miss[1]
+
+
 def test_window_misses_per_chain():
-    # T2 must finish within 150 s of the event; by hand: T1 10-30 s, lag 0-60 s, Pat's
-    # latency 10-50 s awake (60-540 s asleep, a third of the day), T2 30-90 s: the latest
-    # awake finish is 230 s, so some awake chains and most asleep ones miss it.
+    # T2 must finish within 150 s of the event: the simulated share of missed windows
+    # agrees with the probability computed by numerical convolution (scipy.stats), within
+    # 4 binomial standard errors.
+    expected = window_miss_probability()
+    # By hand, a bracket: asleep, the latency alone is typically 300 s, so nearly every
+    # asleep chain misses (1/3 of them); awake, the finish ranges 80-230 s around a mean
+    # of 20 + 30 + 30 + 60 = 140 s, so fewer than half miss.
+    assert 1 / 3 < expected < 1 / 3 + 2 / 3 * 0.5
     study = read_study(CHAIN)
-    summary = simulate(study, "p", days=300, seed=2).summary()
+    summary = simulate(study, "p", days=600, seed=2).summary()
     (chain,) = summary["chains"]
     assert chain["name"] == "Event"
-    assert 0.05 < chain["missed_share"] < 0.95
     assert chain["tasks"][0]["task"] == "T2"
+    error = np.sqrt(expected * (1 - expected) / chain["happenings"])
+    assert abs(chain["missed_share"] - expected) <= 4 * error
 
 
 def test_work_counts_on_the_day_it_starts_even_across_midnight_and_chunks():

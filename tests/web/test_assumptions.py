@@ -3,8 +3,9 @@ figures moving with it.
 
 Expected changes are worked by hand on the home-heating test study (see the
 docstring of ``tests/web/test_figures_dashboards.py``): in plan "auto" the resident monitors T2,
-which occurs once a day, and supervises it at sv10 level 7 (4 s by default); their time
-a day is 10/3 + 4 + 10 = 52/3 s. The handovers of plan "auto" have risks 6 and 4.
+which occurs once a day, and supervises it at sv10 level 7 (4 s by default); with T2's
+duration [3, 10, 20] s at its triangular mean (3 + 10 + 20) / 3 = 11 s, their time a day
+is 11/3 + 4 + 10 = 53/3 s (17.7 s). The handovers of plan "auto" have risks 6 and 4.
 """
 
 from __future__ import annotations
@@ -55,7 +56,7 @@ def test_page_lists_every_assumption_method_note_and_the_policy(client, study, o
     assert 'data-figure="figure-policy"' in page and "json_script" not in page
     # The owner gets edit controls; the figures box shows each plan.
     assert page.count(">Edit</a>") == len(ASSUMPTIONS) and "Edit the policy" in page
-    assert 'id="assumption-headlines"' in page and "17.3" in page
+    assert 'id="assumption-headlines"' in page and "17.7" in page
 
 
 def test_row_fragments_for_htmx(client, study, owner):
@@ -85,7 +86,7 @@ def test_raising_monitoring_raises_the_burden_by_occurrences_times_the_differenc
 ):
     client.force_login(owner)
     before = resident_burden(study)
-    assert before == pytest.approx(52 / 3)
+    assert before == pytest.approx(53 / 3)
     response = client.post(set_url(study), {"key": "monitoring_s", "value": "20"}, headers=HTMX)
     assert response.status_code == 200
     assert stored(study)[0] == {"monitoring_s": 20}
@@ -98,7 +99,7 @@ def test_raising_monitoring_raises_the_burden_by_occurrences_times_the_differenc
     fragment = response.content.decode()
     assert fragment.startswith('<tr id="assumption-monitoring_s"')
     assert '<section id="assumption-headlines"' in fragment and 'hx-swap-oob="true"' in fragment
-    assert "27.3" in fragment and "was 17.3" in fragment
+    assert "27.7" in fragment and "was 17.7" in fragment
     assert response["HX-Trigger"] == '{"assumptions-changed": {"key": "monitoring_s"}}'
 
 
@@ -177,8 +178,8 @@ def test_reset_goes_back_to_the_default(client, study, owner):
         reverse("study-assumption-reset", args=[study.pk]), {"key": "monitoring_s"}, headers=HTMX
     )
     assert stored(study)[0] == {}
-    assert resident_burden(study) == pytest.approx(52 / 3)
-    assert "was 27.3" in response.content.decode()
+    assert resident_burden(study) == pytest.approx(53 / 3)
+    assert "was 27.7" in response.content.decode()
     assert "assumptions-changed" in response["HX-Trigger"]
 
 

@@ -2,12 +2,12 @@
 the weight form.
 
 Expected values are worked by hand from the methods document (#person-time) on the
-home-heating test study
-(see tests/core/analysis/test_compare.py for the arithmetic): manual 15 person s/day,
-auto 52/3 = 17.33 (+2.33); task T2 +22/3 = +7.3, T1 −5.0. The objective with the
-default weights (tool assumption ``objective_weights``): auto is the worse plan in burden
-(weight 1), highest handover risk (weight 2) and mean awareness (weight 1) and equal in
-the rest, so manual scores 0 and auto 1 + 2 + 1 = 4.
+home-heating test study, durations at their triangular means (min + typical + max) / 3
+(see tests/core/analysis/test_compare.py for the arithmetic): manual 70/3 = 23.33 person
+s/day, auto 53/3 = 17.67 (−5.67); task T1 −37/3 = −12.3, T2 +20/3 = +6.7. The objective
+with the default weights (tool assumption ``objective_weights``): manual is the worse plan
+in burden (weight 1); auto in highest handover risk (weight 2), mean awareness (weight 1)
+and findings (weight 1), equal in the rest, so manual scores 1 and auto 2 + 1 + 1 = 4.
 """
 
 from __future__ import annotations
@@ -63,14 +63,15 @@ def test_full_page_compares_all_plans_by_default(client, study, owner):
     assert 'name="plan" value="manual" checked' in page
     assert 'name="plan" value="auto" checked' in page
     assert '<option value="manual" selected>' in page
-    # Headline: 15.0 against 17.3, worse by 2.3 (lower is better).
-    assert '<td class="num">15.0</td>' in page
-    assert re.search(r"17\.3 <span class=\"cmp cmp-worse\"[^>]*>\+2\.3", page)
+    # Headline (expected durations, hand-worked in tests/core/analysis/test_compare.py):
+    # 70/3 = 23.3 against 53/3 = 17.7, better by 17/3 = 5.7 (lower is better).
+    assert '<td class="num">23.3</td>' in page
+    assert re.search(r"17\.7 <span class=\"cmp cmp-better\"[^>]*>−5\.7", page)
     assert "higher is better" in page and "lower is better" in page
-    # Burden moved, largest first: T2 +7.3 before T1 −5.0.
+    # Burden moved, largest first: T1 −37/3 = −12.3 before T2 +20/3 = +6.7.
     burden = page[page.index('id="compare-burden"') : page.index('id="compare-handovers"')]
-    assert burden.index("<code>T2</code>") < burden.index("<code>T1</code>")
-    assert "+7.3" in burden and "−5.0" in burden
+    assert burden.index("<code>T1</code>") < burden.index("<code>T2</code>")
+    assert "+6.7" in burden and "−12.3" in burden
     assert 'data-figure="compare-burden-chart"' in burden
     assert '<script id="compare-burden-chart" type="application/json">' in burden
     # The two mode handovers of auto appear. Findings: manual's capability finding goes;
@@ -80,8 +81,8 @@ def test_full_page_compares_all_plans_by_default(client, study, owner):
     assert "5 appear, 1 go, 0 in both." in page
     # Finding kinds in the registry's words.
     assert "Accountable without holding the task" in page and "Capability missing" in page
-    # Objective: manual 0, auto 5 (hand-worked in tests/core/analysis/test_compare.py).
-    assert ranking_rows(page) == [("manual", "0.000"), ("auto", "5.000")]
+    # Objective: manual 1, auto 4 (hand-worked in tests/core/analysis/test_compare.py).
+    assert ranking_rows(page) == [("manual", "1.000"), ("auto", "4.000")]
     assert '<script id="compare-contributions" type="application/json">' in page
     # The owner may change the weights; the method and cautions are shown.
     assert "Save weights and rank again" in page
@@ -94,9 +95,9 @@ def test_baseline_comes_first_and_differences_turn(client, study, owner):
     page = client.get(compare_url(study, "baseline=auto&plan=manual&plan=auto")).content.decode()
     headline = page[page.index('id="compare-headline"') : page.index('id="compare-against"')]
     assert headline.index("<code>auto</code>") < headline.index("<code>manual</code>")
-    assert re.search(r"15\.0 <span class=\"cmp cmp-better\"[^>]*>−2\.3", headline)
+    assert re.search(r"23\.3 <span class=\"cmp cmp-worse\"[^>]*>\+5\.7", headline)
     # The ranking does not depend on which plan is the baseline.
-    assert ranking_rows(page) == [("manual", "0.000"), ("auto", "5.000")]
+    assert ranking_rows(page) == [("manual", "1.000"), ("auto", "4.000")]
 
 
 def test_plan_picker_by_htmx_gets_the_comparison_only(client, study, owner):
@@ -274,7 +275,7 @@ def test_viewers_and_reviewers_see_the_ranking_but_may_not_change_it(
 ):
     client.force_login(member_of(role))
     page = client.get(compare_url(study)).content.decode()
-    assert ranking_rows(page) == [("manual", "0.000"), ("auto", "5.000")]
+    assert ranking_rows(page) == [("manual", "1.000"), ("auto", "4.000")]
     assert "Save weights and rank again" not in page
     assert "Weights in force" in page
     data = {**weight_form(findings=5), "plan": ["manual", "auto"]}

@@ -2,9 +2,10 @@
 file from a snapshot, the download views and ``export_study --format``.
 
 Hand-worked values: under the plan "manual" of the home-heating test study the
-resident does T1 (typical 5 s) and T2 (typical 10 s) once a day (the "leave" event at
-08:15, T2 follows T1 with probability 1), so person time is 5 s and 10 s a day and every
-stage degree is 0. Under "auto", T2 is shared at level 7 on the ten-level scale, so each
+resident does T1 ([2, 5, 30] s) and T2 ([3, 10, 20] s) once a day (the "leave" event at
+08:15, T2 follows T1 with probability 1), so person time, at the durations' triangular
+means (min + typical + max) / 3, is 37/3 = 12.333 s and 11 s a day, and every stage
+degree is 0. Under "auto", T2 is shared at level 7 on the ten-level scale, so each
 stage's degree is (7 - 1) / 9 = 0.6667 and its words are level 7 of Table I of
 Parasuraman, Sheridan & Wickens (2000): "executes automatically, then necessarily informs
 the human".
@@ -106,7 +107,7 @@ def test_allocation_table_has_the_layout_columns_and_hand_worked_values():
     assert list(manual["goal"]) == ["G1", "G1"]
     assert list(manual["category"]) == ["person", "person"]
     assert list(manual["occurrences_per_day"]) == [1.0, 1.0]
-    assert list(manual["person_s_per_day"]) == [5.0, 10.0]
+    assert list(manual["person_s_per_day"]) == [12.333, 11.0]  # rounded to 3 decimals
     assert (manual[[f"degree_{s}" for s in ("acquisition", "action")]] == 0).all().all()
 
     auto = allocation_table(source_of(copy.deepcopy(HOME_HEATING), "auto")).set_index("task")
@@ -629,7 +630,7 @@ def test_workload_sheet_lists_ratings_beside_the_predicted_figures(client, owner
     ]
     row = sheet.iloc[0]
     assert (row["task"], row["participant"], row["kind"], row["score"]) == ("T2", "P01", "raw", 25)
-    assert row["predicted_person_s_per_day"] == 10.0  # hand-worked (module docstring)
+    assert row["predicted_person_s_per_day"] == 11.0  # hand-worked (module docstring)
     assert row["predicted_category"] == "person"
 
 

@@ -3,12 +3,14 @@
 The home-heating test study (``tests.core.conftest.HOME_HEATING``), worked by hand
 with Baton's defaults (``allocation.core.assumptions``):
 
-- plan ``manual``: the resident does T1 (typical 5 s) and T2 (typical 10 s), each once a
-  day (the ``leave`` event at 08:15 starts T1, which precedes T2): 15 s a day;
+- durations count at their triangular mean (min + typical + max) / 3 (Evans, Hastings &
+  Peacock 2000, ch. 40): T1 [2, 5, 30] s -> 37/3 s, T2 [3, 10, 20] s -> 11 s;
+- plan ``manual``: the resident does T1 (37/3 s) and T2 (11 s), each once a day (the
+  ``leave`` event at 08:15 starts T1, which precedes T2): 70/3 s a day;
 - plan ``auto``: T1 is the thermostat's; T2 is shared at sv10 level 7 on every stage, so
   each stage's degree is (7 - 1) / 9 = 2/3 (Parasuraman, Sheridan & Wickens 2000, Table I)
-  and the resident keeps 1/3 of 10 s, plus 4 s of supervision at level 7 and 10 s of
-  monitoring (accountable but not the principal holder, since 2/3 > 1/2): 52/3 s a day.
+  and the resident keeps 1/3 of 11 s, plus 4 s of supervision at level 7 and 10 s of
+  monitoring (accountable but not the principal holder, since 2/3 > 1/2): 53/3 s a day.
 """
 
 from __future__ import annotations
@@ -51,7 +53,7 @@ def insulin_hybrid():
 
 
 def test_daily_bars_equal_the_person_figures_worked_by_hand(heating_manual, heating_auto):
-    for analysis, burden in ((heating_manual, 15.0), (heating_auto, 52 / 3)):
+    for analysis, burden in ((heating_manual, 70 / 3), (heating_auto, 53 / 3)):
         person = analysis.people["resident"]
         assert person.burden_s_per_day == pytest.approx(burden)
         figure = charts.daily_figures_chart(analysis)
@@ -85,7 +87,7 @@ def test_each_person_keeps_one_colour_in_every_chart(insulin_hybrid):
 
 def test_time_by_goal_sums_the_leaves_under_each_goal(heating_manual, heating_auto):
     # One top-level goal G1 over T1 and T2 (by hand, see the module docstring).
-    for analysis, seconds in ((heating_manual, 15.0), (heating_auto, 52 / 3)):
+    for analysis, seconds in ((heating_manual, 70 / 3), (heating_auto, 53 / 3)):
         rows = charts.goal_person_time(analysis)
         assert [(row["task"], row["depth"], row["leaves"]) for row in rows] == [
             ("G1", 0, ["T1", "T2"])
@@ -97,7 +99,7 @@ def test_time_by_goal_sums_the_leaves_under_each_goal(heating_manual, heating_au
 
 def test_time_by_goal_shows_sub_goals_and_loose_tasks():
     """G1 > G2 > T2, T1 directly under G1, and a task T3 outside any goal (manual plan:
-    T1 5 s, T2 10 s and T3 8 s, each once a day)."""
+    T1 37/3 s, T2 11 s and T3 8 s, each once a day, from the module docstring)."""
     document = copy.deepcopy(HOME_HEATING)
     document["tasks"].insert(1, {"id": "G2", "parent": "G1", "title": "Set back the heating"})
     document["tasks"][3]["parent"] = "G2"  # T2
@@ -114,8 +116,8 @@ def test_time_by_goal_shows_sub_goals_and_loose_tasks():
     document["plans"][1]["assignments"]["T3"] = {"human": "resident"}
     rows = charts.goal_person_time(analysed(document, "manual"))
     assert [(row["task"], row["depth"], row["seconds"]["resident"]) for row in rows] == [
-        ("G1", 0, pytest.approx(15.0)),
-        ("G2", 1, pytest.approx(10.0)),
+        ("G1", 0, pytest.approx(70 / 3)),
+        ("G2", 1, pytest.approx(11.0)),
         (None, 0, pytest.approx(8.0)),
     ]
     labels = charts.goal_time_chart(analysed(document, "manual"))["data"][0]["y"]

@@ -346,7 +346,10 @@ def test_details_fragment_for_htmx(client, study, owner):
 
 def test_details_page_shows_the_task_under_the_plan(client, study, owner):
     """T2 under "auto": shared at sv10 level 7 on every stage, so each stage's degree is
-    (7 - 1) / 9 = 0.67 and the thermostat is the principal holder (0.67 > 0.5)."""
+    (7 - 1) / 9 = 0.67 and the thermostat is the principal holder (0.67 > 0.5). The
+    resident's time per occurrence: 1/3 of the duration [3, 10, 20] s + 4 s supervision +
+    10 s monitoring; expected, at the triangular mean (3 + 10 + 20) / 3 = 11 s: 53/3 =
+    17.7 s; at the typical 10 s: 52/3 = 17.3 s."""
     client.force_login(owner)
     response = client.get(task_url(study, "T2", "auto"))
     page = response.content.decode()
@@ -369,6 +372,8 @@ def test_details_page_shows_the_task_under_the_plan(client, study, owner):
         "Automation of decision and action",
         "Mode change",  # the hold mode hands T2 to the resident
         "Back to the graph",
+        "<dt>Expected person time per occurrence</dt><dd>17.7 s",
+        "<dt>Person time per occurrence at typical durations</dt><dd>17.3 s</dd>",
         CAUTIONS[:60],
     ):
         assert text in page, text

@@ -26,6 +26,17 @@ def test_editor_lists_every_leaf_under_its_goal(client, study, owner):
     assert "Parasuraman, Sheridan &amp; Wickens 2000" in page
 
 
+def test_rows_show_the_expected_person_time_with_the_typical_beside_it(client, study, owner):
+    # Hand-worked: under "manual" the resident does T2 ([3, 10, 20] s) alone, once a day:
+    # expected (3 + 10 + 20) / 3 = 11 s (the triangular mean), typical 10 s.
+    client.force_login(owner)
+    page = client.get(editor(study.pk)).content.decode()
+    row = page.split('id="row-T2"')[1].split("</tr>")[0]
+    assert "× 11 s" in row
+    assert "(typical 10 s)" in row
+    assert 'title="Person time per occurrence at typical durations"' in row
+
+
 def test_row_save_answers_the_row_and_the_headline_out_of_band(client, study, owner):
     client.force_login(owner)
     response = client.post(

@@ -4,8 +4,9 @@ the audit entries, and the ratings shown beside Baton's predicted figures.
 
 Predicted figures are checked against hand-worked values of the home-heating study
 (tests/core/conftest.py): under plan "manual" the resident does T1 and T2 by hand, so the
-person time per occurrence is the whole typical duration (Methods, #person-time): 5 s
-for T1, 10 s for T2.
+person time per occurrence is the whole expected duration, the triangular mean
+(min + typical + max) / 3 (Methods, #person-time): (2 + 5 + 30) / 3 = 12.3 s for T1,
+(3 + 10 + 20) / 3 = 11 s for T2.
 """
 
 from __future__ import annotations
@@ -78,10 +79,13 @@ def as_role(client, member_of):
 def test_page_shows_predictions_a_method_note_and_the_form(as_role, study):
     page = as_role("reviewer").get(page_url(study)).content.decode()
     assert "No task has been rated under this plan yet" in page
-    # Hand-worked: manual plan, person-only tasks cost their typical duration.
+    # Hand-worked: manual plan, person-only tasks cost their expected duration.
     assert '<tr id="compare-T1">' in page and '<tr id="compare-T2">' in page
     t2 = page.split('<tr id="compare-T2">')[1].split("</tr>")[0]
-    assert "10 s" in t2 and "Resident" in t2
+    assert "11 s" in t2 and "Resident" in t2
+    # Beside it, labelled, the same at the typical duration: 10 s.
+    assert "(typical 10 s)" in t2
+    assert 'title="Person time per occurrence at typical durations"' in t2
     assert "Hart &amp; Staveland 1988" in page and "descriptive" in page
     assert CAUTIONS[:60] in page
     assert 'id="rating-form"' in page and "never a name" in page
@@ -117,10 +121,10 @@ def test_a_reviewer_records_a_weighted_rating_from_the_fifteen_pairs(as_role, st
     page = client.get(response["Location"]).content.decode()
     assert "Recorded P01&#x27;s ratings of T2: Weighted TLX 60.0." in page
     t2 = page.split('<tr id="compare-T2"')[1].split("</tr>")[0]
-    # The rating beside the prediction: mean 60.0, raw 47.5, predicted 10 s.
-    assert "<strong>60.0</strong>" in t2 and "47.5" in t2 and "10 s" in t2
+    # The rating beside the prediction: mean 60.0, raw 47.5, predicted 11 s.
+    assert "<strong>60.0</strong>" in t2 and "47.5" in t2 and "11 s" in t2
     chart = figure(page, "figure-tlx-scatter")
-    assert chart["data"][0]["x"] == [10.0] and chart["data"][0]["y"] == [60.0]
+    assert chart["data"][0]["x"] == [pytest.approx(11.0)] and chart["data"][0]["y"] == [60.0]
     assert chart["data"][0]["text"] == ["T2"]
 
 

@@ -13,9 +13,10 @@ The expected open items are worked by hand from the home-heating test study
   threshold of 10, so neither is open. Five findings: accountability, ambiguous
   indication, error state, uncued change, unforeseen transition. Six open items.
 - T2's person time under ``auto``: level 7 on every stage gives d = (7 - 1) / 9 = 2/3
-  (Parasuraman et al. 2000 levels; Methods, #person-time), so 10 s x 1/3 + 4 s supervision at
-  level 7 + 10 s monitoring (the accountable resident does not hold it; Pritchett, Kim
-  & Feigh 2014) = 17.33 s per occurrence, once a day.
+  (Parasuraman et al. 2000 levels; Methods, #person-time), and T2's duration [3, 10, 20] s
+  counts at its triangular mean (3 + 10 + 20) / 3 = 11 s, so 11 s x 1/3 + 4 s supervision
+  at level 7 + 10 s monitoring (the accountable resident does not hold it; Pritchett, Kim
+  & Feigh 2014) = 53/3 = 17.67 s per occurrence, once a day.
 """
 
 from __future__ import annotations
@@ -85,8 +86,8 @@ def test_assignment_item_shows_who_level_words_and_figures(study):
     assert facts["Who"] == "Resident with Thermostat"
     # Sheridan & Verplank (1978) level 7, as Parasuraman et al. (2000) Table I words it.
     assert facts["Level"] == "level 7: executes automatically, then necessarily informs the human"
-    # Figures and the status in the registry's words (17.33 s reads 17.3 s).
-    assert facts["Person time on the task"] == "17.3 s a day"
+    # Figures and the status in the registry's words (17.67 s reads 17.7 s).
+    assert facts["Person time on the task"] == "17.7 s a day"
     assert facts["Status"] == "Proposed"
     assert facts["Handover points"] == "2"
     assert item.message == "Set-back saves energy without effort."
@@ -414,7 +415,7 @@ def test_workshop_walks_the_open_items_one_by_one(client, study):
     base = url("plan-workshop", study)
     first = client.get(base).content.decode()
     assert "Item <strong>1</strong> of <strong>6</strong>" in first
-    assert "T2 Lower the set point" in first and "17.3 s a day" in first
+    assert "T2 Lower the set point" in first and "17.7 s a day" in first
     assert f'rel="next" href="{base}?item=2"' in first and 'rel="prev"' not in first
     second = client.get(base + "?item=2").content.decode()
     assert "Item <strong>2</strong> of <strong>6</strong>" in second

@@ -16,6 +16,18 @@ the share of the moments the work reaches them (the chain's starts, shifted by w
 work typically arrives) that fall in their asleep window (typical), and spans both where
 both can happen (earliest, latest). A task's ``window_s`` is measured from the
 start of its chain; a latest finish beyond it is a ``window_missed`` finding.
+
+Beside these, each span carries an expected value (``mean``) under the distributions the
+simulation draws: a duration or latency at its triangular mean (min + typical + max) / 3,
+a lag at its midpoint (uniform), added along the chain; at a join the later of the
+expected arrivals (exact without joins, a lower bound on the expected later arrival with
+them). The time-of-day figures shift a chain's start by the expected start of each task.
+
+References
+----------
+.. [1] Evans, M., Hastings, N., & Peacock, B. (2000). Statistical Distributions (3rd ed.),
+   ch. 40 (triangular distribution, mean (a + b + c) / 3) and ch. 41 (uniform
+   distribution, mean (a + b) / 2).
 """
 
 from __future__ import annotations
@@ -33,7 +45,7 @@ __all__ = ["ChainTiming", "Span", "TaskTiming", "chain_timings", "response_laten
 
 
 class Span(NamedTuple):
-    """Earliest, typical and latest values, in seconds.
+    """Earliest, typical and latest values, and the expected value, in seconds.
 
     A named tuple of floats rather than a dataclass: chains make many of them, and the
     garbage collector skips tuples that hold only numbers.
@@ -42,32 +54,45 @@ class Span(NamedTuple):
     low: float
     typical: float
     high: float
+    mean: float
 
     def __add__(self, other: Span) -> Span:  # type: ignore[override]
         if other is ZERO:  # shared, not copied: a chain holds many of them
             return self
-        return Span(self.low + other.low, self.typical + other.typical, self.high + other.high)
+        return Span(
+            self.low + other.low,
+            self.typical + other.typical,
+            self.high + other.high,
+            self.mean + other.mean,
+        )
 
     @staticmethod
     def later(spans: list[Span]) -> Span:
-        """Each of earliest, typical, latest: the latest among the spans."""
+        """Each of earliest, typical, latest, expected: the latest among the spans."""
         if len(spans) == 1:
             return spans[0]
         return Span(
-            max(s.low for s in spans), max(s.typical for s in spans), max(s.high for s in spans)
+            max(s.low for s in spans),
+            max(s.typical for s in spans),
+            max(s.high for s in spans),
+            max(s.mean for s in spans),
         )
 
     @staticmethod
     def of(value: Range | Lag | None) -> Span:
+        """A duration or latency (triangular: mean (min + typical + max) / 3) or a lag
+        (uniform: mean the midpoint, its ``typical``)."""
         if value is None:
             return ZERO
-        return Span(float(value.low), float(value.typical), float(value.high))
+        low, typical, high = float(value.low), float(value.typical), float(value.high)
+        mean = typical if isinstance(value, Lag) else (low + typical + high) / 3
+        return Span(low, typical, high, mean)
 
     def as_list(self) -> list[float]:
         return [self.low, self.typical, self.high]
 
 
-ZERO = Span(0.0, 0.0, 0.0)
+ZERO = Span(0.0, 0.0, 0.0, 0.0)
 
 
 @dataclass(frozen=True, slots=True)
@@ -106,13 +131,19 @@ class ChainTiming:
 
 
 def response_latency(
-    study: Study, agent_id: str | None, asleep_share: float, default_human: list[float]
+    study: Study,
+    agent_id: str | None,
+    asleep_share: float,
+    default_human: list[float],
+    mean_asleep_share: float | None = None,
 ) -> Span:
     """An agent's response latency, weighted by how often it is asleep when called on.
 
     A human without a latency of their own takes the assumption ``default_response_s``;
     one without an asleep latency responds as when awake. An automation without one
-    responds at once.
+    responds at once. ``asleep_share`` weighs the typical latency; ``mean_asleep_share``
+    (default the same) the expected one: the chance the work arrives while the person
+    sleeps, by which the simulation draws the asleep or the awake latency.
     """
     agent = study.agents_by_id.get(agent_id) if agent_id else None
     if agent is None:
@@ -121,17 +152,24 @@ def response_latency(
     if not agent.is_human:
         return Span.of(response.get("any"))
     awake_range = response.get("awake") or response.get("any")
-    awake = Span.of(awake_range) if awake_range else Span(*map(float, default_human))
+    if awake_range:
+        awake = Span.of(awake_range)
+    else:
+        low, typical, high = map(float, default_human)
+        awake = Span(low, typical, high, (low + typical + high) / 3)
     asleep = Span.of(response["asleep"]) if "asleep" in response else awake
     share = min(max(asleep_share, 0.0), 1.0)
-    if share <= 0:
+    mean_share = share if mean_asleep_share is None else min(max(mean_asleep_share, 0.0), 1.0)
+    if share <= 0 and mean_share <= 0:
         return awake
-    if share >= 1:
+    if share >= 1 and mean_share >= 1:
         return asleep
+    both = 0 < share < 1
     return Span(
-        min(awake.low, asleep.low),
+        min(awake.low, asleep.low) if both else (asleep.low if share >= 1 else awake.low),
         (1 - share) * awake.typical + share * asleep.typical,
-        max(awake.high, asleep.high),
+        max(awake.high, asleep.high) if both else (asleep.high if share >= 1 else awake.high),
+        (1 - mean_share) * awake.mean + mean_share * asleep.mean,
     )
 
 
@@ -181,12 +219,15 @@ def chain_timings(
             agent_id: str | None, after: Span, _timing=timing, _cache=latencies
         ) -> Span:
             """The agent's latency when the work reaches them ``after`` the chain's start
-            (typically): asleep or awake as that moment of the day makes it."""
-            key = (agent_id, round(after.typical / 60))
+            (typically, and on average): asleep or awake as that moment of the day makes
+            it."""
+            key = (agent_id, round(after.typical / 60), round(after.mean / 60))
             if key not in _cache:
                 pieces = sleep_of.get(agent_id or "", [])
-                share = _timing.timing.shifted(after.typical).share_within(pieces) if pieces else 0
-                _cache[key] = response_latency(study, agent_id, share, default_human)
+                day = _timing.timing
+                share = day.shifted(after.typical).share_within(pieces) if pieces else 0
+                mean_share = day.shifted(after.mean).share_within(pieces) if pieces else 0
+                _cache[key] = response_latency(study, agent_id, share, default_human, mean_share)
             return _cache[key]
 
         done: dict[str, TaskTiming] = {}
@@ -216,6 +257,7 @@ def chain_timings(
                         start.low - ready.low,
                         start.typical - ready.typical,
                         start.high - ready.high,
+                        start.mean - ready.mean,
                     )
             task = study.task(task_id)
             done[task_id] = TaskTiming(

@@ -5,6 +5,9 @@ For the human of an assignment, per occurrence (methods document, ``#person-time
     person_s = sum over stages of split_s * duration * (1 - d_s) + supervision
     supervision = max(supervision_s[L_decision], supervision_s[L_action])
 
+The duration counts at its expectation under the triangular distribution the simulation
+draws it from, ``(min + typical + max) / 3`` [3]_, so that per-day sums of it are expected
+values; the same at the typical duration is kept beside it (``active_typical_s``).
 A human-only assignment costs the whole duration; an automation-only one no person time.
 The **principal holder** is the automation when its stage-weighted degree
 ``sum(split_s * d_s)`` exceeds 0.5, otherwise the human.
@@ -16,6 +19,8 @@ References
 .. [2] Pritchett, A. R., Kim, S. Y., & Feigh, K. M. (2014). Measuring human-automation
    function allocation. Journal of Cognitive Engineering and Decision Making, 8(1),
    52-77 (responsibility-authority mismatch).
+.. [3] Evans, M., Hastings, N., & Peacock, B. (2000). Statistical Distributions (3rd ed.),
+   ch. 40: the triangular distribution, mean (a + b + c) / 3.
 """
 
 from __future__ import annotations
@@ -23,7 +28,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from ..model import Assignment, Study, Task
+from ..model import Assignment, Range, Study, Task
 from ..scales import (
     EK10_LEVELS,
     category_of,
@@ -35,15 +40,17 @@ from ..scales import (
 )
 from ..vocabulary import STAGES
 
-__all__ = ["Involvement", "involvement"]
+__all__ = ["Involvement", "expected_duration", "involvement"]
 
 
 @dataclass(frozen=True, slots=True)
 class Involvement:
     """One task under one assignment: who holds it and what it costs the person.
 
-    ``human_s`` is the assignment's human's time per occurrence, split into ``active_s``
-    (the stages' share of the duration the automation leaves them) and ``supervision_s``.
+    ``human_s`` is the assignment's human's expected time per occurrence, split into
+    ``active_s`` (the stages' share of the expected duration the automation leaves them)
+    and ``supervision_s``; ``duration_s`` is the expected (triangular mean) duration and
+    ``typical_duration_s``, ``active_typical_s`` the same at the typical duration.
     ``monitor`` is the accountable human who does not hold the task, if any; they spend
     ``monitoring_s`` per occurrence checking it.
     """
@@ -62,6 +69,8 @@ class Involvement:
     accountable: str | None
     monitor: str | None
     monitoring_s: float
+    typical_duration_s: float = 0.0
+    active_typical_s: float = 0.0
 
     @property
     def human(self) -> str | None:
@@ -75,9 +84,20 @@ class Involvement:
     def human_s(self) -> float:
         return self.active_s + self.supervision_s
 
+    @property
+    def human_typical_s(self) -> float:
+        return self.active_typical_s + self.supervision_s
+
     def time_of(self, agent_id: str) -> float:
-        """Seconds per occurrence ``agent_id`` (a human) spends on the task."""
+        """Expected seconds per occurrence ``agent_id`` (a human) spends on the task."""
         seconds = self.human_s if agent_id == self.human else 0.0
+        if agent_id == self.monitor:
+            seconds += self.monitoring_s
+        return seconds
+
+    def typical_time_of(self, agent_id: str) -> float:
+        """The same as :meth:`time_of` at the typical duration."""
+        seconds = self.human_typical_s if agent_id == self.human else 0.0
         if agent_id == self.monitor:
             seconds += self.monitoring_s
         return seconds
@@ -154,7 +174,8 @@ def involvement(
     split = task.stage_split
     automated = weighted_degree(degrees, split)
     duration_range = assignment.duration_s or task.duration_s
-    duration = 0.0 if duration_range is None else float(duration_range.typical)
+    typical = 0.0 if duration_range is None else float(duration_range.typical)
+    duration = 0.0 if duration_range is None else expected_duration(duration_range)
     if assignment.human is None:
         principal = assignment.automation
     elif assignment.automation is None:
@@ -163,10 +184,11 @@ def involvement(
         # Exactly one half stays with the human; the allowance keeps rounding in the
         # stage degrees ((L - 1) / 9) from tipping an exact half over.
         principal = assignment.automation if automated > 0.5 + 1e-9 else assignment.human
-    active = 0.0
+    active = active_typical = 0.0
     supervision = 0.0
     if assignment.human is not None:
-        active = sum(split[stage] * duration * (1 - degrees[stage]) for stage in STAGES)
+        left = sum(split[stage] * (1 - degrees[stage]) for stage in STAGES)
+        active, active_typical = left * duration, left * typical
         supervision = _supervision(assignment, study.scale, assumptions["supervision_s"])
     accountable = assignment.accountable or assignment.human
     monitor = None
@@ -189,4 +211,12 @@ def involvement(
         accountable=accountable,
         monitor=monitor,
         monitoring_s=float(assumptions["monitoring_s"]) if monitor else 0.0,
+        typical_duration_s=typical,
+        active_typical_s=active_typical,
     )
+
+
+def expected_duration(duration: Range) -> float:
+    """The mean of the triangular distribution over ``[min, typical, max]``:
+    ``(min + typical + max) / 3`` (Evans, Hastings & Peacock 2000, ch. 40)."""
+    return (float(duration.low) + float(duration.typical) + float(duration.high)) / 3

@@ -24,7 +24,7 @@ from ..graph import precedence_order
 from ..model import Lag, Plan, Study
 from ..vocabulary import STAGES
 from .awareness import Awareness, awareness
-from .chains import ChainTiming, Span, chain_timings, response_latency
+from .chains import ChainTiming, Span, TaskTiming, chain_timings, response_latency
 from .coherence import Coherence, coherence
 from .findings import Finding, accountability_findings, capability_findings
 from .handovers import Handover, HandoverSite, assess_handover, time_budget_ratio
@@ -33,7 +33,7 @@ from .modecheck import error_state_tasks, verify_mode_map
 from .modes import assignment_in_mode, mode_occupancy
 from .occurrences import Occurrences, occurrences
 from .risk import resolve_policy
-from .timeofday import DAY_S, DayShare, asleep_intervals
+from .timeofday import DAY_S, DayShare, asleep_intervals, wrap_interval
 
 __all__ = ["PersonFigures", "PlanAnalysis", "StudyGraph", "TaskFigures", "analyse_plan", "prepare"]
 
@@ -107,9 +107,16 @@ class TaskFigures:
 
     @property
     def person_s(self) -> float:
-        """Seconds per occurrence all humans together spend on it."""
+        """Expected seconds per occurrence all humans together spend on it (durations at
+        their triangular mean)."""
         involved = self.involved
         return involved.human_s + (involved.monitoring_s if involved.monitor else 0.0)
+
+    @property
+    def typical_s(self) -> float:
+        """The same as :attr:`person_s` at the typical duration."""
+        involved = self.involved
+        return involved.human_typical_s + (involved.monitoring_s if involved.monitor else 0.0)
 
 
 @dataclass
@@ -337,16 +344,24 @@ class _Analysis:
     def task_figures(self, leaves, normal, holders, counted: Occurrences, chains):
         study, graph = self.study, self.graph
         sleep = {agent.id: asleep_intervals(agent) for agent in study.humans}
-        # Per task, from each chain: its weight (occurrences per day), typical start and
-        # ready times, and the chain's time-of-day spread.
-        starts: dict[str, list[tuple[float, float, float, DayShare]]] = defaultdict(list)
+        # Per task, from each chain: its weight (occurrences per day), its timing in the
+        # chain, and the chain's time-of-day spread. The expected times place its
+        # occurrences in the day (asleep shares, night interruptions); the typical ready
+        # time is the time budget's.
+        starts: dict[str, list[tuple[float, TaskTiming, DayShare]]] = defaultdict(list)
         for chain in chains:
             chain_spread = counted.timings[chain.trigger.id].timing
             for timing in chain.tasks:
                 weight = chain.per_day * timing.probability
-                starts[timing.task_id].append(
-                    (weight, timing.start.typical, timing.ready.typical, chain_spread)
-                )
+                starts[timing.task_id].append((weight, timing, chain_spread))
+        default = self.assumptions["default_response_s"]
+        latency_means = {
+            human: (
+                response_latency(study, human, 0.0, default).mean,
+                response_latency(study, human, 1.0, default).mean,
+            )
+            for human in sleep
+        }
         tasks = {}
         for task_id in leaves:
             involved = normal[task_id]
@@ -356,16 +371,24 @@ class _Analysis:
                 if assignment and assignment.initiator
                 else _default_initiator(study, task_id, graph, holders)
             )
-            spread = DayShare.mixture(
-                (weight, day.shifted(start)) for weight, start, _ready, day in starts[task_id]
-            )
-            asleep_share = {
-                human: (spread.share_within(pieces) if spread and pieces else 0.0)
-                for human, pieces in sleep.items()
-            }
             total = sum(item[0] for item in starts[task_id])
+            asleep_share = dict.fromkeys(sleep, 0.0)
+            for weight, timing, day in starts[task_id] if total else ():
+                moved = None  # the chain's day shifted by the expected start, made once
+                for human, pieces in sleep.items():
+                    if not pieces:
+                        continue
+                    if holders[task_id] == human and timing.latency.mean > 0:
+                        share = _start_asleep_share(day, timing, pieces, latency_means[human])
+                    else:
+                        moved = moved or day.shifted(timing.start.mean)
+                        share = moved.share_within(pieces)
+                    asleep_share[human] += weight * share / total
             ready = (
-                sum(weight * r for weight, _s, r, _d in starts[task_id]) / total if total else 0.0
+                sum(weight * timing.ready.typical for weight, timing, _d in starts[task_id])
+                / total
+                if total
+                else 0.0
             )
             tasks[task_id] = TaskFigures(
                 involved=involved,
@@ -501,10 +524,12 @@ class _Analysis:
             target = tasks[site.to_task]
             mode = site.modes[1] if site.modes else self.initial
             involved = self.involved(site.to_task, mode) if site.modes else target.involved
+            # The budget of a typical occurrence: typical work, latency and ready time
+            # (methods document, #time-budget-ratio).
             if receiver is not None and receiver.is_human:
-                work = involved.time_of(receiver.id) or involved.duration_s
+                work = involved.typical_time_of(receiver.id) or involved.typical_duration_s
             else:
-                work = involved.duration_s
+                work = involved.typical_duration_s
             latency = response_latency(
                 study,
                 site.to_agent,
@@ -554,6 +579,51 @@ class _Analysis:
         found += self.mode_findings
         found.sort(key=lambda f: (-f.severity, f.kind, f.tasks))
         return found
+
+
+def _shift(pieces: list[tuple[float, float]], seconds: float) -> list[tuple[float, float]]:
+    return [part for a, b in pieces for part in wrap_interval(a + seconds, b + seconds)]
+
+
+def _overlap(first, second) -> list[tuple[float, float]]:
+    return [(max(a, c), min(b, d)) for a, b in first for c, d in second if min(b, d) > max(a, c)]
+
+
+def _outside(first, second) -> list[tuple[float, float]]:
+    """The parts of the intervals ``first`` outside all of ``second``."""
+    result = []
+    for a, b in first:
+        cuts = [(a, b)]
+        for c, d in second:
+            cuts = [
+                part
+                for lo, hi in cuts
+                for part in ((lo, min(hi, c)), (max(lo, d), hi))
+                if part[1] > part[0]
+            ]
+        result += cuts
+    return result
+
+
+def _start_asleep_share(
+    day: DayShare,
+    timing: TaskTiming,
+    asleep: list[tuple[float, float]],
+    latency_means: tuple[float, float],
+) -> float:
+    """The chance that a task of a chain, whose work reaches the person with a response
+    latency, starts inside their asleep window.
+
+    Their latency is the asleep one when the work arrives in their sleep and the awake one
+    otherwise (as the simulation draws it): the start is asleep when the work arrives
+    asleep and the asleep latency leaves them asleep, or arrives awake and the awake
+    latency reaches into the window. Without a latency, the chain's start times shifted
+    by the task's expected start place it.
+    """
+    awake_s, asleep_s = latency_means
+    stays = _overlap(asleep, _shift(asleep, -asleep_s))
+    reaches = _outside(_shift(asleep, -awake_s), asleep)
+    return day.shifted(timing.ready.mean).share_within(stays + reaches)
 
 
 _MISS_ORDER = {"always": 3, "typically": 2, "possibly": 1}

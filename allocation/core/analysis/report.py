@@ -67,6 +67,8 @@ def _task_json(result: PlanAnalysis, task_id: str) -> dict[str, Any]:
         "category": involved.category if involved.applies else "not_applicable",
         "principal": involved.principal,
         "person_s": figures.person_s,
+        "expected_s": figures.person_s,
+        "typical_s": figures.typical_s,
         "occurrences_per_day": figures.per_day,
         "awareness": None if aware is None else aware.index,
         "degrees": involved.degrees,

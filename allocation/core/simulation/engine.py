@@ -319,7 +319,7 @@ def person_segments(
     Supervision follows the task's end, then the accountable person's monitoring.
     """
     variant = draw.variant
-    scale = np.where(sim.typical[variant] > 0, draw.duration, 0.0)
+    scale = draw.duration
     mine = sim.human[variant] == person
     shares = sim.stage_share[variant]
     total = shares.sum(axis=1)

@@ -67,7 +67,7 @@ def chunk_figures(sim: SimPlan, draw: ChunkDraw) -> dict[str, dict[str, np.ndarr
     """Each person's figures for each day of a chunk (see :data:`FIGURES`)."""
     days = draw.days
     variant = draw.variant
-    worked = np.where(sim.typical[variant] > 0, draw.duration, 0.0)
+    worked = draw.duration
     active = worked * sim.stage_share[variant].sum(axis=1)
     edges, per_day = bin_edges(draw.first_day, days, sim.bin_s)
     day_edges = np.arange(draw.first_day, draw.first_day + days + 1) * DAY_S

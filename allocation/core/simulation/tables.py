@@ -77,7 +77,6 @@ class SimPlan:
     variant_of: np.ndarray  # tasks x modes -> variant
     variant_task: np.ndarray
     duration: np.ndarray  # variants x 3 (low, typical, high)
-    typical: np.ndarray
     stage_share: np.ndarray  # variants x 4: share of the duration the person works
     stage_offset: np.ndarray  # variants x 4: where each stage starts, share of duration
     supervision_s: np.ndarray
@@ -174,6 +173,11 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
     for i, task_id in enumerate(task_ids):
         task = study.task(task_id)
         base = analysis.tasks[task_id].involved
+        initial_mode = plan.modes.by_id.get(plan.modes.initial) if plan.modes else None
+        if initial_mode is not None and task_id in (initial_mode.overrides or {}):
+            # The analysis's involvement is the initial mode's override; the modes that
+            # do not override the task take the plan's own assignment.
+            base = involvement(study, task, assignment_in_mode(plan, None, task_id), assumptions)
         base_variant = len(variants)
         variants.append(base)
         for m, mode_id in enumerate(modes):
@@ -255,7 +259,6 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
         variant_of=variant_of,
         variant_task=variant_task,
         duration=duration,
-        typical=duration[:, 1].copy(),
         stage_share=stage_share,
         stage_offset=stage_offset,
         supervision_s=supervision,

@@ -273,28 +273,30 @@ def heating():
 def test_home_heating_by_hand():
     """The home-heating test study, manual (baseline) against auto, each task once a day.
 
-    manual: T1 human only, 5 s; T2 human only, 10 s: 15 s/day.
+    Durations count at their triangular mean (min + typical + max) / 3 (Evans, Hastings
+    & Peacock 2000, ch. 40): T1 [2, 5, 30] -> 37/3 s, T2 [3, 10, 20] -> 11 s.
+    manual: T1 human only, 37/3 s; T2 human only, 11 s: 70/3 = 23.33 s/day.
     auto: T1 automation only, 0 s; T2 level 7 in every stage, d = 6/9, so the resident
-    does 10 x 3/9 = 10/3 s, supervises 4 s, and monitors 10 s as the accountable person
-    who does not hold it: 52/3 = 17.33 s/day.
-    Moved: T2 +22/3 (first, the larger), T1 -5; together 7/3 = 17.33 - 15.
+    does 11 x 3/9 = 11/3 s, supervises 4 s, and monitors 10 s as the accountable person
+    who does not hold it: 53/3 = 17.67 s/day.
+    Moved: T1 -37/3 (first, the larger), T2 +20/3; together -17/3 = 17.67 - 23.33.
     """
     analyses = heating()
     comparison = compare_plans([analyses["manual"], analyses["auto"]])
     delta = comparison.delta("auto")
-    t2, t1 = delta.shifts
+    t1, t2 = delta.shifts
     assert (t2.task_id, t1.task_id) == ("T2", "T1")
-    assert t2.change == pytest.approx(22 / 3)
-    assert t1.change == pytest.approx(-5)
-    assert t1.person_s_before == {"resident": 5.0} and t1.person_s_after == {}
+    assert t2.change == pytest.approx(20 / 3)
+    assert t1.change == pytest.approx(-37 / 3)
+    assert t1.person_s_before == {"resident": pytest.approx(37 / 3)} and t1.person_s_after == {}
     assert (t1.holder_before, t1.holder_after) == ("resident", "thermostat")
     assert (t2.holder_before, t2.holder_after) == ("resident", "thermostat")
     assert (t2.category_before, t2.category_after) == ("person", "shared")
     assert t1.goal == "G1" and t1.goal_title == "Keep the home comfortable"
     assert t1.awareness_after is None and t1.awareness_before is not None
-    assert delta.burden_change == pytest.approx(7 / 3)
-    assert delta.seconds_saved == pytest.approx(5)
-    assert delta.seconds_added == pytest.approx(22 / 3)
+    assert delta.burden_change == pytest.approx(-17 / 3)
+    assert delta.seconds_saved == pytest.approx(37 / 3)
+    assert delta.seconds_added == pytest.approx(20 / 3)
     # The two mode handovers of auto appear; manual has none.
     assert {handover_key(h) for h in delta.handovers_added} == {
         ("mode", "T2", "T2", "thermostat", "resident", ("schedule", "hold")),
@@ -320,17 +322,18 @@ def test_home_heating_by_hand():
 
 
 def test_home_heating_objective_by_hand():
-    """Both plans: 1 interruption, no review, cut ratio 0 (equal: 0). Burden 15 vs 17.33,
-    max risk 0 vs 6, mean awareness, findings 1 vs 5 (the mode map's four): auto worst in
-    each. manual = 0, auto = 1 + 2 + 1 + 1 = 5."""
+    """Both plans: 1 interruption, no review, cut ratio 0 (equal: 0). Burden 70/3 vs
+    53/3 (expected durations, worked in test_home_heating_by_hand): manual worst; max
+    risk 0 vs 6, mean awareness, findings 1 vs 5 (the mode map's four): auto worst in
+    each. manual = 1, auto = 2 + 1 + 1 = 4."""
     analyses = heating()
     comparison = compare_plans([analyses["manual"], analyses["auto"]])
-    assert comparison.ranking.scores == pytest.approx({"manual": 0.0, "auto": 5.0})
+    assert comparison.ranking.scores == pytest.approx({"manual": 1.0, "auto": 4.0})
     assert comparison.ranking.order == ("manual", "auto")
     burden = next(row for row in comparison.figures if row.key == "burden_s_per_day")
-    assert burden.values == pytest.approx((15.0, 52 / 3))
-    assert burden.verdicts == ("baseline", "worse")
-    assert burden.differences[1] == pytest.approx(7 / 3)
+    assert burden.values == pytest.approx((70 / 3, 53 / 3))
+    assert burden.verdicts == ("baseline", "better")
+    assert burden.differences[1] == pytest.approx(-17 / 3)
     interruptions = next(row for row in comparison.figures if row.key == "interruptions_per_day")
     assert interruptions.verdicts == ("baseline", "same")
     resident = [row for row in comparison.people if row.agent == "resident"]
@@ -347,7 +350,7 @@ def test_baseline_is_the_first_plan_given():
     assert comparison.baseline == "auto"
     delta = comparison.delta("manual")
     assert len(delta.handovers_removed) == 2 and delta.handovers_added == ()
-    assert delta.burden_change == pytest.approx(-7 / 3)
+    assert delta.burden_change == pytest.approx(17 / 3)  # the reverse of -17/3 above
     assert comparison.ranking.order == ("manual", "auto")
 
 

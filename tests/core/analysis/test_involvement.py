@@ -136,14 +136,21 @@ def test_automation_only_costs_no_person_time():
 
 
 def test_the_assignment_duration_overrides_the_task_duration():
-    """Task typical 60 s, assignment [2, 4, 8]: the typical 4 s counts.
+    """Task typical 60 s, assignment [2, 4, 8]: the assignment's range counts, at its
+    triangular mean (2 + 4 + 8) / 3 = 14/3 s (Evans, Hastings & Peacock 2000, ch. 40),
+    and at its typical 4 s beside it.
 
-    human only: 4 s. Shared at level 7 everywhere: 4*(1-6/9) = 4/3 s + sup[7].
+    human only: 14/3 s (typical 4 s). Shared at level 7 everywhere: 14/3 * (1 - 6/9) =
+    14/9 s (typical 4/3 s) + sup[7].
     """
-    assert involved({"human": "pat", "duration_s": [2, 4, 8]}).human_s == 4
+    alone = involved({"human": "pat", "duration_s": [2, 4, 8]})
+    assert alone.human_s == pytest.approx(14 / 3)
+    assert alone.human_typical_s == pytest.approx(4)
     result = involved({**SHARED, "levels": 7, "duration_s": [2, 4, 8]})
-    assert result.duration_s == 4
-    assert result.active_s == pytest.approx(4 / 3)
+    assert result.duration_s == pytest.approx(14 / 3)
+    assert result.typical_duration_s == 4
+    assert result.active_s == pytest.approx(14 / 9)
+    assert result.active_typical_s == pytest.approx(4 / 3)
     assert result.supervision_s == SUP["7"]
 
 
