@@ -401,9 +401,12 @@ def pdf_text(data: bytes) -> str:
 
 def pdf_body_text(data: bytes) -> str:
     """The PDF's text without each page's running header and footer (its last two
-    lines), so that a paragraph broken across two pages reads as one."""
+    lines), so that a paragraph broken across two pages reads as one. A list's markers
+    drawn at the foot of a page whose items' text goes on over the page are left out
+    too (text extraction reads them apart from their items)."""
     pages = [page.extract_text() for page in PdfReader(io.BytesIO(data)).pages]
-    return "\n".join(text.rsplit("\n", 2)[0] for text in pages)
+    body = "\n".join(text.rsplit("\n", 2)[0] for text in pages)
+    return "\n".join(line for line in body.split("\n") if line.strip() != "•")
 
 
 def test_report_appends_the_methods_document_with_ids_that_do_not_clash(auto):
