@@ -193,6 +193,21 @@ def _weights(keys: tuple[str, ...], defaults: dict[str, float], maximum: float):
     return check
 
 
+def _reference_check(value: Any) -> str | None:
+    """``{figure: {"good": g, "poor": p}}`` over the objective's figures."""
+    if not isinstance(value, dict):
+        return "must be an object mapping figures to {good, poor}"
+    for figure, points in value.items():
+        if figure not in OBJECTIVE_FIGURES:
+            return f"has the figure {figure!r}; figures are {', '.join(OBJECTIVE_FIGURES)}"
+        if not isinstance(points, dict) or not points or set(points) - {"good", "poor"}:
+            return f"{figure} must be an object with good, poor or both"
+        for key, number in points.items():
+            if not _is_number(number):
+                return f"{figure}.{key} must be a number"
+    return None
+
+
 ASSUMPTIONS: tuple[Assumption, ...] = (
     Assumption(
         "supervision_s",
@@ -323,14 +338,27 @@ ASSUMPTIONS: tuple[Assumption, ...] = (
         "objective_weights",
         OBJECTIVE_WEIGHTS,
         TOOL,
-        "Baton default; a weighted sum of min-max normalised figures (simple additive weighting)",
+        "Baton default; a weighted sum of figures scaled between reference points "
+        "(simple additive weighting)",
         "Weights (0 to 100, relative) of the headline figures in the study objective that "
-        "ranks plans: each figure is scaled across the plans compared to 0 (best) .. 1 "
-        "(worst), a figure equal in all of them counting 0; the score is the weighted sum, "
+        "ranks plans: each figure is scaled between its reference points "
+        "(objective_reference) to 0 (good) .. 1 (poor); the score is the weighted sum, "
         "lower ranks first. Defaults: person burden, interruptions, night interruptions, "
         "handovers needing review, mean mode-awareness index and findings 1 each; highest "
-        "handover risk 2 (harm weighs double); cut ratio 0.5 (an indirect, structural sign).",
+        "screening index 2 (harm weighs double); cut ratio 0.5 (an indirect, structural "
+        "sign).",
         _weights(OBJECTIVE_FIGURES, OBJECTIVE_WEIGHTS, maximum=100),
+    ),
+    Assumption(
+        "objective_reference",
+        {},
+        TOOL,
+        "Baton default",
+        "Per figure of the objective, the value that scores 0 (good) and the value that "
+        "scores the whole weight (poor): {figure: {good: g, poor: p}}. Defaults: good 0, "
+        "the ideal of every figure weighed; poor the worst value among all the study's "
+        "plans. A figure whose poor equals its good scores 0 for every plan.",
+        _reference_check,
     ),
 )
 

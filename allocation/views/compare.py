@@ -210,26 +210,45 @@ def _objective_context(comparison: Comparison) -> dict[str, Any]:
         }
         for plan in ranking.order
     ]
+    held = comparison.sensitivity
     sensitivity = [
         {
-            "label": WEIGHT_LABELS[row.figure],
-            "weight": f"{row.weight:g}",
-            "sides": [
-                {
-                    "weight": f"{side.weight:g}",
-                    "order": side.order,
-                    "swaps": side.swaps,
-                }
-                for side in (row.lower, row.upper)
-            ],
+            "label": WEIGHT_LABELS[change.figure],
+            "weight": f"{change.weight:g}",
+            "change": None if change.change is None else f"{change.change:+.3g}",
+            "reversing": None
+            if change.reversing_weight is None
+            else f"{change.reversing_weight:.3g}",
         }
-        for row in comparison.sensitivity
+        for change in held.changes
+    ]
+    shares = [
+        {
+            "plan": plan,
+            "name": comparison.names[plan],
+            "share": f"{share:.0%}",
+        }
+        for plan, share in held.first_shares.items()
+    ]
+    reference = [
+        {
+            "label": WEIGHT_LABELS[key],
+            "good": figure_number(key, ranking.reference[key][0]),
+            "poor": figure_number(key, ranking.reference[key][1]),
+            "separating": ranking.separating[key],
+        }
+        for key in OBJECTIVE_FIGURES
     ]
     return {
         "ranking_rows": rows,
         "figure_labels": [WEIGHT_LABELS[key] for key in OBJECTIVE_FIGURES],
         "sensitivity": sensitivity,
-        "sensitive": any(row.changed for row in comparison.sensitivity),
+        "sensitive": held.changed,
+        "leader": held.leader,
+        "runner_up": held.runner_up,
+        "first_shares": shares,
+        "samples": held.samples,
+        "reference_rows": reference,
         "contribution_figure": objective_figure(ranking, WEIGHT_LABELS),
     }
 
@@ -274,7 +293,10 @@ def _compare_context(
         context["notes"].append("Pick at least two plans to compare.")
         return context
     analyses = page.analyses()
-    comparison = compare_plans([analyses[plan] for plan in chosen])
+    comparison = compare_plans(
+        [analyses[plan] for plan in chosen],
+        study_headlines={plan: analysis.headline() for plan, analysis in analyses.items()},
+    )
     if form is None:
         form = WeightForm({key: f"{value:g}" for key, value in comparison.ranking.weights.items()})
     context.update(

@@ -5,9 +5,10 @@ Expected values are worked by hand from the methods document (#person-time) on t
 home-heating test study, durations at their triangular means (min + typical + max) / 3
 (see tests/core/analysis/test_compare.py for the arithmetic): manual 70/3 = 23.33 person
 s/day, auto 53/3 = 17.67 (−5.67); task T1 −37/3 = −12.3, T2 +20/3 = +6.7. The objective
-with the default weights (tool assumption ``objective_weights``): manual is the worse plan
-in burden (weight 1); auto in highest handover risk (weight 2), mean awareness (weight 1)
-and findings (weight 1), equal in the rest, so manual scores 1 and auto 2 + 1 + 1 = 4.
+with the default weights (tool assumption ``objective_weights``) and reference points
+(good 0, poor the worse plan's value): manual 1 (burden) + 1 (one interruption, the poor
+value) + 1/5 (findings 1 of 5) + its mean awareness over auto's; auto 53/70 (burden) + 1
++ 2 (highest screening index) + 1 (awareness) + 1 (findings) = 5.757.
 """
 
 from __future__ import annotations
@@ -41,6 +42,25 @@ def weight_form(**overrides: object) -> dict[str, object]:
     """The weight form as the page sends it: every default, some changed."""
     values = {**OBJECTIVE_WEIGHTS, **overrides}
     return {f"weight_{key}": str(values[key]) for key in OBJECTIVE_FIGURES}
+
+
+def _manual_score() -> str:
+    """manual's score: 2.2 plus its mean awareness over auto's (the awareness figures
+    themselves are worked in tests/core/analysis/test_awareness*)."""
+    from allocation.core import read_study
+    from allocation.core.analysis import analyse_plan, prepare
+    from tests.core.conftest import HOME_HEATING
+
+    core = read_study(copy.deepcopy(HOME_HEATING))
+    graph = prepare(core)
+    manual, auto = (
+        analyse_plan(core, plan, graph=graph).headline()["mean_awareness"]
+        for plan in ("manual", "auto")
+    )
+    return f"{2.2 + manual / auto:.3f}"
+
+
+RANKED = [("manual", _manual_score()), ("auto", "5.757")]
 
 
 def ranking_rows(html: str) -> list[tuple[str, str]]:
@@ -81,12 +101,12 @@ def test_full_page_compares_all_plans_by_default(client, study, owner):
     assert "5 appear, 1 go, 0 in both." in page
     # Finding kinds in the registry's words.
     assert "Accountable without holding the task" in page and "Capability missing" in page
-    # Objective: manual 1, auto 4 (hand-worked in tests/core/analysis/test_compare.py).
-    assert ranking_rows(page) == [("manual", "1.000"), ("auto", "4.000")]
+    # Objective: hand-worked in tests/core/analysis/test_compare.py.
+    assert ranking_rows(page) == RANKED
     assert '<script id="compare-contributions" type="application/json">' in page
     # The owner may change the weights; the method and cautions are shown.
     assert "Save weights and rank again" in page
-    assert "tool assumption" in page and "min–max normalised" in page
+    assert "tool assumption" in page and "reference points" in page
     assert CAUTIONS[:60] in page
 
 
@@ -97,7 +117,7 @@ def test_baseline_comes_first_and_differences_turn(client, study, owner):
     assert headline.index("<code>auto</code>") < headline.index("<code>manual</code>")
     assert re.search(r"23\.3 <span class=\"cmp cmp-worse\"[^>]*>\+5\.7", headline)
     # The ranking does not depend on which plan is the baseline.
-    assert ranking_rows(page) == [("manual", "1.000"), ("auto", "4.000")]
+    assert ranking_rows(page) == RANKED
 
 
 def test_plan_picker_by_htmx_gets_the_comparison_only(client, study, owner):
@@ -174,8 +194,9 @@ def example_heating(owner) -> m.Study:
 
 
 def test_weight_post_by_htmx_stores_and_ranks_again(client, example_heating, owner):
-    """Only interruptions weighed (manual 2.01 a day, auto 1.02): min-max gives auto 0 and
-    manual 1, so auto now ranks first; with the defaults manual ranks first."""
+    """Only interruptions weighed (manual 2.01 a day, auto 1.02): manual, the poor value,
+    scores the whole weight 1 and auto about half, so auto now ranks first; with the
+    defaults manual ranks first."""
     client.force_login(owner)
     page = client.get(compare_url(example_heating)).content.decode()
     assert [plan for plan, _ in ranking_rows(page)] == ["manual", "auto"]
@@ -185,7 +206,8 @@ def test_weight_post_by_htmx_stores_and_ranks_again(client, example_heating, own
     fragment = response.content.decode().strip()
     assert response.status_code == 200
     assert fragment.startswith('<section class="panel" id="compare-objective">')
-    assert ranking_rows(fragment) == [("auto", "0.000"), ("manual", "1.000")]
+    rows = ranking_rows(fragment)
+    assert [plan for plan, _ in rows] == ["auto", "manual"] and rows[1][1] == "1.000"
     assert "Weights saved" in fragment
     example_heating.refresh_from_db()
     assert example_heating.assumptions["objective_weights"] == weights
@@ -275,7 +297,7 @@ def test_viewers_and_reviewers_see_the_ranking_but_may_not_change_it(
 ):
     client.force_login(member_of(role))
     page = client.get(compare_url(study)).content.decode()
-    assert ranking_rows(page) == [("manual", "1.000"), ("auto", "4.000")]
+    assert ranking_rows(page) == RANKED
     assert "Save weights and rank again" not in page
     assert "Weights in force" in page
     data = {**weight_form(findings=5), "plan": ["manual", "auto"]}
@@ -293,29 +315,28 @@ def test_editor_may_change_the_weights(client, study, member_of):
     assert study.assumptions["objective_weights"]["findings"] == 2.5
 
 
-def test_sensitivity_table_names_the_swap(client, example_heating, owner):
-    """Example home heating, weights: interruptions 1 and burden 0.8 (all else 0).
-    Min-max over the two plans: auto is worse in burden (73.7 against 51.6 s/day), manual
-    in interruptions (2.01 against 1.02). manual = 1, auto = 0.8: auto first. Burden +50 %
-    makes auto 1.2 > 1: manual first, the two swap; −50 % leaves auto first."""
-    m.Study.objects.filter(pk=example_heating.pk).update(
-        assumptions={
-            "objective_weights": {
-                **dict.fromkeys(OBJECTIVE_FIGURES, 0),
-                "interruptions_per_day": 1,
-                "burden_s_per_day": 0.8,
-            }
-        }
-    )
+def test_sensitivity_table_gives_the_weight_changes_that_reverse_the_leaders(client, study, owner):
+    """Weights burden 1 and findings 0.5 (all else 0), good 0 and poor the worse plan:
+    manual = 1 x 1 + 0.5 x 1/5 = 1.1; auto = 53/70 + 0.5 x 1 = 1.257. Gap 11/70. Burden
+    tells them apart by 1 - 53/70 = 17/70: +11/17 = +0.647 reverses them; findings by
+    1/5 - 1 = -4/5: -11/56 = -0.196 (weight 0.304, still at least 0)."""
+    weights = {**dict.fromkeys(OBJECTIVE_FIGURES, 0), "burden_s_per_day": 1, "findings": 0.5}
+    m.Study.objects.filter(pk=study.pk).update(assumptions={"objective_weights": weights})
     client.force_login(owner)
-    page = client.get(compare_url(example_heating)).content.decode()
-    assert ranking_rows(page) == [("auto", "0.800"), ("manual", "1.000")]
+    page = client.get(compare_url(study)).content.decode()
+    assert ranking_rows(page) == [("manual", "1.100"), ("auto", "1.257")]
     table = page[page.index("Sensitivity to the weights") :]
-    burden = table[table.index("Person time s a day</th>") :]
-    burden = burden[: burden.index("</tr>")]
-    lower, upper = burden.split("weight 1.2:")
-    assert "weight 0.4:" in lower and "unchanged" in lower
-    assert "swaps <code>auto</code> ↔ <code>manual</code>" in upper
+
+    def row(label: str) -> str:
+        cells = table[table.index(label) :]
+        return cells[: cells.index("</tr>")]
+
+    assert "+0.647" in row("Person time s a day</th>") and "1.65" in row(
+        "Person time s a day</th>"
+    )
+    assert "-0.196" in row("Findings") and "0.304" in row("Findings")
+    assert "none" in row("Interruptions")
+    assert "Ranks first" in page
 
 
 def test_history_restore_gets_the_whole_page(client, study, owner):

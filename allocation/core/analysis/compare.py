@@ -14,18 +14,22 @@ The first plan given is the **baseline**; every other plan is compared with it:
   agents)``. Both are matched as multisets: two equal keys in one plan need two in the
   other.
 
-The **objective** is a weighted sum of normalised headline figures (tool assumption
-``objective_weights``)::
+The **objective** scores each figure against reference points, a ``good`` and a
+``poor`` value per figure (tool assumption ``objective_reference``; by default good is
+0, the ideal of every figure it weighs, and poor the worst value among all the study's
+plans)::
 
-    n_f(p) = (x_f(p) - min_q x_f(q)) / (max_q x_f(q) - min_q x_f(q))   (0 if max = min)
-    score(p) = sum over figures f of w_f * n_f(p)
+    s_f(p) = w_f * clip((x_f(p) - good_f) / (poor_f - good_f), 0, 1)
+    score(p) = sum over figures f of s_f(p)
 
-over the plans q compared, so 0 is the best plan's value of a figure and 1 the worst's,
-and a figure equal in every plan adds nothing. Lower scores rank first; equal scores
-keep the order the plans were given in. Its **sensitivity** moves each weight by -50 %
-and +50 %, the others fixed, and reports the ranking then and which plans swap places.
-Normalisation depends only on the plans compared, so adding or removing a plan can
-change the others' scores: the ranking is of the plans on the table, not absolute.
+so a plan's score does not depend on which other plans are on the table. Where poor
+equals good the figure scores 0 for every plan and is marked as not separating the
+plans. Lower scores rank first; equal scores keep the order the plans were given in.
+Its **sensitivity** has two parts: for the two leading plans, the smallest change of each
+weight alone that reverses their order (the score is linear in each weight, so it is
+the difference of their totals over the difference of their scaled figures); and the
+share of 1,000 weight vectors drawn from a Dirichlet distribution centred on the set
+weights (concentration 20, seeded) in which each plan comes first.
 
 References
 ----------
@@ -42,8 +46,9 @@ from __future__ import annotations
 from collections import defaultdict
 from collections.abc import Callable, Hashable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
-from itertools import combinations
 from typing import Any, TypeVar
+
+import numpy as np
 
 from ..assumptions import OBJECTIVE_FIGURES, OBJECTIVE_WEIGHTS, check_assumptions
 from ..errors import BatonError
@@ -61,14 +66,15 @@ __all__ = [
     "NotComparable",
     "PlanDelta",
     "Ranking",
-    "SensitivityRow",
+    "Sensitivity",
     "TaskShift",
-    "WeightShift",
+    "WeightChange",
     "compare_plans",
     "finding_key",
     "handover_key",
     "match",
     "objective",
+    "reference_points",
     "sensitivity",
     "weight_problems",
 ]
@@ -159,19 +165,35 @@ def match(
 # -- the objective ----------------------------------------------------------------------
 
 
+#: Weight vectors drawn for the sensitivity's shares, their Dirichlet concentration and
+#: seed (tool assumptions; methods document, ``#objective-sensitivity``).
+SENSITIVITY_SAMPLES = 1000
+SENSITIVITY_CONCENTRATION = 20.0
+SENSITIVITY_SEED = 20
+
+
 @dataclass(frozen=True)
 class Ranking:
     """The objective's scores of the plans compared, best first.
 
-    ``normalised[plan][figure]`` is the figure scaled to [0, 1] across the plans;
-    ``contributions[plan][figure]`` is its weight times that; ``scores[plan]`` their sum.
+    ``scaled[plan][figure]`` is the figure placed between its reference points, in
+    [0, 1]; ``contributions[plan][figure]`` is its weight times that; ``scores[plan]``
+    their sum. ``reference[figure]`` is ``(good, poor)`` and ``separating[figure]``
+    whether the figure can tell plans apart (poor differs from good).
     """
 
     weights: dict[str, float]
-    normalised: dict[str, dict[str, float]]
+    reference: dict[str, tuple[float, float]]
+    separating: dict[str, bool]
+    scaled: dict[str, dict[str, float]]
     contributions: dict[str, dict[str, float]]
     scores: dict[str, float]
     order: tuple[str, ...]
+
+    @property
+    def normalised(self) -> dict[str, dict[str, float]]:
+        """The scaled figures (the name the analysis file has kept)."""
+        return self.scaled
 
     def rank(self, plan: str) -> int:
         """The plan's place, 1 for the best; plans with equal scores share a place."""
@@ -184,26 +206,44 @@ def _below(a: float, b: float) -> bool:
     return b - a > _SAME * max(1.0, abs(a), abs(b))
 
 
-def _normalise(headlines: Mapping[str, Mapping[str, float]]) -> dict[str, dict[str, float]]:
-    normalised: dict[str, dict[str, float]] = {plan: {} for plan in headlines}
+def reference_points(
+    headlines: Mapping[str, Mapping[str, float]],
+    given: Mapping[str, Mapping[str, float]] | None = None,
+) -> dict[str, tuple[float, float]]:
+    """Each figure's ``(good, poor)``: as given, else good 0 and poor the worst value
+    among ``headlines`` (all the study's plans)."""
+    given = given or {}
+    points = {}
     for figure in OBJECTIVE_FIGURES:
-        values = {plan: float(figures[figure]) for plan, figures in headlines.items()}
-        low, high = min(values.values()), max(values.values())
-        spread = high - low
-        equal = not _below(low, high)
-        for plan, value in values.items():
-            normalised[plan][figure] = 0.0 if equal else (value - low) / spread
-    return normalised
+        stated = given.get(figure, {})
+        worst = max((float(values[figure]) for values in headlines.values()), default=0.0)
+        good = float(stated.get("good", 0.0))
+        poor = float(stated.get("poor", worst))
+        points[figure] = (good, poor)
+    return points
+
+
+def _scaled(value: float, good: float, poor: float) -> float:
+    if not _below(min(good, poor), max(good, poor)):
+        return 0.0
+    return min(max((value - good) / (poor - good), 0.0), 1.0)
 
 
 def _rank(
-    normalised: dict[str, dict[str, float]], weights: Mapping[str, float], plans: Sequence[str]
+    headlines: Mapping[str, Mapping[str, float]],
+    weights: Mapping[str, float],
+    reference: Mapping[str, tuple[float, float]],
 ) -> Ranking:
-    contributions = {
+    plans = list(headlines)
+    scaled = {
         plan: {
-            figure: float(weights[figure]) * normalised[plan][figure]
+            figure: _scaled(float(headlines[plan][figure]), *reference[figure])
             for figure in OBJECTIVE_FIGURES
         }
+        for plan in plans
+    }
+    contributions = {
+        plan: {figure: float(weights[figure]) * scaled[plan][figure] for figure in scaled[plan]}
         for plan in plans
     }
     scores = {plan: sum(contributions[plan].values()) for plan in plans}
@@ -216,7 +256,12 @@ def _rank(
         order.insert(place, plan)
     return Ranking(
         weights={figure: float(weights[figure]) for figure in OBJECTIVE_FIGURES},
-        normalised=normalised,
+        reference={figure: reference[figure] for figure in OBJECTIVE_FIGURES},
+        separating={
+            figure: _below(min(reference[figure]), max(reference[figure]))
+            for figure in OBJECTIVE_FIGURES
+        },
+        scaled=scaled,
         contributions=contributions,
         scores=scores,
         order=tuple(order),
@@ -233,9 +278,12 @@ def _weights_in_force(weights: Mapping[str, Any] | None) -> dict[str, float]:
 
 
 def objective(
-    headlines: Mapping[str, Mapping[str, float]], weights: Mapping[str, float] | None = None
+    headlines: Mapping[str, Mapping[str, float]],
+    weights: Mapping[str, float] | None = None,
+    reference: Mapping[str, Mapping[str, float]] | None = None,
+    study_headlines: Mapping[str, Mapping[str, float]] | None = None,
 ) -> Ranking:
-    """Rank plans by the weighted sum of their min-max normalised headline figures.
+    """Rank plans by the weighted sum of their figures scaled between reference points.
 
     Parameters
     ----------
@@ -245,6 +293,12 @@ def objective(
     weights : mapping, optional
         Figure to weight (at least 0, not all 0); figures left out keep the default of
         the tool assumption ``objective_weights``.
+    reference : mapping, optional
+        Figure to ``{"good": g, "poor": p}`` (either may be left out): the tool
+        assumption ``objective_reference``.
+    study_headlines : mapping, optional
+        Every plan of the study, for the default poor value (the worst among them);
+        by default ``headlines``.
 
     Returns
     -------
@@ -257,93 +311,121 @@ def objective(
 
     Examples
     --------
-    Two plans that differ in burden only: the lighter one scores 0, the heavier one the
-    burden weight.
+    Two plans that differ in burden only: by default good is 0 and poor the heavier
+    plan's burden, so the lighter plan scores its share of it.
 
     >>> base = dict.fromkeys(OBJECTIVE_FIGURES, 0.0)
-    >>> ranking = objective({"a": {**base, "burden_s_per_day": 90}, "b": base})
-    >>> ranking.order, ranking.scores["a"]
-    (('b', 'a'), 1.0)
+    >>> ranking = objective({"a": {**base, "burden_s_per_day": 90},
+    ...                      "b": {**base, "burden_s_per_day": 30}})
+    >>> ranking.order, ranking.scores["a"], round(ranking.scores["b"], 4)
+    (('b', 'a'), 1.0, 0.3333)
     """
     if not headlines:
         raise NotComparable("no plans to rank")
     in_force = _weights_in_force(weights)
-    return _rank(_normalise(headlines), in_force, list(headlines))
+    points = reference_points(study_headlines or headlines, reference)
+    return _rank(headlines, in_force, points)
 
 
 @dataclass(frozen=True)
-class WeightShift:
-    """The ranking with one weight moved: the weight used, the order, the swaps.
+class WeightChange:
+    """The smallest change of one weight alone that reverses the two leading plans.
 
-    ``swaps`` are the pairs ``(a, b)`` where ``a`` ranked above ``b`` before and below
-    it now.
+    ``change`` is ``None`` where no weight of at least 0 reverses them (the figure does
+    not tell them apart, or moving it only widens the gap).
     """
-
-    weight: float
-    order: tuple[str, ...]
-    swaps: tuple[tuple[str, str], ...]
-
-    @property
-    def changed(self) -> bool:
-        return bool(self.swaps)
-
-
-@dataclass(frozen=True)
-class SensitivityRow:
-    """One weight moved down and up by the same share, the other weights fixed."""
 
     figure: str
     weight: float
-    lower: WeightShift
-    upper: WeightShift
+    change: float | None
+
+    @property
+    def reversing_weight(self) -> float | None:
+        return None if self.change is None else self.weight + self.change
+
+
+@dataclass(frozen=True)
+class Sensitivity:
+    """How far the ranking holds: the two leading plans' reversing weight changes, and
+    the share of sampled weight vectors in which each plan comes first."""
+
+    leader: str
+    runner_up: str | None
+    gap: float
+    changes: tuple[WeightChange, ...]
+    first_shares: dict[str, float]
+    samples: int
 
     @property
     def changed(self) -> bool:
-        return self.lower.changed or self.upper.changed
+        """Whether any single weight change reverses the two leading plans."""
+        return any(change.change is not None for change in self.changes)
 
 
-def _swaps(before: Sequence[str], after: Sequence[str]) -> tuple[tuple[str, str], ...]:
-    place = {plan: index for index, plan in enumerate(after)}
-    return tuple((a, b) for a, b in combinations(before, 2) if place[a] > place[b])
+def _reversing_change(gap: float, weight: float, leader: float, runner: float) -> float | None:
+    """Solve gap + change * (leader - runner) = 0 for one weight (linear in it), where
+    ``gap`` = runner's total - leader's total >= 0 and the scaled figures are given."""
+    difference = leader - runner
+    if not _below(0.0, abs(difference)):
+        return None
+    change = gap / difference
+    return change if weight + change >= 0 else None
 
 
 def sensitivity(
     headlines: Mapping[str, Mapping[str, float]],
     weights: Mapping[str, float] | None = None,
-    step: float = 0.5,
-) -> tuple[SensitivityRow, ...]:
-    """How the ranking answers each weight moved by ``-step`` and ``+step`` (one at a time).
+    reference: Mapping[str, Mapping[str, float]] | None = None,
+    study_headlines: Mapping[str, Mapping[str, float]] | None = None,
+    samples: int = SENSITIVITY_SAMPLES,
+    seed: int = SENSITIVITY_SEED,
+) -> Sensitivity:
+    """How the ranking holds when the weights move.
 
     Parameters
     ----------
-    headlines, weights
+    headlines, weights, reference, study_headlines
         As for :func:`objective`.
-    step : float
-        The share each weight moves by, in (0, 1]; 0.5 gives -50 % and +50 %.
+    samples, seed : int
+        Weight vectors drawn from a Dirichlet distribution with mean the set weights'
+        shares and concentration ``SENSITIVITY_CONCENTRATION``, scaled to their sum;
+        figures weighted 0 stay 0.
 
     Returns
     -------
-    tuple of SensitivityRow
-        One per figure of ``OBJECTIVE_FIGURES``, in that order. A weight of 0 stays 0
-        either way, so its ranking cannot change.
+    Sensitivity
     """
-    if not 0 < step <= 1:
-        raise NotComparable(f"step must be in (0, 1], not {step!r}")
-    if not headlines:
-        raise NotComparable("no plans to rank")
-    in_force = _weights_in_force(weights)
-    plans = list(headlines)
-    normalised = _normalise(headlines)
-    base = _rank(normalised, in_force, plans).order
-    rows = []
-    for figure in OBJECTIVE_FIGURES:
-        shifts = []
-        for factor in (1 - step, 1 + step):
-            moved = {**in_force, figure: in_force[figure] * factor}
-            order = _rank(normalised, moved, plans).order
-            shifts.append(WeightShift(moved[figure], order, _swaps(base, order)))
-        rows.append(SensitivityRow(figure, in_force[figure], shifts[0], shifts[1]))
-    return tuple(rows)
+    ranking = objective(headlines, weights, reference, study_headlines)
+    order = ranking.order
+    leader = order[0]
+    runner = order[1] if len(order) > 1 else None
+    changes = []
+    gap = 0.0
+    if runner is not None:
+        gap = ranking.scores[runner] - ranking.scores[leader]
+        for figure in OBJECTIVE_FIGURES:
+            weight = ranking.weights[figure]
+            change = _reversing_change(
+                gap, weight, ranking.scaled[leader][figure], ranking.scaled[runner][figure]
+            )
+            changes.append(WeightChange(figure, weight, change))
+    used = [figure for figure in OBJECTIVE_FIGURES if ranking.weights[figure] > 0]
+    total = sum(ranking.weights[figure] for figure in used)
+    mean = np.array([ranking.weights[figure] / total for figure in used])
+    drawn = np.random.default_rng(seed).dirichlet(SENSITIVITY_CONCENTRATION * mean, samples)
+    scaled = np.array([[ranking.scaled[plan][figure] for figure in used] for plan in order])
+    totals = (drawn * total) @ scaled.T  # samples x plans
+    # Ties go to the plan ranked first now (argmin takes the first lowest).
+    winners = np.argmin(totals + _SAME * np.arange(len(order)), axis=1)
+    counts = np.bincount(winners, minlength=len(order))
+    return Sensitivity(
+        leader=leader,
+        runner_up=runner,
+        gap=gap,
+        changes=tuple(changes),
+        first_shares={plan: counts[index] / samples for index, plan in enumerate(order)},
+        samples=samples,
+    )
 
 
 def weight_problems(values: Mapping[str, Any]) -> dict[str, str]:
@@ -539,7 +621,7 @@ class Comparison:
     people: tuple[FigureRow, ...]
     deltas: tuple[PlanDelta, ...]
     ranking: Ranking
-    sensitivity: tuple[SensitivityRow, ...]
+    sensitivity: Sensitivity
 
     @property
     def baseline(self) -> str:
@@ -565,7 +647,9 @@ def _check_analyses(analyses: Sequence[PlanAnalysis]) -> None:
 
 
 def compare_plans(
-    analyses: Iterable[PlanAnalysis], weights: Mapping[str, float] | None = None
+    analyses: Iterable[PlanAnalysis],
+    weights: Mapping[str, float] | None = None,
+    study_headlines: Mapping[str, Mapping[str, float]] | None = None,
 ) -> Comparison:
     """Compare plans of one study, the first the baseline, and rank them.
 
@@ -577,6 +661,9 @@ def compare_plans(
     weights : mapping, optional
         Objective weights; by default the study's assumption ``objective_weights`` in
         force in the first analysis.
+    study_headlines : mapping, optional
+        The headline figures of every plan of the study, for the default poor value of
+        each figure (the worst among them); by default those of the plans compared.
 
     Returns
     -------
@@ -592,6 +679,7 @@ def compare_plans(
     _check_analyses(analyses)
     if weights is None:
         weights = analyses[0].assumptions.get("objective_weights", OBJECTIVE_WEIGHTS)
+    reference = analyses[0].assumptions.get("objective_reference") or {}
     plans = tuple(analysis.plan.id for analysis in analyses)
     headlines = {analysis.plan.id: analysis.headline() for analysis in analyses}
     figures = tuple(_figure_row(key, [headlines[plan][key] for plan in plans]) for key in FIGURES)
@@ -610,6 +698,6 @@ def compare_plans(
         figures=figures,
         people=tuple(people),
         deltas=tuple(_delta(base, other) for other in analyses[1:]),
-        ranking=objective(headlines, weights),
-        sensitivity=sensitivity(headlines, weights),
+        ranking=objective(headlines, weights, reference, study_headlines),
+        sensitivity=sensitivity(headlines, weights, reference, study_headlines),
     )

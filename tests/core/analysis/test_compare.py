@@ -2,7 +2,10 @@
 document, #comparison).
 
 The objective's values are worked by hand below from its definition (a weighted sum of
-min-max normalised figures: a tool assumption, so the arithmetic itself is the check).
+figures placed between reference points, good 0 and poor the worst plan's value by
+default: a tool assumption, so the arithmetic itself is the check). The sensitivity's
+shares of sampled weights are checked against the Beta distribution a two-figure
+Dirichlet reduces to (scipy.stats.beta).
 The burden moved on the home-heating study is worked by hand from Methods, #person-time
 (person_s = sum of split x duration x (1 - d) + supervision, sv10 d = (L - 1) / 9,
 supervision at level 7 = 4 s, monitoring 10 s: the tool assumptions' defaults).
@@ -79,112 +82,131 @@ THREE = {
 
 
 def test_objective_by_hand_on_three_plans():
-    """Normalised (x - min) / (max - min) per figure, then weighted and summed:
+    """Each figure over its poor value (the worst plan's; good 0), weighted and summed:
 
     ============== ====== ===== ===== =====
     figure         weight A     B     C
     ============== ====== ===== ===== =====
-    burden         1      0     1/2   1       (100, 200, 300)
-    interruptions  1      1/3   0     1       (2, 1, 4): spread 3
-    night          1      0     0     0       (all 0: equal, counts 0)
-    review         1      0     1     1/2     (1, 3, 2)
-    max risk       2      0     0     1       (4, 4, 8)
-    awareness      1      0     1     1/2     (0.2, 0.4, 0.3)
-    cut ratio      0.5    0     1     1/2     (0.1, 0.3, 0.2)
-    findings       1      1     0     1/2     (3, 1, 2)
+    burden         1      1/3   2/3   1       (100, 200, 300) / 300
+    interruptions  1      1/2   1/4   1       (2, 1, 4) / 4
+    night          1      0     0     0       (all 0: poor = good, does not separate)
+    review         1      1/3   1     2/3     (1, 3, 2) / 3
+    max risk       2      1/2   1/2   1       (4, 4, 8) / 8
+    awareness      1      1/2   1     3/4     (0.2, 0.4, 0.3) / 0.4
+    cut ratio      0.5    1/3   1     2/3     (0.1, 0.3, 0.2) / 0.3
+    findings       1      1     1/3   2/3     (3, 1, 2) / 3
     ============== ====== ===== ===== =====
 
-    A = 1/3 + 1 = 4/3; B = 1/2 + 1 + 1 + 1/2 = 3; C = 1 + 1 + 1/2 + 2 + 1/2 + 1/4 + 1/2
-    = 5.75. Lower is better: A, B, C.
+    A = 1/3 + 1/2 + 1/3 + 1 + 1/2 + 1/6 + 1 = 23/6; B = 2/3 + 1/4 + 1 + 1 + 1 + 1/2 + 1/3
+    = 57/12; C = 1 + 1 + 2/3 + 2 + 3/4 + 1/3 + 2/3 = 77/12. Lower is better: A, B, C.
     """
     ranking = objective(THREE)
-    assert ranking.scores == pytest.approx({"A": 4 / 3, "B": 3.0, "C": 5.75})
+    assert ranking.scores == pytest.approx({"A": 23 / 6, "B": 57 / 12, "C": 77 / 12})
     assert ranking.order == ("A", "B", "C")
     assert [ranking.rank(plan) for plan in "ABC"] == [1, 2, 3]
-    assert ranking.normalised["A"]["interruptions_per_day"] == pytest.approx(1 / 3)
-    assert ranking.normalised["C"]["cut_ratio"] == pytest.approx(0.5)
+    assert ranking.scaled["A"]["interruptions_per_day"] == pytest.approx(1 / 2)
+    assert ranking.scaled["C"]["cut_ratio"] == pytest.approx(2 / 3)
     assert ranking.contributions["C"]["max_risk"] == pytest.approx(2.0)
-    assert ranking.contributions["C"]["cut_ratio"] == pytest.approx(0.25)
-    assert all(ranking.normalised[plan]["night_interruptions_per_day"] == 0 for plan in "ABC")
-    for plan in "ABC":
-        assert sum(ranking.contributions[plan].values()) == pytest.approx(ranking.scores[plan])
+    assert ranking.contributions["C"]["cut_ratio"] == pytest.approx(1 / 3)
+    assert ranking.reference["burden_s_per_day"] == (0.0, 300.0)
+    assert not ranking.separating["night_interruptions_per_day"]
+    assert all(ranking.scaled[plan]["night_interruptions_per_day"] == 0 for plan in "ABC")
 
 
-def test_figure_equal_in_every_plan_counts_nothing():
+def test_a_score_does_not_depend_on_the_plans_picked():
+    """With poor taken over all the study's plans, A and B alone score as among three."""
+    ranking = objective({"A": THREE["A"], "B": THREE["B"]}, study_headlines=THREE)
+    assert ranking.scores == pytest.approx({"A": 23 / 6, "B": 57 / 12})
+
+
+def test_reference_points_given_place_each_figure_and_clip():
+    """Burden good 100, poor 250: A (100) 0, B (200) 2/3, C (300) past poor, clipped to 1.
+    Findings good = poor = 2: scores 0 in every plan and does not separate them."""
+    reference = {
+        "burden_s_per_day": {"good": 100, "poor": 250},
+        "findings": {"good": 2, "poor": 2},
+    }
+    ranking = objective(THREE, reference=reference)
+    assert [ranking.scaled[plan]["burden_s_per_day"] for plan in "ABC"] == pytest.approx(
+        [0, 2 / 3, 1]
+    )
+    assert [ranking.scaled[plan]["findings"] for plan in "ABC"] == [0, 0, 0]
+    assert not ranking.separating["findings"]
+    # A loses its burden share (1/3) and findings (1): 23/6 - 4/3 = 5/2.
+    assert ranking.scores["A"] == pytest.approx(5 / 2)
+
+
+def test_figure_equal_in_every_plan_counts_nothing_only_where_it_is_zero():
+    """Findings 4 in both plans: poor 4, so both score the whole weight 1 (a figure equal
+    everywhere still costs what it costs); at 0 in both it does not separate them."""
     ranking = objective({"A": headline(findings=4), "B": headline(findings=4)})
-    assert ranking.scores == {"A": 0.0, "B": 0.0}
+    assert ranking.scores == {"A": 1.0, "B": 1.0}
     assert ranking.order == ("A", "B")  # a tie keeps the order given
     assert ranking.rank("A") == ranking.rank("B") == 1
+    assert objective({"A": ZERO, "B": ZERO}).scores == {"A": 0.0, "B": 0.0}
 
 
 def test_weights_left_out_keep_the_defaults():
-    """Burden weight 3 instead of 1: B = 3/2 + 1 + 1 + 1/2 = 4; A and C as before but C's
-    burden 1 becomes 3: C = 5.75 + 2 = 7.75."""
+    """Burden weight 3 instead of 1: each plan gains twice its burden share:
+    A = 23/6 + 2/3 = 9/2, B = 57/12 + 4/3 = 73/12, C = 77/12 + 2 = 101/12."""
     ranking = objective(THREE, {"burden_s_per_day": 3})
-    assert ranking.scores == pytest.approx({"A": 4 / 3, "B": 4.0, "C": 7.75})
+    assert ranking.scores == pytest.approx({"A": 9 / 2, "B": 73 / 12, "C": 101 / 12})
     assert ranking.weights["max_risk"] == OBJECTIVE_WEIGHTS["max_risk"]
 
 
-def test_no_single_weight_moved_by_half_changes_the_three_plans():
-    """The nearest call is B against A (3 against 4/3): the largest single move in their
-    favour is findings +50 % (A = 1/3 + 3/2 = 11/6 < 3). C against B: max risk -50 % gives
-    C = 4.75 > 3. So every row says unchanged."""
-    rows = sensitivity(THREE)
-    assert [row.figure for row in rows] == list(OBJECTIVE_FIGURES)
-    assert not any(row.changed for row in rows)
-    findings = rows[OBJECTIVE_FIGURES.index("findings")]
-    assert (findings.lower.weight, findings.upper.weight) == (0.5, 1.5)
-    assert findings.upper.order == ("A", "B", "C")
+def test_the_weight_changes_that_reverse_the_two_leading_plans():
+    """A leads B by G = 57/12 - 23/6 = 11/12. Moving weight f by D changes the gap by
+    D (a_f - b_f), so D = G / (a_f - b_f), kept where the weight stays at least 0:
+    interruptions (1/2 - 1/4): +11/3; findings (1 - 1/3): +11/8; burden (1/3 - 2/3):
+    -11/4 would make the weight negative, so none; review, awareness and cut ratio
+    likewise; night and max risk do not tell A from B: none."""
+    held = sensitivity(THREE)
+    assert (held.leader, held.runner_up) == ("A", "B")
+    assert held.gap == pytest.approx(11 / 12)
+    changes = {change.figure: change.change for change in held.changes}
+    assert changes["interruptions_per_day"] == pytest.approx(11 / 3)
+    assert changes["findings"] == pytest.approx(11 / 8)
+    none = {"burden_s_per_day", "night_interruptions_per_day", "handovers_to_review"}
+    none |= {"max_risk", "mean_awareness", "cut_ratio"}
+    assert {figure for figure, change in changes.items() if change is None} == none
+    # At the reversing weight the two tie.
+    level = objective(THREE, {"findings": 1 + 11 / 8})
+    assert level.scores["A"] == pytest.approx(level.scores["B"])
 
 
-#: Two plans, only burden (weight 1) and max risk (weight 0.8) weighed: P has the higher
-#: risk, Q the higher burden.
+#: Two plans, only burden (weight 3) and findings (weight 1) weighed: P is lighter, Q
+#: has fewer findings.
 TWO = {
-    "P": headline(burden_s_per_day=100, max_risk=10),
-    "Q": headline(burden_s_per_day=400, max_risk=5),
+    "P": headline(burden_s_per_day=100, findings=2),
+    "Q": headline(burden_s_per_day=200, findings=1),
 }
-TWO_WEIGHTS = {**dict.fromkeys(OBJECTIVE_FIGURES, 0.0), "burden_s_per_day": 1, "max_risk": 0.8}
+TWO_WEIGHTS = {**dict.fromkeys(OBJECTIVE_FIGURES, 0.0), "burden_s_per_day": 3, "findings": 1}
 
 
-def test_a_half_step_flips_two_plans():
-    """P = 0.8 x 1 = 0.8, Q = 1 x 1 = 1: P first.
-
-    Max risk +50 %: P = 1.2 > Q = 1, Q first (P and Q swap); -50 %: P = 0.4, unchanged.
-    Burden -50 %: Q = 0.5 < P = 0.8, Q first; +50 %: Q = 1.5, unchanged. The other
-    weights are 0 and stay 0: unchanged.
-    """
-    assert objective(TWO, TWO_WEIGHTS).order == ("P", "Q")
-    rows = {row.figure: row for row in sensitivity(TWO, TWO_WEIGHTS)}
-    risk, burden = rows["max_risk"], rows["burden_s_per_day"]
-    assert risk.upper.weight == pytest.approx(1.2)
-    assert risk.upper.order == ("Q", "P")
-    assert risk.upper.swaps == (("P", "Q"),)
-    assert risk.lower.order == ("P", "Q") and not risk.lower.changed
-    assert burden.lower.weight == pytest.approx(0.5)
-    assert burden.lower.swaps == (("P", "Q"),)
-    assert not burden.upper.changed
-    assert {name for name, row in rows.items() if row.changed} == {"max_risk", "burden_s_per_day"}
+def test_the_share_of_sampled_weights_each_plan_comes_first_in():
+    """P = 3 x 1/2 + 1 x 1 = 2.5, Q = 3 x 1 + 1 x 1/2 = 3.5. With weights w_b and w_f,
+    P comes first where w_f < w_b. The weights are drawn as 4 x Dirichlet(20 x 3/4,
+    20 x 1/4), so w_b's share is Beta(15, 5) and P comes first with probability
+    P(share > 1/2) = 1 - I_{1/2}(15, 5) (scipy.stats.beta); within 4 binomial standard
+    errors of 1,000 draws."""
+    scipy_stats = pytest.importorskip("scipy.stats")
+    held = sensitivity(TWO, TWO_WEIGHTS)
+    expected = scipy_stats.beta(15, 5).sf(0.5)
+    error = (expected * (1 - expected) / held.samples) ** 0.5
+    assert held.first_shares["P"] == pytest.approx(expected, abs=4 * error + 1e-9)
+    assert held.first_shares["P"] + held.first_shares["Q"] == pytest.approx(1.0)
+    # Burden alone reverses them: 3 + D = 1 ... D = G / (1/2 - 1) = -2 (weight 1, tie).
+    changes = {change.figure: change.change for change in held.changes}
+    assert changes["burden_s_per_day"] == pytest.approx(-2.0)
+    assert changes["findings"] == pytest.approx(2.0)
 
 
-def test_swaps_name_every_pair_that_changes_places():
-    """Three plans X, Y, Z with one figure each: weights 1 (burden), 1.2 (findings),
-    1.4 (max risk) give X = 1, Y = 1.2, Z = 1.4. Max risk -50 % makes Z = 0.7, first:
-    Z passes both X and Y."""
+def test_a_plan_better_on_every_figure_comes_first_in_every_draw():
     plans = {
-        "X": headline(burden_s_per_day=1),
-        "Y": headline(findings=1),
-        "Z": headline(max_risk=1),
+        "best": headline(burden_s_per_day=1, findings=1),
+        "worse": headline(burden_s_per_day=2, findings=3),
     }
-    weights = {
-        **dict.fromkeys(OBJECTIVE_FIGURES, 0.0),
-        "burden_s_per_day": 1,
-        "findings": 1.2,
-        "max_risk": 1.4,
-    }
-    assert objective(plans, weights).order == ("X", "Y", "Z")
-    risk = {row.figure: row for row in sensitivity(plans, weights)}["max_risk"]
-    assert risk.lower.order == ("Z", "X", "Y")
-    assert risk.lower.swaps == (("X", "Z"), ("Y", "Z"))
+    assert sensitivity(plans).first_shares == {"best": 1.0, "worse": 0.0}
 
 
 @pytest.mark.parametrize(
@@ -212,7 +234,7 @@ def test_default_weights_are_allowed_and_documented():
 
     entry = next(a for a in ASSUMPTIONS if a.key == "objective_weights")
     assert entry.status == "tool assumption"
-    assert "highest handover risk 2" in entry.description
+    assert "highest screening index 2" in entry.description
 
 
 # -- matching ---------------------------------------------------------------------------
@@ -322,13 +344,18 @@ def test_home_heating_by_hand():
 
 
 def test_home_heating_objective_by_hand():
-    """Both plans: 1 interruption, no review, cut ratio 0 (equal: 0). Burden 70/3 vs
-    53/3 (expected durations, worked in test_home_heating_by_hand): manual worst; max
-    risk 0 vs 6, mean awareness, findings 1 vs 5 (the mode map's four): auto worst in
-    each. manual = 1, auto = 2 + 1 + 1 = 4."""
+    """Burden 70/3 vs 53/3 (expected durations, worked in test_home_heating_by_hand):
+    poor 70/3, so manual 1 and auto 53/70; one interruption a day in each: 1 each; no
+    review, no night, cut ratio 0: nothing; max risk 0 vs 6 (weight 2): auto 2; findings
+    1 vs 5: manual 1/5, auto 1; mean awareness a_m vs a_a: manual a_m / a_a, auto 1.
+    manual = 1 + 1 + 1/5 + a_m / a_a = 2.2 + a_m / a_a;
+    auto = 53/70 + 1 + 2 + 1 + 1 = 5 + 53/70."""
     analyses = heating()
     comparison = compare_plans([analyses["manual"], analyses["auto"]])
-    assert comparison.ranking.scores == pytest.approx({"manual": 1.0, "auto": 4.0})
+    awareness = next(row for row in comparison.figures if row.key == "mean_awareness").values
+    assert comparison.ranking.scores == pytest.approx(
+        {"manual": 2.2 + awareness[0] / awareness[1], "auto": 5 + 53 / 70}
+    )
     assert comparison.ranking.order == ("manual", "auto")
     burden = next(row for row in comparison.figures if row.key == "burden_s_per_day")
     assert burden.values == pytest.approx((70 / 3, 53 / 3))
@@ -413,8 +440,9 @@ def test_plans_that_cannot_be_compared():
 
 def test_study_weights_are_used_by_default():
     """The study's own objective_weights, resolved into the analysis, rank the plans:
-    with only interruptions weighed (one a day in both plans) the two tie, so the order
-    given stands and auto, given first, ranks first."""
+    with only interruptions weighed (one a day in both plans, which is also the poor
+    value) the two tie at 1, so the order given stands and auto, given first, ranks
+    first."""
     document = json.loads(json.dumps(HOME_HEATING))
     weights = {**dict.fromkeys(OBJECTIVE_FIGURES, 0), "interruptions_per_day": 1}
     document["study"]["assumptions"] = {"objective_weights": weights}
@@ -422,5 +450,5 @@ def test_study_weights_are_used_by_default():
     graph = prepare(study)
     analyses = [analyse_plan(study, plan, graph=graph) for plan in ("auto", "manual")]
     comparison = compare_plans(analyses)
-    assert comparison.ranking.scores == {"auto": 0.0, "manual": 0.0}
+    assert comparison.ranking.scores == {"auto": 1.0, "manual": 1.0}
     assert comparison.ranking.order == ("auto", "manual")
