@@ -37,6 +37,7 @@ __all__ = [
     "MethodsDocument",
     "MethodsDocumentError",
     "Section",
+    "assumption_uses",
     "document_html",
     "markdown_html",
     "methods_document",
@@ -255,6 +256,23 @@ def methods_document() -> MethodsDocument:
     """Baton's own methods document, read once per process."""
     text = resources.files(__package__).joinpath(METHODS_FILE).read_text(encoding="utf-8")
     return parse_methods(text)
+
+
+_USE_ROW = re.compile(r"^\| `(?P<key>[a-z_]+)` \|.*\|(?P<used>[^|]*)\|\s*$", re.M)
+_LINK = re.compile(r"\[(?P<title>[^\]]+)\]\(#(?P<anchor>[a-z0-9-]+)\)")
+
+
+@cache
+def assumption_uses() -> dict[str, tuple[tuple[str, str], ...]]:
+    """Where each assumption is used: its row of the document's list of assumptions,
+    as ``(title, anchor)`` pairs of the sections named in its last column."""
+    table = methods_document().section("assumption-list").body
+    return {
+        match["key"]: tuple(
+            (link["title"], link["anchor"]) for link in _LINK.finditer(match["used"])
+        )
+        for match in _USE_ROW.finditer(table)
+    }
 
 
 @cache

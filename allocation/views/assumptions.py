@@ -21,6 +21,7 @@ from allocation import services
 from allocation.core import Problem, StudyInvalid
 from allocation.core.analysis.risk import resolve_policy
 from allocation.core.assumptions import METHOD_NOTES, assumption_table
+from allocation.core.methods import assumption_uses
 from allocation.core.reading import child_path
 from allocation.core.registry import ASSUMPTION_STATUS_WORDS, figure_text
 from allocation.figures import dashboards as dashboard_figures
@@ -135,6 +136,7 @@ def _row(
     return {
         **item,
         "status_words": ASSUMPTION_STATUS_WORDS[item["status"]].label,
+        "used_in": assumption_uses().get(key, ()),
         "default_text": value_text(item["default"]),
         "default_items": value_items(item["default"]),
         "override_text": value_text(override) if item["overridden"] else "",

@@ -264,3 +264,17 @@ def test_the_document_ships_with_the_package():
     pyproject = tomllib.loads((ROOT / "pyproject.toml").read_text(encoding="utf-8"))
     patterns = pyproject["tool"]["setuptools"]["package-data"]["allocation"]
     assert any(fnmatch(f"core/{METHODS_FILE}", pattern) for pattern in patterns)
+
+
+def test_every_assumption_says_where_it_is_used():
+    """The Assumptions page links each assumption to the sections that use it: read from
+    the last column of the document's list, every link reaching a section."""
+    from allocation.core.methods import assumption_uses
+
+    uses = assumption_uses()
+    document = methods_document()
+    for assumption in ASSUMPTIONS:
+        assert uses.get(assumption.key), assumption.key
+        for _title, anchor in uses[assumption.key]:
+            assert anchor in document, (assumption.key, anchor)
+    assert ("Supervision", "supervision") in uses["supervision_s"]

@@ -301,3 +301,13 @@ def test_saving_a_value_that_moves_nothing_says_so(client, study, owner):
     response = client.post(set_url(study), {"key": "channel_limit", "value": "6"}, headers=HTMX)
     fragment = response.content.decode()
     assert "No headline figure moved." in fragment and "was " not in fragment
+
+
+def test_each_assumption_links_to_where_it_is_used(client, study, owner):
+    client.force_login(owner)
+    page = client.get(page_url(study)).content.decode()
+    row = page[page.index('id="assumption-cue_weakness"') :]
+    row = row[: row.index("</tr>")]
+    assert "Used in" in row
+    assert '#awareness-factors">Awareness factors</a>' in row
+    assert '#handover-likelihood">Likelihood index</a>' in row
