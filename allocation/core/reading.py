@@ -814,19 +814,7 @@ class StudyReader:
         data = self.obj(value, path, ("from", "to", "kind"), ("lag_s", "probability", "notes"))
         if data is None or "from" not in data or "to" not in data:
             return None
-        # "from": "*" is a transition from every mode (overridden where a mode has its
-        # own transition with the same trigger).
-        source = (
-            ANY_MODE
-            if data["from"] == ANY_MODE
-            else self.identifier(data["from"], child_path(path, "from"))
-        )
-        if data["to"] == ANY_MODE:
-            self.error(
-                child_path(path, "to"),
-                'must name one mode: "*" (every mode) is for "from" only',
-            )
-            return None
+        source = self.identifier(data["from"], child_path(path, "from"))
         target = self.identifier(data["to"], child_path(path, "to"))
         kind = self.optional(data, "kind", path, lambda v, p: self.choice(v, p, LINK_KINDS))
         if source is None or target is None:
@@ -984,7 +972,19 @@ class StudyReader:
         data = self.obj(value, path, ("from", "to", "trigger", "by", "cue"), ("per_day", "notes"))
         if data is None or "from" not in data or "to" not in data:
             return None
-        source = self.identifier(data["from"], child_path(path, "from"))
+        # "from": "*" is a transition from every mode (overridden where a mode has its
+        # own transition with the same trigger).
+        source = (
+            ANY_MODE
+            if data["from"] == ANY_MODE
+            else self.identifier(data["from"], child_path(path, "from"))
+        )
+        if data["to"] == ANY_MODE:
+            self.error(
+                child_path(path, "to"),
+                'must name one mode: "*" (every mode) is for "from" only',
+            )
+            return None
         target = self.identifier(data["to"], child_path(path, "to"))
         if source is None or target is None:
             return None
