@@ -2,14 +2,14 @@
 document, ``#mode-check``).
 
 The **machine** is the mode map: its modes and transitions (a transition from ``"*"``
-counts from every mode, except where the mode has its own with the same trigger). The **person's model** is
-what they can observe of it: their own actions (they know what each does, so after one
-they believe the mode it leads to from the mode they believed) and the cues of the other
-transitions. An ``alert`` or ``alert_confirm`` is always noticed, a change with cue
-``none`` never is, and one shown only on the ``display`` or ``on_request`` may or may
-not be noticed, so the search branches both ways (tool assumption, after Sarter & Woods
-1995: unannounced and passively shown changes are the ones people miss). The person's
-belief is a mode.
+counts from every mode, except where the mode has its own with the same trigger). The
+**person's model** is what they can observe of it: their own actions (they know what
+each does, so after one they believe the mode it leads to from the mode they believed)
+and the cues of the other transitions. An ``alert`` or ``alert_confirm`` is always
+noticed, a change with cue ``none`` never is, and one shown only on the ``display`` or
+``on_request`` may or may not be noticed, so the search branches both ways (tool
+assumption, after Sarter & Woods 1995: unannounced and passively shown changes are the
+ones people miss). The person's belief is a mode.
 
 The two are composed as in Degani & Heymann (2002): a state is ``(actual, believed)``,
 starting at ``(initial, initial)``. From ``(a, b)``, for each transition ``t`` of the
