@@ -451,11 +451,43 @@ def test_a_cue_on_an_uncued_change_can_reveal_an_error_state():
     assert ("error_state", ("A", "N")) in alerted - silent
 
 
-def test_fifty_modes_and_two_hundred_transitions():
+def test_fifty_modes_and_two_hundred_transitions_against_networkx_reachability():
+    """The product graph of a 50-mode, 200-transition machine built here edge by edge
+    from the composition rules (Degani & Heymann 2002) and searched with networkx: the
+    reachable states are exactly the check's, and the error states are exactly the
+    reachable ones whose two modes differ on T1's holder (Pat where the mode overrides
+    T1, the pump elsewhere)."""
+    import networkx as nx
+
     modes = random_machine(random.Random(7), 50, 200)
-    findings = check(modes)
-    assert len(explore(modes).states) <= 50 * 50
-    assert findings == check(modes)  # deterministic
+    graph = nx.DiGraph()
+    ids = [state.id for state in modes.states]
+    for actual in ids:
+        for believed in ids:
+            for t in modes.transitions:
+                if t.source != actual:
+                    continue
+                if t.by == "human":
+                    for u in modes.transitions:
+                        if u.source == believed and u.by == "human" and u.trigger == t.trigger:
+                            graph.add_edge((actual, believed), (t.target, u.target))
+                    continue
+                if t.cue != "none":
+                    graph.add_edge((actual, believed), (t.target, t.target))
+                if t.cue in ("none", "display", "on_request"):
+                    graph.add_edge((actual, believed), (t.target, believed))
+    start = ("m0", "m0")
+    reachable = {start} | (nx.descendants(graph, start) if start in graph else set())
+    assert set(explore(modes).states) == reachable
+    held_by_pat = {state.id for state in modes.states if state.overrides}
+    expected_errors = {
+        (actual, believed)
+        for actual, believed in reachable
+        if (actual in held_by_pat) != (believed in held_by_pat)
+    }
+    errors = {f.modes for f in check(modes) if f.kind == "error_state"}
+    assert errors == expected_errors
+    assert len(expected_errors) > 10  # the machine is not trivial
 
 
 # -- revision 2 corrections, each on a small map worked by hand ---------------------------
