@@ -567,7 +567,7 @@ def verify_mode_map(study: Study, plan: Plan, assumptions: dict[str, Any]) -> li
 
 def _uncued_changes(check: _Checker, modes: ModeMap, found: Exploration, actions) -> list[Finding]:
     findings = []
-    for t in modes.transitions:
+    for t in modes.expanded:
         if t.by == "human" or t.cue != "none" or t.source not in modes.by_id:
             continue
         if t.target not in modes.by_id:
@@ -681,7 +681,7 @@ def _unforeseen_transitions(
     check: _Checker, modes: ModeMap, found: Exploration, actions
 ) -> list[Finding]:
     findings = []
-    for t in modes.transitions:
+    for t in modes.expanded:
         if t.by == "human" or t.cue != "none" or t.source not in found.machine_parents:
             continue
         if t.target not in modes.by_id or t.source == t.target:
