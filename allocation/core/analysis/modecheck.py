@@ -232,15 +232,17 @@ def _no_effect(out: dict[str, list[Transition]]) -> dict[str, set[str]]:
     transitions all lead to that mode, where the mode has none of its own (its effect
     already holds; tool assumption)."""
     targets: dict[str, set[str]] = {}
-    for transitions in out.values():
+    own: dict[str, set[str]] = {mode_id: set() for mode_id in out}
+    for mode_id, transitions in out.items():
         for t in transitions:
             if t.by == "human":
                 targets.setdefault(t.trigger, set()).add(t.target)
+                own[mode_id].add(t.trigger)
     accepted: dict[str, set[str]] = {mode_id: set() for mode_id in out}
     for trigger, into in targets.items():
         if len(into) == 1:
             (mode_id,) = into
-            if not any(t.by == "human" and t.trigger == trigger for t in out[mode_id]):
+            if trigger not in own[mode_id]:
                 accepted[mode_id].add(trigger)
     return accepted
 
