@@ -82,7 +82,8 @@ def _target(obj: Model) -> str:
     if isinstance(obj, m.ModeOverride):
         return f"plan {obj.state.plan.key} / mode {obj.state.key} / task {obj.task.key}"
     if isinstance(obj, m.ModeTransition):
-        return f"plan {obj.plan.key} / transition {obj.source.key} → {obj.target.key}"
+        source = obj.source.key if obj.source is not None else "*"
+        return f"plan {obj.plan.key} / transition {source} → {obj.target.key}"
     return f"{obj._meta.verbose_name} {obj.key}"
 
 

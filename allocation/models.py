@@ -375,7 +375,10 @@ class ModeOverride(AssignmentFields):
 
 class ModeTransition(models.Model):
     plan = models.ForeignKey(Plan, on_delete=models.CASCADE, related_name="mode_transitions")
-    source = models.ForeignKey(ModeState, on_delete=models.CASCADE, related_name="+")
+    # No source: the transition is from every mode (the study file's "from": "*").
+    source = models.ForeignKey(
+        ModeState, on_delete=models.CASCADE, related_name="+", null=True, blank=True
+    )
     target = models.ForeignKey(ModeState, on_delete=models.CASCADE, related_name="+")
     trigger = models.CharField(max_length=300)
     by = models.CharField(max_length=16, choices=_words(CAUSE_WORDS))
@@ -397,7 +400,7 @@ class ModeTransition(models.Model):
         ]
 
     def __str__(self) -> str:
-        return f"{self.source} -> {self.target}: {self.trigger}"
+        return f"{self.source or 'any mode'} -> {self.target}: {self.trigger}"
 
 
 class SimulationStatus(models.TextChoices):

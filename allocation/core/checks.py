@@ -18,7 +18,7 @@ from .assumptions import resolve_assumptions
 from .errors import Problem
 from .graph import chain_entries, hierarchy_cycle, never_occurring, precedence_cycle, triggers
 from .limits import CHAIN_ENTRIES_MAX
-from .model import Assignment, Event, ModeMap, Occurs, Plan, Study
+from .model import ANY_MODE, Assignment, Event, ModeMap, Occurs, Plan, Study
 from .reading import child_path
 
 __all__ = ["check_study"]
@@ -352,7 +352,7 @@ class _Checker:
         for index, transition in enumerate(modes.transitions):
             item_path = self.locate(transition, f"{path}.transitions[{index}]")
             for key, mode_id in (("from", transition.source), ("to", transition.target)):
-                if mode_id not in mode_ids:
+                if mode_id not in mode_ids and not (key == "from" and mode_id == ANY_MODE):
                     self.error(
                         child_path(item_path, key),
                         f"names the mode {mode_id!r}, which is not among the states",

@@ -9,7 +9,7 @@ Time is in seconds everywhere.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 from typing import Any
 
@@ -17,6 +17,7 @@ from .errors import UnknownReference
 from .vocabulary import STAGES
 
 __all__ = [
+    "ANY_MODE",
     "Agent",
     "Assignment",
     "Event",
@@ -231,9 +232,13 @@ class Mode:
     notes: str | None = None
 
 
+#: A transition's ``from`` that means every mode of the map.
+ANY_MODE = "*"
+
+
 @dataclass(frozen=True)
 class Transition:
-    """A change from one mode to another."""
+    """A change from one mode to another; ``source`` may be :data:`ANY_MODE`."""
 
     source: str
     target: str
@@ -255,6 +260,26 @@ class ModeMap:
     @cached_property
     def by_id(self) -> dict[str, Mode]:
         return {mode.id: mode for mode in self.states}
+
+    @cached_property
+    def expanded(self) -> tuple[Transition, ...]:
+        """The transitions with each one from :data:`ANY_MODE` made one per mode, in
+        file order; in a mode that has its own transition with the same trigger, that
+        one holds instead of the one from every mode."""
+        if not any(t.source == ANY_MODE for t in self.transitions):
+            return self.transitions
+        own = {(t.source, t.trigger) for t in self.transitions if t.source != ANY_MODE}
+        result: list[Transition] = []
+        for t in self.transitions:
+            if t.source != ANY_MODE:
+                result.append(t)
+                continue
+            result.extend(
+                replace(t, source=mode.id)
+                for mode in self.states
+                if (mode.id, t.trigger) not in own
+            )
+        return tuple(result)
 
 
 @dataclass(frozen=True)

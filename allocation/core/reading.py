@@ -34,6 +34,7 @@ from .limits import (
     WORD_LENGTH,
 )
 from .model import (
+    ANY_MODE,
     Agent,
     Assignment,
     Event,
@@ -556,7 +557,12 @@ class StudyReader:
         return value
 
     def risk_policy(self, value: Any, path: str) -> dict[str, Any] | None:
-        policy = self.obj(value, path, (), ("likelihood_bands", "review", "unacceptable", "note"))
+        policy = self.obj(
+            value,
+            path,
+            (),
+            ("likelihood_bands", "review", "unacceptable", "note", "critical_severity"),
+        )
         if policy is None:
             return None
         if "likelihood_bands" in policy:
@@ -586,6 +592,8 @@ class StudyReader:
                 f"must not be above unacceptable ({review} > {unacceptable})",
             )
         self.optional(policy, "note", path, self.note)
+        # The severity from which a task counts as safety-critical (1-5, default 4).
+        self.optional(policy, "critical_severity", path, lambda v, p: self.integer(v, p, 1, 5))
         return value
 
     def agent(self, value: Any, path: str) -> Agent | None:
@@ -964,7 +972,19 @@ class StudyReader:
         data = self.obj(value, path, ("from", "to", "trigger", "by", "cue"), ("per_day", "notes"))
         if data is None or "from" not in data or "to" not in data:
             return None
-        source = self.identifier(data["from"], child_path(path, "from"))
+        # "from": "*" is a transition from every mode (overridden where a mode has its
+        # own transition with the same trigger).
+        source = (
+            ANY_MODE
+            if data["from"] == ANY_MODE
+            else self.identifier(data["from"], child_path(path, "from"))
+        )
+        if data["to"] == ANY_MODE:
+            self.error(
+                child_path(path, "to"),
+                'must name one mode: "*" (every mode) is for "from" only',
+            )
+            return None
         target = self.identifier(data["to"], child_path(path, "to"))
         if source is None or target is None:
             return None

@@ -535,10 +535,18 @@ FINDING_KINDS: dict[str, FindingKind] = _kinds(
         "finding-unreachable-mode",
     ),
     K(
+        "unheld_task",
+        "Critical task held by nobody",
+        "In the mode nobody holds a task at or above the critical severity: it is not done "
+        "while the device stays there.",
+        "the highest severity among the critical tasks nobody holds there",
+        "finding-unheld-task",
+    ),
+    K(
         "no_way_back",
         "No way back",
         "From the mode no path leads back to one where the person holds the safety-critical "
-        "tasks the map gives them elsewhere.",
+        "tasks the map gives them elsewhere (a mode where such a task is not done lacks it).",
         "the highest severity among the safety-critical tasks no person holds there",
         "finding-no-way-back",
     ),

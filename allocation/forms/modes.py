@@ -6,6 +6,7 @@ from typing import Any
 
 from django import forms
 
+from allocation.core.model import ANY_MODE
 from allocation.core.registry import CUE_WORDS
 from allocation.core.vocabulary import (
     CUES,
@@ -77,7 +78,9 @@ class TransitionForm(ItemForm):
 
     def __init__(self, *args: Any, modes: list[tuple[str, str]], **kwargs: Any):
         super().__init__(*args, **kwargs)
-        self.fields["source"].choices = modes
+        # "from" may also be every mode: a mode's own transition with the same trigger
+        # overrides it there.
+        self.fields["source"].choices = [(ANY_MODE, "any mode (*)"), *modes]
         self.fields["target"].choices = modes
 
     @staticmethod

@@ -19,7 +19,7 @@ from django.http import Http404
 from allocation import models as m
 from allocation.core import LoadResult, load_study
 from allocation.core.analysis import PlanAnalysis, StudyGraph, analyse_plan, prepare
-from allocation.core.model import Study
+from allocation.core.model import ANY_MODE, Study
 from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
 
 
@@ -333,7 +333,7 @@ def _mode(state: m.ModeState) -> dict[str, Any]:
 def _transition(item: m.ModeTransition) -> dict[str, Any]:
     return _compact(
         {
-            "from": item.source.key,
+            "from": item.source.key if item.source is not None else ANY_MODE,
             "to": item.target.key,
             "trigger": item.trigger,
             "by": item.by,

@@ -32,7 +32,7 @@ __all__ = [
 ]
 
 ASSUMPTION_KEYS = tuple(assumption.key for assumption in ASSUMPTIONS)
-POLICY_KEYS = ("likelihood_bands", "review", "unacceptable", "note")
+POLICY_KEYS = ("likelihood_bands", "review", "unacceptable", "note", "critical_severity")
 ASSUMPTIONS_PATH = "$.study.assumptions"
 POLICY_PATH = "$.study.risk_policy"
 

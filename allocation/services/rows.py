@@ -9,6 +9,7 @@ from __future__ import annotations
 from typing import Any
 
 from allocation import models as m
+from allocation.core.model import ANY_MODE
 
 
 def header_values(item: dict[str, Any]) -> dict[str, Any]:
@@ -116,7 +117,7 @@ def mode_values(item: dict[str, Any]) -> dict[str, Any]:
 
 def transition_values(item: dict[str, Any], states: dict[str, m.ModeState]) -> dict[str, Any]:
     return {
-        "source": states[item["from"]],
+        "source": None if item["from"] == ANY_MODE else states[item["from"]],
         "target": states[item["to"]],
         "trigger": item["trigger"],
         "by": item["by"],

@@ -174,6 +174,7 @@ def _policy(
             else value_text(bands),
             "review": str(stored.get("review", policy["review"])),
             "unacceptable": str(stored.get("unacceptable", policy["unacceptable"])),
+            "critical_severity": str(stored.get("critical_severity", policy["critical_severity"])),
             "note": str(stored.get("note", "")),
         }
     by_field: dict[str, list[Problem]] = {name: [] for name in (*form, "other")}
@@ -394,7 +395,7 @@ def _policy_from_form(data) -> tuple[dict[str, str], dict[str, Any], list[Proble
     """The form's text, the policy it gives, and any problem reading the text."""
     form = {
         name: data.get(name, "").strip()
-        for name in ("likelihood_bands", "review", "unacceptable", "note")
+        for name in ("likelihood_bands", "review", "unacceptable", "critical_severity", "note")
     }
     policy: dict[str, Any] = {}
     problems: list[Problem] = []
@@ -408,7 +409,7 @@ def _policy_from_form(data) -> tuple[dict[str, str], dict[str, Any], list[Proble
         policy["likelihood_bands"] = [
             _number_or_text(part) for part in _SEPARATORS.split(bands) if part
         ]
-    for name in ("review", "unacceptable"):
+    for name in ("review", "unacceptable", "critical_severity"):
         if form[name]:
             policy[name] = _number_or_text(form[name])
     if form["note"]:

@@ -22,7 +22,7 @@ from allocation.core.analysis import PlanAnalysis
 from allocation.core.analysis.findings import Finding
 from allocation.core.analysis.modecheck import MODE_FINDING_KINDS, Moment, walkthrough
 from allocation.core.describe import severity_text
-from allocation.core.model import Assignment, Plan, Study
+from allocation.core.model import ANY_MODE, Assignment, Plan, Study
 from allocation.core.registry import finding_kind
 from allocation.core.writing import assignment_to_json
 from allocation.figures.modes import CAUSE_WORDS, CUE_LINES, mode_map_figure
@@ -118,11 +118,17 @@ def _region_context(page: StudyPage, plan: Plan) -> dict[str, Any]:
                 {
                     "index": index,
                     "transition": t,
-                    "source": modes.by_id[t.source].name if t.source in modes.by_id else t.source,
+                    "source": modes.by_id[t.source].name
+                    if t.source in modes.by_id
+                    else ("any mode" if t.source == ANY_MODE else t.source),
                     "target": modes.by_id[t.target].name if t.target in modes.by_id else t.target,
                     "by": CAUSE_WORDS.get(t.by, t.by),
                     "cue": CUE_WORDS.get(t.cue, t.cue),
-                    "flagged": (t.source, t.target, t.trigger) in uncued,
+                    "flagged": (t.source, t.target, t.trigger) in uncued
+                    or (
+                        t.source == ANY_MODE
+                        and any(item[1:] == (t.target, t.trigger) for item in uncued)
+                    ),
                 }
             )
     figure = None

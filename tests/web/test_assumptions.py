@@ -210,6 +210,11 @@ def test_setting_the_policy_rebands_the_handovers(client, study, owner):
     ("data", "path", "message"),
     [
         ({"review": "12", "unacceptable": "9"}, "$.study.risk_policy.review", "must not be above"),
+        (
+            {"critical_severity": "6"},
+            "$.study.risk_policy.critical_severity",
+            "must be from 1 to 5",
+        ),
         ({"likelihood_bands": "0.5, 0.4, 0.6, 0.8"}, "likelihood_bands", "must rise strictly"),
         ({"likelihood_bands": "0.2, 0.4, 0.6"}, "likelihood_bands", "must list 4 cut points"),
         ({"likelihood_bands": "0.2, x, 0.6, 0.8"}, "likelihood_bands[1]", "must be a number"),
@@ -224,6 +229,15 @@ def test_a_bad_policy_shows_the_readers_message_and_stores_nothing(
     fragment = response.content.decode()
     assert path in fragment and message in fragment and "Nothing was saved." in fragment
     assert stored(study)[1] == {}
+
+
+def test_the_critical_severity_is_set_with_the_policy_and_shown(client, study, owner):
+    client.force_login(owner)
+    page = client.get(page_url(study)).content.decode()
+    assert "<dt>Critical severity</dt><dd>from severity 4:" in page  # the default
+    response = client.post(policy_url(study), {"critical_severity": "3"}, headers=HTMX)
+    assert stored(study)[1] == {"critical_severity": 3}
+    assert "<dt>Critical severity</dt><dd>from severity 3:" in response.content.decode()
 
 
 def test_policy_reset_brings_back_the_example(client, study, owner):

@@ -43,7 +43,7 @@ def rows_of(study: m.Study, plan: str = "auto") -> dict:
         "initial": row.initial_mode,
         "states": list(row.mode_states.values_list("key", flat=True)),
         "transitions": [
-            (t.source.key, t.target.key, t.trigger, t.cue)
+            (t.source.key if t.source else "*", t.target.key, t.trigger, t.cue)
             for t in row.mode_transitions.select_related("source", "target")
         ],
         "overrides": sorted(
@@ -310,3 +310,36 @@ def test_the_mode_map_tab_opens_on_a_plan_with_modes(signed_in, study):
     # Plan 'manual' comes first and has no mode map; the tab goes to 'auto'.
     page = signed_in.get(reverse("study-detail", args=[study.pk])).content.decode()
     assert url("plan-modes", study) in page
+
+
+def test_a_transition_from_any_mode_is_stored_shown_and_read_back(signed_in, study):
+    """'power cut' from any mode to the schedule, with no cue: stored with no source
+    row, listed as from "any mode", read back as "from": "*". By hand (composition
+    rules): from ``hold`` it changes who holds T2 (the resident's there, the
+    thermostat's on the schedule) with no cue, so a change without a cue is found."""
+    page = signed_in.get(url("transition-edit", study, "new")).content.decode()
+    assert 'value="*"' in page and "any mode" in page
+    signed_in.post(
+        url("transition-edit", study, "new"),
+        {
+            "source": "*",
+            "target": "schedule",
+            "trigger": "power cut",
+            "by": "environment",
+            "cue": "none",
+        },
+        **HTMX,
+    )
+    stored = study.plans.get(key="auto").mode_transitions.get(trigger="power cut")
+    assert stored.source is None and stored.target.key == "schedule"
+    selectors.study_cache_clear()
+    assert modes_of(study)["transitions"][-1] == {
+        "from": "*",
+        "to": "schedule",
+        "trigger": "power cut",
+        "by": "environment",
+        "cue": "none",
+    }
+    page = signed_in.get(url("plan-modes", study)).content.decode()
+    assert "<td>any mode</td>" in page
+    assert "power cut&#x27; changes the mode from Hold" in page

@@ -1,14 +1,15 @@
 """Formal verification of a plan's mode map against what the person can observe (methods
 document, ``#mode-check``).
 
-The **machine** is the mode map: its modes and transitions. The **person's model** is
-what they can observe of it: their own actions (they know what each does, so after one
-they believe the mode it leads to from the mode they believed) and the cues of the other
-transitions. An ``alert`` or ``alert_confirm`` is always noticed, a change with cue
-``none`` never is, and one shown only on the ``display`` or ``on_request`` may or may
-not be noticed, so the search branches both ways (tool assumption, after Sarter & Woods
-1995: unannounced and passively shown changes are the ones people miss). The person's
-belief is a mode.
+The **machine** is the mode map: its modes and transitions (a transition from ``"*"``
+counts from every mode, except where the mode has its own with the same trigger). The
+**person's model** is what they can observe of it: their own actions (they know what
+each does, so after one they believe the mode it leads to from the mode they believed)
+and the cues of the other transitions. An ``alert`` or ``alert_confirm`` is always
+noticed, a change with cue ``none`` never is, and one shown only on the ``display`` or
+``on_request`` may or may not be noticed, so the search branches both ways (tool
+assumption, after Sarter & Woods 1995: unannounced and passively shown changes are the
+ones people miss). The person's belief is a mode.
 
 The two are composed as in Degani & Heymann (2002): a state is ``(actual, believed)``,
 starting at ``(initial, initial)``. From ``(a, b)``, for each transition ``t`` of the
@@ -34,14 +35,20 @@ every witness is a shortest sequence of events. The findings (kinds as named her
 - ``unforeseen_transition``: a transition the machine can take from a reachable mode that
   the person cannot notice (cue ``none``), so their model does not follow it;
 - ``refused_action``: an action the person's model offers in the believed mode that the
-  machine does not accept in the actual mode;
+  machine does not accept in the actual mode. A mode accepts an action without effect
+  when all the action's transitions lead to that mode (its effect already holds; tool
+  assumption), so repeating it there is not refused;
 - ``unreachable_mode``: a mode no sequence of transitions reaches from the initial one;
+- ``unheld_task``: a mode where a safety-critical task is held by nobody (not done, or
+  no holder); a critical task held by nobody in every mode is left out, as the plan's
+  own decision (tool assumption);
 - ``no_way_back``: a reachable mode from which no mode is reachable where a person
   principally holds every safety-critical task that the map ever gives to a person
-  (operator authority limits; Leveson et al. 1997). Safety-critical means applicable and
-  of severity 4 or 5; a critical task the plan leaves to the device in every mode is an
-  allocation decision, seen on the other screens, not a trap of the mode map, so it is
-  left out (tool assumption);
+  (operator authority limits; Leveson et al. 1997); a mode where such a task is not done
+  lacks it. Safety-critical means of the risk policy's critical severity or above
+  (``critical_severity``, default 4); a critical task the plan leaves to the device in
+  every mode is an allocation decision, seen on the other screens, not a trap of the
+  mode map, so it is left out (tool assumption);
 - ``mode_map_unchecked``: a map too large to search within ``MODE_STATES_MAX`` and
   ``MODE_STEPS_MAX`` (:func:`mode_search_size`, counted before any search); the study
   checks refuse such a map, so this is raised only for one that reaches the check
@@ -83,6 +90,7 @@ from ..model import ModeMap, Plan, Study, Transition
 from .findings import Finding, WitnessStep
 from .involvement import involvement
 from .modes import assignment_in_mode
+from .risk import resolve_policy
 
 __all__ = [
     "MODE_FINDING_KINDS",
@@ -105,6 +113,7 @@ MODE_FINDING_KINDS = (
     "unforeseen_transition",
     "refused_action",
     "unreachable_mode",
+    "unheld_task",
     "no_way_back",
     "mode_map_unchecked",
 )
@@ -208,12 +217,34 @@ class Exploration:
 
 
 def _outgoing(modes: ModeMap) -> dict[str, list[Transition]]:
-    """Transitions from each mode in file order, leaving out ones naming unknown modes."""
+    """Transitions from each mode in file order (one from every mode counted in each,
+    where no transition of the mode's own overrides it), leaving out ones naming unknown
+    modes."""
     out: dict[str, list[Transition]] = {mode.id: [] for mode in modes.states}
-    for transition in modes.transitions:
+    for transition in modes.expanded:
         if transition.source in out and transition.target in out:
             out[transition.source].append(transition)
     return out
+
+
+def _no_effect(out: dict[str, list[Transition]]) -> dict[str, set[str]]:
+    """Per mode, the actions of the person it accepts without effect: those whose
+    transitions all lead to that mode, where the mode has none of its own (its effect
+    already holds; tool assumption)."""
+    targets: dict[str, set[str]] = {}
+    own: dict[str, set[str]] = {mode_id: set() for mode_id in out}
+    for mode_id, transitions in out.items():
+        for t in transitions:
+            if t.by == "human":
+                targets.setdefault(t.trigger, set()).add(t.target)
+                own[mode_id].add(t.trigger)
+    accepted: dict[str, set[str]] = {mode_id: set() for mode_id in out}
+    for trigger, into in targets.items():
+        if len(into) == 1:
+            (mode_id,) = into
+            if trigger not in own[mode_id]:
+                accepted[mode_id].add(trigger)
+    return accepted
 
 
 def _actions(out: dict[str, list[Transition]]) -> dict[str, dict[str, list[str]]]:
@@ -385,6 +416,8 @@ class _Checker:
         self.study = study
         self.plan = plan
         self.modes = modes
+        # Tasks of this severity or above are safety-critical (the study's risk policy).
+        self.critical = int(resolve_policy(study.risk_policy)["critical_severity"])
         self.leaves = [task.id for task in study.leaves]
         leaf_set = set(self.leaves)
         # Only overridden tasks can differ between modes; the rest hold the plan's holder.
@@ -527,15 +560,16 @@ def verify_mode_map(study: Study, plan: Plan, assumptions: dict[str, Any]) -> li
     findings += _ambiguous_indications(check, modes, actions)
     findings += _error_states(check, found)
     findings += _unforeseen_transitions(check, modes, found, actions)
-    findings += _refused_actions(check, found, actions)
+    findings += _refused_actions(check, found, actions, _no_effect(out))
     findings += _unreachable_modes(check, modes, found)
+    findings += _unheld_tasks(check, modes, found, actions)
     findings += _no_way_back(check, modes, found, out, actions)
     return findings
 
 
 def _uncued_changes(check: _Checker, modes: ModeMap, found: Exploration, actions) -> list[Finding]:
     findings = []
-    for t in modes.transitions:
+    for t in modes.expanded:
         if t.by == "human" or t.cue != "none" or t.source not in modes.by_id:
             continue
         if t.target not in modes.by_id:
@@ -649,7 +683,7 @@ def _unforeseen_transitions(
     check: _Checker, modes: ModeMap, found: Exploration, actions
 ) -> list[Finding]:
     findings = []
-    for t in modes.transitions:
+    for t in modes.expanded:
         if t.by == "human" or t.cue != "none" or t.source not in found.machine_parents:
             continue
         if t.target not in modes.by_id or t.source == t.target:
@@ -678,13 +712,13 @@ def _unforeseen_transitions(
     return findings
 
 
-def _refused_actions(check: _Checker, found: Exploration, actions) -> list[Finding]:
+def _refused_actions(check: _Checker, found: Exploration, actions, no_effect) -> list[Finding]:
     findings = []
     for state in found.states:
         actual, believed = state
         for trigger in actions[believed]:
-            if trigger in actions[actual]:
-                continue
+            if trigger in actions[actual] or trigger in no_effect[actual]:
+                continue  # accepted, with its effect or (already in force) without
             steps, depends = found.path(state)
             tasks = check.differences(actual, believed)
             findings.append(
@@ -734,13 +768,15 @@ def _no_way_back(
     critical = [
         task_id
         for task_id in check.leaves
-        if (check.study.task(task_id).severity or 0) >= 4
+        if (check.study.task(task_id).severity or 0) >= check.critical
         and any(person_holds(mode.id, task_id) for mode in modes.states)
     ]
     if not critical:
         return []
+    # A mode where a critical task is not done at all lacks it as much as one where the
+    # device holds it.
     lacks = {
-        mode.id: [task_id for task_id in critical if person_holds(mode.id, task_id) is False]
+        mode.id: [task_id for task_id in critical if not person_holds(mode.id, task_id)]
         for mode in modes.states
     }
     good = [mode_id for mode_id, tasks in lacks.items() if not tasks]
@@ -751,8 +787,8 @@ def _no_way_back(
             Finding(
                 "no_way_back",
                 check.severity(tasks),
-                "No mode lets a person hold all the safety-critical tasks (severity 4 or "
-                "5) that some mode gives them: "
+                "No mode lets a person hold all the safety-critical tasks (severity "
+                f"{check.critical} or more) that some mode gives them: "
                 f"{check.tasks_text(tasks)}; the person can never "
                 "take all of these over at once.",
                 tasks,
@@ -790,6 +826,51 @@ def _no_way_back(
                 (mode_id,),
                 tuple(t.trigger for t in before),
                 witness=_replayed(modes.initial, before, actions),
+            )
+        )
+    return findings
+
+
+def _unheld_tasks(check: _Checker, modes: ModeMap, found: Exploration, actions) -> list[Finding]:
+    """Modes where a safety-critical task is held by nobody (not done, or no holder).
+
+    A critical task held by nobody in every mode is the plan's decision, seen on the
+    other screens, not a matter of the mode map, so it is left out (tool assumption).
+    """
+
+    def unheld(mode_id: str, task_id: str) -> bool:
+        principal, applies = check.holder(mode_id, task_id)
+        return not applies or principal is None
+
+    critical = [
+        task_id
+        for task_id in check.leaves
+        if (check.study.task(task_id).severity or 0) >= check.critical
+        and not all(unheld(mode.id, task_id) for mode in modes.states)
+    ]
+    findings = []
+    for mode in modes.states:
+        tasks = tuple(task_id for task_id in critical if unheld(mode.id, task_id))
+        if not tasks:
+            continue
+        reachable = mode.id in found.machine_parents
+        before = found.machine_path(mode.id) if reachable else ()
+        where = (
+            f"{check.machine_path_text(before)}, the device is in {mode.name}"
+            if reachable
+            else f"In {mode.name} (which nothing reaches from the start)"
+        )
+        findings.append(
+            Finding(
+                "unheld_task",
+                check.severity(tasks),
+                f"{where}, and there nobody holds {check.tasks_text(tasks)}: "
+                f"{'it is' if len(tasks) == 1 else 'they are'} safety-critical (severity "
+                f"{check.critical} or more) and not done while the device stays there.",
+                tasks,
+                (mode.id,),
+                tuple(t.trigger for t in before),
+                witness=_replayed(modes.initial, before, actions) if reachable else (),
             )
         )
     return findings

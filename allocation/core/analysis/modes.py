@@ -52,7 +52,7 @@ def mode_occupancy(modes: ModeMap, horizon_days: float = 1.0) -> dict[str, float
     index = {mode_id: i for i, mode_id in enumerate(ids)}
     size = len(ids)
     generator = np.zeros((size, size))
-    for transition in modes.transitions:
+    for transition in modes.expanded:
         if transition.per_day and transition.source != transition.target:
             source, target = index[transition.source], index[transition.target]
             generator[source, target] += float(transition.per_day)

@@ -315,7 +315,7 @@ class _Analysis:
         if not modes:
             return []
         changes = []
-        for transition in modes.transitions:
+        for transition in modes.expanded:
             source, target = modes.by_id.get(transition.source), modes.by_id.get(transition.target)
             if source is None or target is None or source.id == target.id:
                 continue

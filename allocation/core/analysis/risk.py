@@ -18,6 +18,8 @@ DEFAULT_RISK_POLICY = {
     "likelihood_bands": [0.2, 0.4, 0.6, 0.8],
     "review": 10,
     "unacceptable": 17,
+    # Tasks of this severity or above are safety-critical (the mode-map check).
+    "critical_severity": 4,
     "note": "Example policy only. The manufacturer sets its own risk acceptability "
     "criteria (ISO 14971); replace these thresholds with yours.",
 }

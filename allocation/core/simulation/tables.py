@@ -163,7 +163,7 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
     initial = modes.index(plan.modes.initial) if plan.modes else 0
     rates = np.zeros((len(modes), len(modes)))
     if plan.modes:
-        for t in plan.modes.transitions:
+        for t in plan.modes.expanded:
             if t.per_day and t.source in modes and t.target in modes and t.source != t.target:
                 rates[modes.index(t.source), modes.index(t.target)] += float(t.per_day)
 
