@@ -376,9 +376,9 @@ METHOD_NOTES = (
     (
         "chains",
         TOOL,
-        "A task in a chain occurs when any of its predecessors in that chain "
-        "leads on to it (each link with its probability, taken as independent), and starts "
-        "when all of those that occurred are done.",
+        "A task in a chain occurs when some predecessor in that chain that occurred "
+        "leads on to it (each link drawn once per happening, independently of the others), "
+        "and starts when all of those that occurred are done.",
     ),
     (
         "doa",

@@ -3,24 +3,22 @@
 Each event and each task with its own schedule is a *trigger*. A trigger happens
 ``per_day`` times a day at times spread by a :class:`DayShare`. Within one happening of
 a trigger, its root tasks occur (an event's task with its ``probability``), and a task
-further down the chain occurs when any of its predecessors in the chain leads on to it,
-each ``precedes`` link with its probability, the links taken as independent:
-
-    P(task) = 1 - prod over predecessors p of (1 - P(p) * probability(p -> task))
-
-which is exact for tree-shaped chains. A task reached from several triggers adds their
-occurrences up. A task that does not apply under the plan does not occur and its chain
-does not continue through it.
+further down the chain occurs when any of its predecessors in the chain that occurred
+leads on to it, each ``precedes`` link drawn with its probability: the chance of each
+task is computed exactly as the simulation draws it, predecessors that share an
+uncertain ancestor included (:mod:`.chance`). A task reached from several triggers adds
+their occurrences up. A task that does not apply under the plan does not occur and its
+chain does not continue through it.
 """
 
 from __future__ import annotations
 
-import heapq
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from ..graph import Trigger, root_occurs, trigger_rule, triggers
 from ..model import Event, Occurs, Study, seconds_of_day
+from .chance import chain_chances
 from .timeofday import DayShare, asleep_intervals, awake_intervals, rule_sleeper
 
 __all__ = ["Occurrences", "TriggerTiming", "occurrences", "trigger_timings"]
@@ -83,6 +81,10 @@ class Occurrences:
         Trigger id to its :class:`TriggerTiming`.
     chains : dict
         Trigger id to ``{task id: probability}`` for the tasks its chain can reach.
+    se_per_day : dict
+        Task id to the standard error of its occurrences per day, for the tasks whose
+        chance was estimated by Monte Carlo (a large shared part of a chain); the other
+        tasks' occurrences are exact.
     """
 
     per_day: dict[str, float] = field(default_factory=dict)
@@ -90,6 +92,7 @@ class Occurrences:
     from_trigger: dict[str, dict[str, float]] = field(default_factory=dict)
     timings: dict[str, TriggerTiming] = field(default_factory=dict)
     chains: dict[str, dict[str, float]] = field(default_factory=dict)
+    se_per_day: dict[str, float] = field(default_factory=dict)
 
 
 def occurrences(
@@ -124,46 +127,18 @@ def occurrences(
     for timing in trigger_timings(study, every_days_when):
         trigger = timing.trigger
         result.timings[trigger.id] = timing
-        chance = _chain_probabilities(study, trigger, successors, position, applies)
+        roots = {}
+        for root in trigger.roots:
+            own = root_occurs(study, root).probability
+            roots[root] = 1.0 if own is None else float(own)
+        chained = chain_chances(roots, successors, position, applies, key=trigger.id)
+        chance = chained.chance
         result.chains[trigger.id] = chance
         for task_id, probability in chance.items():
             result.probability[task_id][trigger.id] = probability
             result.from_trigger[task_id][trigger.id] = timing.per_day * probability
             result.per_day[task_id] += timing.per_day * probability
+        for task_id, error in (chained.se or {}).items():
+            variance = result.se_per_day.get(task_id, 0.0) ** 2 + (timing.per_day * error) ** 2
+            result.se_per_day[task_id] = variance**0.5
     return result
-
-
-def _chain_probabilities(
-    study: Study,
-    trigger: Trigger,
-    successors: dict[str, list[tuple[str, float]]],
-    position: dict[str, int],
-    applies: Callable[[str], bool],
-) -> dict[str, float]:
-    """The probability of each task of a chain in one happening of its trigger.
-
-    Tasks are finished in topological order (a heap on the order's position), so each
-    task has heard from all its predecessors before it passes its probability on.
-    """
-    chance: dict[str, float] = {}
-    heap: list[tuple[int, str]] = []
-    for root in trigger.roots:
-        if not applies(root):
-            continue
-        occurs = root_occurs(study, root)
-        own = 1.0 if occurs.probability is None else float(occurs.probability)
-        chance[root] = 1 - (1 - chance.get(root, 0.0)) * (1 - own)
-        heapq.heappush(heap, (position[root], root))
-    done: set[str] = set()
-    while heap:
-        _place, task_id = heapq.heappop(heap)
-        if task_id in done:
-            continue
-        done.add(task_id)
-        for target, link_probability in successors.get(task_id, ()):
-            if not applies(target):
-                continue
-            passed = chance[task_id] * link_probability
-            chance[target] = 1 - (1 - chance.get(target, 0.0)) * (1 - passed)
-            heapq.heappush(heap, (position[target], target))
-    return chance

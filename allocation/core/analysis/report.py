@@ -70,6 +70,8 @@ def _task_json(result: PlanAnalysis, task_id: str) -> dict[str, Any]:
         "expected_s": figures.person_s,
         "typical_s": figures.typical_s,
         "occurrences_per_day": figures.per_day,
+        "occurrences_approx": task_id in result.occurrences.se_per_day,
+        "occurrences_se": result.occurrences.se_per_day.get(task_id),
         "awareness": None if aware is None else aware.index,
         "degrees": involved.degrees,
         "doa": involved.doa,
