@@ -38,8 +38,9 @@ __all__ = ["EXACT_SHARED", "EXACT_WORK", "SAMPLES", "ChainChance", "chain_chance
 
 #: At most this many shared uncertain elements are enumerated (2 ** 20 outcomes).
 EXACT_SHARED = 20
-#: At most this many task-outcome pairs are computed exactly (memory and time bound).
-EXACT_WORK = 1 << 26
+#: At most this many task-outcome pairs are computed exactly (a time and memory bound:
+#: past it the draws below cost less than the enumeration).
+EXACT_WORK = 1 << 21
 #: Monte Carlo draws past the exact bound (tool assumption; methods document).
 SAMPLES = 100_000
 
@@ -186,18 +187,25 @@ def _enumerate(members, roots, predecessors, shared) -> dict[str, float]:
     }
 
 
+def _draw(rng: np.random.Generator, p: float) -> np.ndarray:
+    """``SAMPLES`` draws that come out with probability ``p``, to within 2 ** -17: 16-bit
+    random integers against a threshold, ten times faster than comparing floats."""
+    return rng.integers(0, 1 << 16, SAMPLES, dtype=np.uint16) < round(p * (1 << 16))
+
+
 def _sample(members, roots, predecessors, key: str) -> ChainChance:
     """Draw every uncertain root and link ``SAMPLES`` times, as the simulation does."""
     rng = np.random.default_rng(zlib.crc32(key.encode("utf-8")))
     occurred: dict[str, np.ndarray] = {}
     for task in members:
         if task in roots:
-            occurred[task] = rng.random(SAMPLES) < roots[task]
+            own = roots[task]
+            occurred[task] = _draw(rng, own) if own < 1 else np.ones(SAMPLES, bool)
             continue
         here = np.zeros(SAMPLES, bool)
         for source, p in predecessors[task]:
             came = occurred[source]
-            here |= came & (rng.random(SAMPLES) < p) if p < 1 else came
+            here |= came & _draw(rng, p) if p < 1 else came
         occurred[task] = here
     chance = {task: float(draws.mean()) for task, draws in occurred.items()}
     se = {task: (p * (1 - p) / SAMPLES) ** 0.5 for task, p in chance.items()}
