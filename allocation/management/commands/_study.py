@@ -11,7 +11,7 @@ from django.core.management.base import CommandError
 
 from allocation import models as m
 from allocation import selectors, services
-from allocation.core import LoadResult, Problem, load_study_text
+from allocation.core import LoadResult, Problem, Study, load_study_text
 from allocation.core.limits import STUDY_FILE_MAX_BYTES
 
 
@@ -59,6 +59,18 @@ def study_result_from_reference(reference: str) -> LoadResult:
     if reference.endswith(".json") or path.is_file():
         return load_study_text(study_file_bytes(path))
     return selectors.study_load(study_from_reference(reference))
+
+
+def valid_study_from_reference(reference: str) -> Study:
+    """The core study a command names (as :func:`study_result_from_reference`), refused
+    with its errors listed when it has any."""
+    result = study_result_from_reference(reference)
+    if not result.ok:
+        raise CommandError(
+            f"the study has {len(result.errors)} error(s); fix them first:\n"
+            + problem_lines(result.errors)
+        )
+    return result.study
 
 
 def problem_lines(problems: list[Problem]) -> str:

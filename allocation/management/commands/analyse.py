@@ -11,10 +11,10 @@ from pathlib import Path
 
 from django.core.management.base import BaseCommand, CommandError
 
-from allocation.core import LoadResult, UnknownReference
+from allocation.core import UnknownReference
 from allocation.core.analysis import analyse_plan, prepare, text_report
 
-from ._study import problem_lines, study_result_from_reference
+from ._study import valid_study_from_reference
 
 
 class Command(BaseCommand):
@@ -29,13 +29,7 @@ class Command(BaseCommand):
     def handle(
         self, *args, study: str, plan: str | None, json: bool, output: Path | None, **options
     ) -> None:
-        result = self._load(study)
-        if not result.ok:
-            raise CommandError(
-                f"the study has {len(result.errors)} error(s); fix them first:\n"
-                + problem_lines(result.errors)
-            )
-        core_study = result.study
+        core_study = valid_study_from_reference(study)
         plans = [plan] if plan else [item.id for item in core_study.plans]
         if not plans:
             raise CommandError(f"study {core_study.id!r} has no plans to analyse")
@@ -60,9 +54,6 @@ class Command(BaseCommand):
         else:
             output.write_text(text, encoding="utf-8")
             self.stderr.write(f"Wrote {output}.")
-
-    def _load(self, reference: str) -> LoadResult:
-        return study_result_from_reference(reference)
 
 
 def _dumps(payload: object) -> str:

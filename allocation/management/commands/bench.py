@@ -19,7 +19,8 @@ import json
 import random
 import statistics
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 
 from django.core.management.base import BaseCommand
 
@@ -99,6 +100,26 @@ def _peak_memory(work: Callable[[], bytes]) -> tuple[float, float, int]:
     result = receive.recv()
     process.join()
     return result
+
+
+@contextmanager
+def _throwaway_database() -> Iterator[None]:
+    """A test database made for the measurement and dropped after it; inside a test run,
+    that run's own database."""
+    from django.db import connection
+    from django.test.utils import setup_test_environment, teardown_test_environment
+
+    try:
+        setup_test_environment()
+    except RuntimeError:  # already inside a test run, on its test database
+        yield
+        return
+    old_name = connection.creation.create_test_db(verbosity=0, autoclobber=True)
+    try:
+        yield
+    finally:
+        connection.creation.destroy_test_db(old_name, verbosity=0)
+        teardown_test_environment()
 
 
 class Command(BaseCommand):
@@ -364,21 +385,12 @@ class Command(BaseCommand):
 
     def pages(self, *, repeats: int, seed: int) -> None:
         """Plan editor timings on the 1,000-task study, in a throw-away test database."""
-        from django.db import connection
         from django.test import Client
-        from django.test.utils import setup_test_environment, teardown_test_environment
         from django.urls import reverse
 
         from allocation import selectors, services
 
-        try:
-            setup_test_environment()
-        except RuntimeError:  # already inside a test run, on its test database
-            owns_database = False
-        else:
-            owns_database = True
-            old_name = connection.creation.create_test_db(verbosity=0, autoclobber=True)
-        try:
+        with _throwaway_database():
             from django.contrib.auth import get_user_model
 
             user = get_user_model().objects.create_user("bench-runner")
@@ -428,30 +440,17 @@ class Command(BaseCommand):
                     f"    {label:52} {seconds * 1000:8.1f} ms  "
                     f"{ratio:6.1f}x trivial (target <= {PAGE_LIMIT:g}: {verdict})"
                 )
-        finally:
-            if owns_database:
-                connection.creation.destroy_test_db(old_name, verbosity=0)
-                teardown_test_environment()
 
     def pending_imports(self, *, repeats: int) -> None:
         """A trivial page of a user with eleven spreadsheets of 1.9 MB uploaded (one per
         study) and not applied: its time, and the size of the user's session row."""
         from django.contrib.sessions.models import Session
-        from django.db import connection
         from django.test import Client
-        from django.test.utils import setup_test_environment, teardown_test_environment
         from django.urls import reverse
 
         from allocation import services
 
-        try:
-            setup_test_environment()
-        except RuntimeError:  # already inside a test run, on its test database
-            owns_database = False
-        else:
-            owns_database = True
-            old_name = connection.creation.create_test_db(verbosity=0, autoclobber=True)
-        try:
+        with _throwaway_database():
             from django.contrib.auth import get_user_model
 
             user = get_user_model().objects.create_user("bench-importer")
@@ -492,10 +491,6 @@ class Command(BaseCommand):
                 f"{after_b:,} bytes after; an upload {statistics.median(uploads) * 1000:.0f} ms "
                 f"(median), the last {uploads[-1] * 1000:.0f} ms"
             )
-        finally:
-            if owns_database:
-                connection.creation.destroy_test_db(old_name, verbosity=0)
-                teardown_test_environment()
 
     def pages_at_limit(self, *, seed: int) -> None:
         """The pages of a study at the size limits (``STUDY_MAX_TASKS`` tasks,
@@ -503,22 +498,13 @@ class Command(BaseCommand):
         a throw-away test database: each page read cold (the study read from its rows and
         analysed afresh, as on a new server process) and warm, its size, and the peak
         resident memory of a forked process that reads it cold."""
-        from django.db import connection
         from django.test import Client
-        from django.test.utils import setup_test_environment, teardown_test_environment
         from django.urls import reverse
 
         from allocation import selectors, services
 
         plans = max(1, STUDY_MAX_PLAN_TASKS // STUDY_MAX_TASKS)
-        try:
-            setup_test_environment()
-        except RuntimeError:
-            owns_database = False
-        else:
-            owns_database = True
-            old_name = connection.creation.create_test_db(verbosity=0, autoclobber=True)
-        try:
+        with _throwaway_database():
             from django.contrib.auth import get_user_model
 
             user = get_user_model().objects.create_user("bench-limits")
@@ -563,7 +549,3 @@ class Command(BaseCommand):
                     f"{size / 1e6:6.3f} MB  peak RSS {peak:.0f} MB ({peak - before:.0f} MB "
                     "above the process before the page)"
                 )
-        finally:
-            if owns_database:
-                connection.creation.destroy_test_db(old_name, verbosity=0)
-                teardown_test_environment()

@@ -23,7 +23,7 @@ from allocation.core.analysis.compare import (
 )
 from allocation.core.cautions import CAUTIONS
 
-from ._study import problem_lines, study_result_from_reference
+from ._study import valid_study_from_reference
 
 
 class Command(BaseCommand):
@@ -37,13 +37,7 @@ class Command(BaseCommand):
         parser.add_argument("--json", action="store_true", help="print JSON")
 
     def handle(self, *args, study: str, plans: list[str] | None, json: bool, **options) -> None:
-        result = study_result_from_reference(study)
-        if not result.ok:
-            raise CommandError(
-                f"the study has {len(result.errors)} error(s); fix them first:\n"
-                + problem_lines(result.errors)
-            )
-        core_study = result.study
+        core_study = valid_study_from_reference(study)
         known = [plan.id for plan in core_study.plans]
         unknown = [plan for plan in plans or () if plan not in known]
         if unknown:

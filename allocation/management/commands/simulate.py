@@ -30,7 +30,7 @@ from allocation.core.simulation import (
     simulate,
 )
 
-from ._study import problem_lines, study_result_from_reference
+from ._study import valid_study_from_reference
 
 #: The sections of Baton's methods document the report's method note sums up.
 METHOD_SECTIONS = ("simulation", "occupancy", "channel-demand", "simulation-statistics")
@@ -91,13 +91,7 @@ class Command(BaseCommand):
             days_n, seed_n = services.simulation_check(days=days, seed=seed)
         except services.SimulationRefused as error:
             raise CommandError(str(error)) from None
-        result = study_result_from_reference(study)
-        if not result.ok:
-            raise CommandError(
-                f"the study has {len(result.errors)} error(s); fix them first:\n"
-                + problem_lines(result.errors)
-            )
-        core_study = result.study
+        core_study = valid_study_from_reference(study)
         if plan not in core_study.plans_by_id:
             known = ", ".join(item.id for item in core_study.plans) or "none"
             raise CommandError(f"study {core_study.id!r} has no plan {plan!r} (plans: {known})")
