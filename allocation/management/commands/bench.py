@@ -42,15 +42,15 @@ from allocation.core.synthetic import long_chain_study, synthetic_study
 from allocation.core.writing import study_to_json
 from allocation.examples import example_paths
 
-#: Targets of the analysis engine (issue: analysis within 3x the floor; ten times the
+#: Targets of the analysis engine (analysis within 3x the floor; ten times the
 #: tasks within twelve times the time, that is within 1.2 times linear growth: the target
 #: for the large study is 1.2 times its ratio of tasks).
 ANALYSIS_OVER_FLOOR = 3.0
 SCALING_LIMIT = 12.0
 SCALING_OVER_LINEAR = SCALING_LIMIT / 10
-#: Opening the plan editor and saving one row, against a trivial page (issue target).
+#: Opening the plan editor and saving one row, against a trivial page (target).
 PAGE_LIMIT = 10.0
-#: 1,000 simulated days of the 1,000-task study within this many analyses (issue target).
+#: 1,000 simulated days of the 1,000-task study within this many analyses (target).
 SIMULATION_DAYS = 1000
 SIMULATION_LIMIT = 30.0
 
