@@ -27,6 +27,7 @@ from allocation.core.analysis.compare import (
     Comparison,
     PlanDelta,
     compare_plans,
+    objective_values,
     weight_problems,
 )
 from allocation.core.assumptions import OBJECTIVE_WEIGHTS
@@ -295,7 +296,7 @@ def _compare_context(
     analyses = page.analyses()
     comparison = compare_plans(
         [analyses[plan] for plan in chosen],
-        study_headlines={plan: analysis.headline() for plan, analysis in analyses.items()},
+        study_headlines={plan: objective_values(a) for plan, a in analyses.items()},
     )
     if form is None:
         form = WeightForm({key: f"{value:g}" for key, value in comparison.ranking.weights.items()})
