@@ -147,6 +147,11 @@ urlpatterns = [
         name="study-compare-weights",
     ),
     path(
+        "studies/<int:pk>/compare/reference",
+        compare.study_compare_reference,
+        name="study-compare-reference",
+    ),
+    path(
         "studies/<int:pk>/plans/<str:plan>/dashboard",
         dashboards.plan_dashboard,
         name="plan-dashboard",

@@ -205,6 +205,14 @@ def _reference_check(value: Any) -> str | None:
         for key, number in points.items():
             if not _is_number(number):
                 return f"{figure}.{key} must be a number"
+        # Lower is better for every figure of the objective: poor lies at or above good
+        # (good 0 when left out), or the scale would turn round.
+        good = points.get("good", 0)
+        if "poor" in points and points["poor"] < good:
+            return (
+                f"{figure}.poor ({points['poor']:g}) must not be below good ({good:g}): "
+                "lower is better for every figure of the objective"
+            )
     return None
 
 
@@ -357,7 +365,8 @@ ASSUMPTIONS: tuple[Assumption, ...] = (
         "Per figure of the objective, the value that scores 0 (good) and the value that "
         "scores the whole weight (poor): {figure: {good: g, poor: p}}. Defaults: good 0, "
         "the ideal of every figure weighed; poor the worst value among all the study's "
-        "plans. A figure whose poor equals its good scores 0 for every plan.",
+        "plans (good itself where every plan is better than good); a poor given may not "
+        "lie below good. A figure whose poor equals its good scores 0 for every plan.",
         _reference_check,
     ),
 )

@@ -27,9 +27,10 @@ from allocation.core.analysis.compare import (
     Comparison,
     PlanDelta,
     compare_plans,
+    objective_values,
     weight_problems,
 )
-from allocation.core.assumptions import OBJECTIVE_WEIGHTS
+from allocation.core.assumptions import OBJECTIVE_WEIGHTS, check_assumptions
 from allocation.core.limits import PAGE_ROWS
 from allocation.core.registry import figure, figure_number, figure_text
 from allocation.figures.compare import burden_moved_figure, objective_figure
@@ -63,6 +64,48 @@ class WeightForm:
                 "value": self.values.get(key, ""),
                 "error": self.errors.get(key, ""),
                 "default": f"{OBJECTIVE_WEIGHTS[key]:g}",
+            }
+            for key in OBJECTIVE_FIGURES
+        ]
+
+
+def _number_text(value: float | int) -> str:
+    """A number as typed back into a field: whole numbers without a decimal point."""
+    number = float(value)
+    return str(int(number)) if number.is_integer() else repr(number)
+
+
+@dataclass
+class ReferenceForm:
+    """The reference-point form's values as typed (``good_<figure>``, ``poor_<figure>``;
+    blank takes the default), a message per figure that is wrong, and each figure's
+    poor value in force by default (shown as the blank field's placeholder)."""
+
+    values: dict[str, str]
+    errors: dict[str, str] = field(default_factory=dict)
+    defaults: dict[str, str] = field(default_factory=dict)
+
+    @classmethod
+    def of(cls, reference: Any) -> ReferenceForm:
+        values = {}
+        for key, point in (reference if isinstance(reference, dict) else {}).items():
+            for side in ("good", "poor"):
+                if isinstance(point, dict) and side in point:
+                    values[f"{side}_{key}"] = _number_text(point[side])
+        return cls(values)
+
+    @property
+    def fields(self) -> list[dict[str, str]]:
+        return [
+            {
+                "key": key,
+                "label": WEIGHT_LABELS[key],
+                "good_name": f"good_{key}",
+                "good": self.values.get(f"good_{key}", ""),
+                "poor_name": f"poor_{key}",
+                "poor": self.values.get(f"poor_{key}", ""),
+                "poor_default": self.defaults.get(key, ""),
+                "error": self.errors.get(key, ""),
             }
             for key in OBJECTIVE_FIGURES
         ]
@@ -258,6 +301,7 @@ def _compare_context(
     query: QueryDict,
     form: WeightForm | None = None,
     request: HttpRequest | None = None,
+    reference_form: ReferenceForm | None = None,
 ) -> dict[str, Any]:
     chosen, notes = _selection(page, query)
     focus = query.get("focus", "")
@@ -278,8 +322,10 @@ def _compare_context(
         ],
         "comparison": None,
         "form": form,
+        "reference_form": reference_form,
         "ok": page.result.ok,
         "weights_url": reverse("study-compare-weights", args=[page.row.pk]),
+        "reference_url": reverse("study-compare-reference", args=[page.row.pk]),
         "compare_url": compare_url,
     }
     if page.study is None or not page.result.ok:
@@ -295,10 +341,18 @@ def _compare_context(
     analyses = page.analyses()
     comparison = compare_plans(
         [analyses[plan] for plan in chosen],
-        study_headlines={plan: analysis.headline() for plan, analysis in analyses.items()},
+        study_headlines={plan: objective_values(a) for plan, a in analyses.items()},
     )
     if form is None:
         form = WeightForm({key: f"{value:g}" for key, value in comparison.ranking.weights.items()})
+    if reference_form is None:
+        reference_form = ReferenceForm.of(
+            (page.study.assumptions or {}).get("objective_reference")
+        )
+    reference_form.defaults = {
+        key: figure_number(key, poor)
+        for key, (_good, poor) in comparison.ranking.reference.items()
+    }
     context.update(
         comparison=comparison,
         baseline=comparison.baseline,
@@ -310,6 +364,7 @@ def _compare_context(
         top_tasks=TOP_TASKS,
         item=_delta_context(request, comparison.delta(focus), comparison),
         form=form,
+        reference_form=reference_form,
         **_objective_context(comparison),
     )
     return context
@@ -393,6 +448,91 @@ def study_compare_weights(request: HttpRequest, pk: int) -> HttpResponse:
             return render(request, "compare/compare.html#objective", context)
         return render(request, "compare/compare.html", context, status=400)
     messages.success(request, "Weights saved; the plans are ranked again.")
+    if not request.htmx:
+        url = reverse("study-compare", args=[pk])
+        return redirect(f"{url}?{query}#compare-objective" if query else url)
+    page = study_page(request, pk, m.Role.EDITOR)
+    context = page.context("study-compare", **_compare_context(page, QueryDict(query)))
+    return render(request, "compare/compare.html#objective", context)
+
+
+def _parse_reference(data: QueryDict) -> tuple[ReferenceForm, dict[str, dict[str, float | int]]]:
+    """Read the typed reference points (blank: the default) into the assumption's table;
+    each must be a number, and the assumption's own check judges each figure."""
+    form = ReferenceForm(
+        {
+            f"{side}_{key}": data.get(f"{side}_{key}", "").strip()
+            for key in OBJECTIVE_FIGURES
+            for side in ("good", "poor")
+        }
+    )
+    reference: dict[str, dict[str, float | int]] = {}
+    for key in OBJECTIVE_FIGURES:
+        for side in ("good", "poor"):
+            text = form.values[f"{side}_{key}"]
+            if not text:
+                continue
+            try:
+                number = float(text)
+            except ValueError:
+                form.errors[key] = f"{side}: “{text}” is not a number; write it like 0 or 3600"
+                continue
+            if not math.isfinite(number):
+                form.errors[key] = f"{side}: must be a finite number"
+                continue
+            reference.setdefault(key, {})[side] = int(number) if number.is_integer() else number
+    for key, point in reference.items():
+        if key not in form.errors:
+            for _name, message in check_assumptions({"objective_reference": {key: point}}):
+                form.errors[key] = message
+    return form, reference
+
+
+@require_POST
+@login_required
+def study_compare_reference(request: HttpRequest, pk: int) -> HttpResponse:
+    """Save the objective's reference points (editors and owners), the assumption
+    ``objective_reference``; the objective panel re-renders. A blank field takes the
+    default (good 0, poor the worst plan's); all blank drops the assumption.
+
+    Bad values come back with a message beside their figure and nothing stored; without
+    htmx a good save redirects to the comparison it came from.
+    """
+    page = study_page(request, pk, m.Role.EDITOR)
+    chosen, _notes = _selection(page, request.POST)
+    query = _query(chosen, request.POST.get("focus", ""))
+    if not page.result.ok:
+        form = ReferenceForm({}, {"objective_reference": "the study has errors to fix first"})
+    else:
+        if "reset" in request.POST:
+            form, reference = ReferenceForm({}), {}
+        else:
+            form, reference = _parse_reference(request.POST)
+        if not form.errors:
+            try:
+                if reference:
+                    services.study_assumption_set(
+                        study=page.row,
+                        key="objective_reference",
+                        value=reference,
+                        user=request.user,
+                    )
+                else:
+                    services.study_assumption_reset(
+                        study=page.row, key="objective_reference", user=request.user
+                    )
+            except StudyInvalid as error:
+                form.errors["objective_reference"] = "; ".join(
+                    f"{problem.path} {problem.message}" for problem in error.errors
+                )
+    if form.errors:
+        context = page.context(
+            "study-compare", **_compare_context(page, QueryDict(query), reference_form=form)
+        )
+        if request.htmx:
+            return render(request, "compare/compare.html#objective", context)
+        return render(request, "compare/compare.html", context, status=400)
+    messages.success(request, "Reference points saved; the plans are scored again.")
     if not request.htmx:
         url = reverse("study-compare", args=[pk])
         return redirect(f"{url}?{query}#compare-objective" if query else url)

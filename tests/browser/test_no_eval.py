@@ -271,6 +271,15 @@ def _write_flows(sweep: Sweep, study, settings) -> None:
         "weigh the objectives",
         lambda: page.locator("form.weight-form button[type=submit]").first.click(),
     )
+    sweep.act(
+        "place the objective's reference points",
+        lambda: (
+            page.fill("form.reference-form input[name=poor_findings]", "9"),
+            page.click(
+                "form.reference-form button:text-is('Save reference points and score again')"
+            ),
+        ),
+    )
 
     # Ratings: record one, then delete it.
     sweep.open(f"{base}/plans/auto/ratings")

@@ -44,9 +44,9 @@ def weight_form(**overrides: object) -> dict[str, object]:
     return {f"weight_{key}": str(values[key]) for key in OBJECTIVE_FIGURES}
 
 
-def _manual_score() -> str:
-    """manual's score: 2.2 plus its mean awareness over auto's (the awareness figures
-    themselves are worked in tests/core/analysis/test_awareness*)."""
+def _awareness_share() -> float:
+    """manual's mean awareness over auto's (the awareness figures themselves are worked
+    in tests/core/analysis/test_awareness*)."""
     from allocation.core import read_study
     from allocation.core.analysis import analyse_plan, prepare
     from tests.core.conftest import HOME_HEATING
@@ -57,7 +57,12 @@ def _manual_score() -> str:
         analyse_plan(core, plan, graph=graph).headline()["mean_awareness"]
         for plan in ("manual", "auto")
     )
-    return f"{2.2 + manual / auto:.3f}"
+    return manual / auto
+
+
+def _manual_score() -> str:
+    """manual's score: 2.2 plus its awareness share."""
+    return f"{2.2 + _awareness_share():.3f}"
 
 
 RANKED = [("manual", _manual_score()), ("auto", "5.757")]
@@ -345,3 +350,95 @@ def test_history_restore_gets_the_whole_page(client, study, owner):
     headers = {**HX, "HX-History-Restore-Request": "true"}
     page = client.get(compare_url(study), headers=headers).content.decode()
     assert page.startswith("<!doctype html>") and 'id="compare-picker"' in page
+
+
+# -- the reference points ---------------------------------------------------------------
+
+
+def reference_url(study: m.Study) -> str:
+    return reverse("study-compare-reference", args=[study.pk])
+
+
+def reference_form(**points: str) -> dict[str, object]:
+    """The reference form as the page sends it: every field blank but those given."""
+    values = {f"{side}_{key}": "" for key in OBJECTIVE_FIGURES for side in ("good", "poor")}
+    return {**values, **points, "baseline": "manual", "plan": ["manual", "auto"]}
+
+
+def test_reference_points_post_stores_and_scores_again(client, study, owner):
+    """Burden good 10, poor 30: manual (70/3) at 2/3, auto (53/3) at 23/60. Findings
+    poor 5 given (the worse plan's, as by default): manual 1/5, auto 1. So manual =
+    2/3 + 1 + 1/5 + its awareness share (2.2 + that share before, burden then 1) and
+    auto = 23/60 + 1 + 2 + 1 + 1."""
+    client.force_login(owner)
+    page = client.get(compare_url(study)).content.decode()
+    assert 'name="good_burden_s_per_day" value="" placeholder="0"' in page
+    data = reference_form(
+        good_burden_s_per_day="10", poor_burden_s_per_day="30", poor_findings="5"
+    )
+    response = client.post(reference_url(study), data, headers=HX)
+    fragment = response.content.decode().strip()
+    assert response.status_code == 200
+    assert fragment.startswith('<section class="panel" id="compare-objective">')
+    assert "Reference points saved" in fragment
+    manual = 2 / 3 + 1 + 1 / 5 + _awareness_share()
+    auto = 23 / 60 + 5
+    assert ranking_rows(fragment) == [("manual", f"{manual:.3f}"), ("auto", f"{auto:.3f}")]
+    assert 'name="good_burden_s_per_day" value="10"' in fragment
+    study.refresh_from_db()
+    assert study.assumptions["objective_reference"] == {
+        "burden_s_per_day": {"good": 10, "poor": 30},
+        "findings": {"poor": 5},
+    }
+    # Back to the defaults: the assumption is dropped.
+    response = client.post(reference_url(study), {**data, "reset": "1"}, headers=HX)
+    assert response.status_code == 200
+    study.refresh_from_db()
+    assert "objective_reference" not in (study.assumptions or {})
+    assert ranking_rows(response.content.decode()) == RANKED
+
+
+def test_reference_post_without_htmx_redirects_back(client, study, owner):
+    client.force_login(owner)
+    response = client.post(reference_url(study), reference_form(poor_max_risk="25"))
+    assert response.status_code == 302
+    assert response["Location"].endswith("#compare-objective")
+    study.refresh_from_db()
+    assert study.assumptions["objective_reference"] == {"max_risk": {"poor": 25}}
+
+
+@pytest.mark.parametrize(
+    "points, key, message",
+    [
+        ({"good_findings": "many"}, "findings", "good: “many” is not a number"),
+        ({"poor_findings": "inf"}, "findings", "poor: must be a finite number"),
+        (
+            {"good_cut_ratio": "0.5", "poor_cut_ratio": "0.2"},
+            "cut_ratio",
+            "cut_ratio.poor (0.2) must not be below good (0.5)",
+        ),
+    ],
+)
+def test_bad_reference_point_is_named_beside_its_figure_and_nothing_stored(
+    client, study, owner, points, key, message
+):
+    client.force_login(owner)
+    response = client.post(reference_url(study), reference_form(**points), headers=HX)
+    fragment = response.content.decode()
+    assert response.status_code == 200
+    match = re.search(rf'<span class="error" id="err_reference_{key}">([^<]*)</span>', fragment)
+    assert match, fragment
+    assert message in match.group(1)
+    assert f'aria-describedby="err_reference_{key}"' in fragment
+    study.refresh_from_db()
+    assert "objective_reference" not in (study.assumptions or {})
+
+
+@pytest.mark.parametrize("role", ["viewer", "reviewer"])
+def test_viewers_and_reviewers_may_not_change_reference_points(client, study, member_of, role):
+    client.force_login(member_of(role))
+    page = client.get(compare_url(study)).content.decode()
+    assert "Save reference points" not in page
+    assert client.post(reference_url(study), reference_form(poor_findings="9")).status_code == 403
+    study.refresh_from_db()
+    assert "objective_reference" not in (study.assumptions or {})

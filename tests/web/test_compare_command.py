@@ -52,3 +52,25 @@ def test_plans_named_keep_their_order_and_unknown_ones_are_refused(study_file):
         run(study_file, "--plans", "nope")
     with pytest.raises(CommandError, match="at least two plans"):
         run(study_file, "--plans", "auto")
+
+
+def test_json_gives_the_figures_the_objective_weighs(tmp_path):
+    """The insulin example: handovers needing review count only those with a person on a
+    side, so a hybrid loop's objective figure lies below its headline count (which keeps
+    sensor-to-controller-to-pump work); each score is the weight times the figure's
+    place between the reference points printed beside it."""
+    from allocation.examples import example_paths
+
+    path = next(p for p in example_paths() if p.name == "closed-loop-insulin.json")
+    payload = json.loads(run(str(path), "--plans", "hybrid-loop", "injections", "--json"))
+    plans = {plan["id"]: plan for plan in payload["plans"]}
+    hybrid = plans["hybrid-loop"]
+    review = "handovers_to_review"
+    assert hybrid["objective_figures"][review] < hybrid["figures"][review]
+    for plan in plans.values():
+        for figure, score in plan["scores"].items():
+            point = payload["reference"][figure]
+            value = plan["objective_figures"][figure]
+            place = (value - point["good"]) / (point["poor"] - point["good"])
+            expected = payload["weights"][figure] * min(1.0, max(0.0, place))
+            assert score == pytest.approx(expected if point["separates"] else 0.0), figure

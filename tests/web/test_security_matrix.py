@@ -65,6 +65,7 @@ STUDY_RULES: dict[str, tuple[str | None, str | None]] = {
     "study-simulation-compare": (V, None),
     "study-compare": (V, None),
     "study-compare-weights": (None, E),
+    "study-compare-reference": (None, E),
     "plan-dashboard": (V, None),
     "plan-ratings": (V, None),
     "plan-rating-record": (None, R),

@@ -24,7 +24,9 @@ plans)::
 
 so a plan's score does not depend on which other plans are on the table. Where poor
 equals good the figure scores 0 for every plan and is marked as not separating the
-plans. Lower scores rank first; equal scores keep the order the plans were given in.
+plans. Handovers needing review and the highest screening index count only handovers
+with a person on at least one side (:func:`person_handovers`). Lower scores rank first;
+equal scores keep the order the plans were given in.
 Its **sensitivity** has two parts: for the two leading plans, the smallest change of each
 weight alone that reverses their order (the score is linear in each weight, so it is
 the difference of their totals over the difference of their scaled figures); and the
@@ -45,7 +47,7 @@ from __future__ import annotations
 
 from collections import defaultdict
 from collections.abc import Callable, Hashable, Iterable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, TypeVar
 
 import numpy as np
@@ -74,6 +76,8 @@ __all__ = [
     "handover_key",
     "match",
     "objective",
+    "objective_values",
+    "person_handovers",
     "reference_points",
     "sensitivity",
     "weight_problems",
@@ -165,6 +169,41 @@ def match(
 # -- the objective ----------------------------------------------------------------------
 
 
+def person_handovers(analysis: PlanAnalysis) -> list[Handover]:
+    """The plan's handovers with a person on at least one side.
+
+    Work passing between two automations is no handover a person makes or takes, so
+    the objective does not count it against a plan that automates (methods document,
+    ``#objective``). The sides are the handover's own agents; no one (``None``), or an
+    agent the study does not list, is not a person. Once the analysis keeps such work
+    apart from its handovers, this keeps every handover it lists.
+    """
+    agents = analysis.study.agents_by_id
+
+    def person(agent_id: str | None) -> bool:
+        agent = agents.get(agent_id or "")
+        return agent is not None and agent.is_human
+
+    return [
+        handover
+        for handover in analysis.handovers
+        if person(handover.site.from_agent) or person(handover.site.to_agent)
+    ]
+
+
+def objective_values(analysis: PlanAnalysis) -> dict[str, float]:
+    """The figures the objective weighs for one plan: its headline figures, except that
+    handovers needing review and the highest screening index are taken over
+    :func:`person_handovers` only."""
+    headline = analysis.headline()
+    handovers = person_handovers(analysis)
+    own = {
+        "handovers_to_review": sum(h.band != "acceptable" for h in handovers),
+        "max_risk": max((h.risk for h in handovers), default=0),
+    }
+    return {figure: float(own.get(figure, headline[figure])) for figure in OBJECTIVE_FIGURES}
+
+
 #: Weight vectors drawn for the sensitivity's shares, their Dirichlet concentration and
 #: seed (tool assumptions; methods document, ``#objective-sensitivity``).
 SENSITIVITY_SAMPLES = 1000
@@ -211,14 +250,16 @@ def reference_points(
     given: Mapping[str, Mapping[str, float]] | None = None,
 ) -> dict[str, tuple[float, float]]:
     """Each figure's ``(good, poor)``: as given, else good 0 and poor the worst value
-    among ``headlines`` (all the study's plans)."""
+    among ``headlines`` (all the study's plans). Where that worst value lies below a
+    given good (every plan better than good), poor is good: the figure does not
+    separate the plans, rather than scoring the better plans higher."""
     given = given or {}
     points = {}
     for figure in OBJECTIVE_FIGURES:
         stated = given.get(figure, {})
         worst = max((float(values[figure]) for values in headlines.values()), default=0.0)
         good = float(stated.get("good", 0.0))
-        poor = float(stated.get("poor", worst))
+        poor = float(stated["poor"]) if "poor" in stated else max(worst, good)
         points[figure] = (good, poor)
     return points
 
@@ -613,7 +654,10 @@ def _delta(before: PlanAnalysis, after: PlanAnalysis) -> PlanDelta:
 
 @dataclass(frozen=True)
 class Comparison:
-    """Plans side by side (the first one the baseline) and their ranking."""
+    """Plans side by side (the first one the baseline) and their ranking.
+
+    ``weighed[plan]`` holds the figures the objective weighs (:func:`objective_values`).
+    """
 
     plans: tuple[str, ...]
     names: dict[str, str]
@@ -622,6 +666,7 @@ class Comparison:
     deltas: tuple[PlanDelta, ...]
     ranking: Ranking
     sensitivity: Sensitivity
+    weighed: dict[str, dict[str, float]] = field(default_factory=dict)
 
     @property
     def baseline(self) -> str:
@@ -662,8 +707,9 @@ def compare_plans(
         Objective weights; by default the study's assumption ``objective_weights`` in
         force in the first analysis.
     study_headlines : mapping, optional
-        The headline figures of every plan of the study, for the default poor value of
-        each figure (the worst among them); by default those of the plans compared.
+        The figures the objective weighs (:func:`objective_values`) of every plan of
+        the study, for the default poor value of each figure (the worst among them); by
+        default those of the plans compared.
 
     Returns
     -------
@@ -682,6 +728,7 @@ def compare_plans(
     reference = analyses[0].assumptions.get("objective_reference") or {}
     plans = tuple(analysis.plan.id for analysis in analyses)
     headlines = {analysis.plan.id: analysis.headline() for analysis in analyses}
+    weighed = {analysis.plan.id: objective_values(analysis) for analysis in analyses}
     figures = tuple(_figure_row(key, [headlines[plan][key] for plan in plans]) for key in FIGURES)
     people = []
     for human in analyses[0].study.humans:
@@ -698,6 +745,7 @@ def compare_plans(
         figures=figures,
         people=tuple(people),
         deltas=tuple(_delta(base, other) for other in analyses[1:]),
-        ranking=objective(headlines, weights, reference, study_headlines),
-        sensitivity=sensitivity(headlines, weights, reference, study_headlines),
+        ranking=objective(weighed, weights, reference, study_headlines),
+        sensitivity=sensitivity(weighed, weights, reference, study_headlines),
+        weighed=weighed,
     )

@@ -2,8 +2,10 @@
 
 STUDY is a stored study's id or number, or the path of a study file (``.json``), which
 is compared without storing it. Prints every plan's headline figures, the objective's
-per-figure scores and total, and its sensitivity: the weight changes that reverse the
-two leading plans, and the share of sampled weights in which each plan comes first.
+per-figure scores and total (``objective_figures``: the values the objective weighs,
+handovers counted only where a person is on a side), and its sensitivity: the weight
+changes that reverse the two leading plans, and the share of sampled weights in which
+each plan comes first.
 """
 
 from __future__ import annotations
@@ -20,6 +22,7 @@ from allocation.core.analysis.compare import (
     Comparison,
     NotComparable,
     compare_plans,
+    objective_values,
 )
 from allocation.core.cautions import CAUTIONS
 
@@ -51,7 +54,7 @@ class Command(BaseCommand):
         try:
             comparison = compare_plans(
                 [analyses[plan] for plan in chosen],
-                study_headlines={plan: analysis.headline() for plan, analysis in analyses.items()},
+                study_headlines={plan: objective_values(a) for plan, a in analyses.items()},
             )
         except NotComparable as problem:
             raise CommandError(str(problem)) from None
@@ -74,6 +77,7 @@ def comparison_json(comparison: Comparison, study_id: str) -> dict[str, Any]:
                 "name": comparison.names[plan],
                 "rank": ranking.rank(plan),
                 "figures": {row.key: row.values[index] for row in comparison.figures},
+                "objective_figures": comparison.weighed[plan],
                 "scores": ranking.contributions[plan],
                 "total": ranking.scores[plan],
             }

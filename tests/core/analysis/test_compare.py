@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import json
 from functools import cache
+from types import SimpleNamespace
 
 import pytest
 
@@ -29,6 +30,8 @@ from allocation.core.analysis.compare import (
     handover_key,
     match,
     objective,
+    objective_values,
+    person_handovers,
     sensitivity,
     weight_problems,
 )
@@ -134,6 +137,33 @@ def test_reference_points_given_place_each_figure_and_clip():
     assert not ranking.separating["findings"]
     # A loses its burden share (1/3) and findings (1): 23/6 - 4/3 = 5/2.
     assert ranking.scores["A"] == pytest.approx(5 / 2)
+
+
+def test_a_good_value_above_every_plan_separates_nothing():
+    """Good 500 s of burden while the worst plan has 300: every plan is better than good.
+    The default poor (the worst, 300) would lie below good and turn the scale round
+    (A, the lightest, would score most); poor is taken equal to good instead, so the
+    figure scores 0 for every plan and does not separate them. A = 23/6 - 1/3 = 7/2."""
+    ranking = objective(THREE, reference={"burden_s_per_day": {"good": 500}})
+    assert ranking.reference["burden_s_per_day"] == (500, 500)
+    assert not ranking.separating["burden_s_per_day"]
+    assert [ranking.scaled[plan]["burden_s_per_day"] for plan in "ABC"] == [0, 0, 0]
+    assert ranking.scores["A"] == pytest.approx(7 / 2)
+
+
+@pytest.mark.parametrize(
+    "reference, words",
+    [
+        ({"findings": {"good": 3, "poor": 2}}, "findings.poor (2) must not be below good (3)"),
+        ({"cut_ratio": {"poor": -0.5}}, "cut_ratio.poor (-0.5) must not be below good (0)"),
+    ],
+)
+def test_a_poor_value_below_good_is_refused(reference, words):
+    """Lower is better for every figure weighed: a poor below good would score the
+    better plans higher."""
+    [(key, message)] = check_assumptions({"objective_reference": reference})
+    assert key == "objective_reference" and words in message
+    assert not check_assumptions({"objective_reference": {"findings": {"good": 2, "poor": 2}}})
 
 
 def test_figure_equal_in_every_plan_counts_nothing_only_where_it_is_zero():
@@ -452,3 +482,77 @@ def test_study_weights_are_used_by_default():
     comparison = compare_plans(analyses)
     assert comparison.ranking.scores == {"auto": 1.0, "manual": 1.0}
     assert comparison.ranking.order == ("auto", "manual")
+
+
+# -- handovers with a person -------------------------------------------------------------
+
+
+def test_person_handovers_keep_those_with_a_person_on_either_side():
+    """Agents: nurse (human), pump and monitor (automations). Device to device is work
+    passing between automations, not a handover a person makes or takes; a side that is
+    no one (None) or not in the study is not a person."""
+    agents = {
+        "nurse": SimpleNamespace(is_human=True),
+        "pump": SimpleNamespace(is_human=False),
+        "monitor": SimpleNamespace(is_human=False),
+    }
+    rows = [
+        handover("link", "T1", "T2", "pump", "monitor"),
+        handover("link", "T2", "T3", "monitor", "nurse"),
+        handover("mode", "T3", "T3", "nurse", None),
+        handover("mode", "T4", "T4", None, "pump"),
+        handover("shared", "T5", "T5", "pump", "ghost"),
+    ]
+    analysis = SimpleNamespace(study=SimpleNamespace(agents_by_id=agents), handovers=rows)
+    kept = person_handovers(analysis)
+    assert [(h.site.from_agent, h.site.to_agent) for h in kept] == [
+        ("monitor", "nurse"),
+        ("nurse", None),
+    ]
+
+
+def test_insulin_objective_counts_only_handovers_with_a_person():
+    """Counted from the analysis file's handover rows and the study file's agent kinds,
+    not through the objective: a row counts where either side is an agent of kind human.
+    The hybrid loops pass work from sensor to controller to pump; those rows drop out,
+    so their counts fall below the headline's."""
+    path = next(p for p in example_paths() if p.name == "closed-loop-insulin.json")
+    document = json.loads(path.read_text())
+    humans = {agent["id"] for agent in document["agents"] if agent["kind"] == "human"}
+    analyses = insulin()
+    for analysis in analyses:
+        rows = analysis.to_json()["handovers"]
+        people = [r for r in rows if r["from_agent"] in humans or r["to_agent"] in humans]
+        values = objective_values(analysis)
+        assert values["handovers_to_review"] == sum(r["band"] != "acceptable" for r in people)
+        assert values["max_risk"] == max((r["risk"] for r in people), default=0)
+    hybrid = next(a for a in analyses if a.plan.id == "hybrid-loop")
+    headline_count = hybrid.headline()["handovers_to_review"]
+    assert objective_values(hybrid)["handovers_to_review"] < headline_count
+    comparison = compare_plans(analyses)
+    assert comparison.weighed["hybrid-loop"] == objective_values(hybrid)
+
+
+def test_insulin_injections_lead_on_what_the_person_bears_not_on_handover_counts():
+    """Multiple daily injections rank first, and not because devices add handovers:
+    with the weight of handovers needing review at 0 they still lead. Their person is
+    interrupted less by day and by night, meets a lower highest screening index and a
+    lower mean mode-awareness index, and has fewer findings than under every other plan;
+    only their person time is the highest."""
+    analyses = insulin()
+    values = {analysis.plan.id: objective_values(analysis) for analysis in analyses}
+    others = [plan for plan in values if plan != "injections"]
+    lower = (
+        "interruptions_per_day",
+        "night_interruptions_per_day",
+        "max_risk",
+        "mean_awareness",
+        "findings",
+    )
+    for figure in lower:
+        assert all(values["injections"][figure] < values[p][figure] for p in others), figure
+    burden = "burden_s_per_day"
+    assert all(values["injections"][burden] > values[p][burden] for p in others)
+    assert compare_plans(analyses).ranking.order[0] == "injections"
+    without = compare_plans(analyses, weights={"handovers_to_review": 0})
+    assert without.ranking.order[0] == "injections"
