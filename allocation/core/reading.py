@@ -968,17 +968,26 @@ class StudyReader:
             notes=self.optional(data, "notes", path, self.note),
         )
 
+    def mode_source(self, value: Any, path: str) -> str | None:
+        """A transition's ``from``: a mode id, or ``"*"`` for every mode."""
+        if value == ANY_MODE:
+            return ANY_MODE
+        if isinstance(value, str) and not _IDENTIFIER.match(value):
+            self.error(
+                path,
+                f'{value!r} is neither a mode id nor "*" (every mode): an id has 1-64 '
+                "letters, digits, '.', '-' or '_', starting with a letter or digit",
+            )
+            return None
+        return self.identifier(value, path)
+
     def transition(self, value: Any, path: str) -> Transition | None:
         data = self.obj(value, path, ("from", "to", "trigger", "by", "cue"), ("per_day", "notes"))
         if data is None or "from" not in data or "to" not in data:
             return None
         # "from": "*" is a transition from every mode (overridden where a mode has its
         # own transition with the same trigger).
-        source = (
-            ANY_MODE
-            if data["from"] == ANY_MODE
-            else self.identifier(data["from"], child_path(path, "from"))
-        )
+        source = self.mode_source(data["from"], child_path(path, "from"))
         if data["to"] == ANY_MODE:
             self.error(
                 child_path(path, "to"),

@@ -507,8 +507,9 @@ FINDING_KINDS: dict[str, FindingKind] = _kinds(
     K(
         "error_state",
         "Person and device disagree",
-        "A reachable situation where the mode the person believes and the mode the device "
-        "is in disagree on who does some task.",
+        "A reachable situation where a mode the person believes (modes that look alike "
+        "are believed together) and the mode the device is in disagree on who does some "
+        "task.",
         _HIGHEST,
         "finding-error-state",
     ),

@@ -101,7 +101,7 @@ def mode_map_figure(
     modes: ModeMap,
     *,
     actual: str | None = None,
-    believed: str | None = None,
+    believed: str | tuple[str, ...] | None = None,
     finding_transitions: frozenset[tuple[str, str, str]] = frozenset(),
 ) -> dict[str, Any]:
     """The mode map as a figure.
@@ -113,7 +113,8 @@ def mode_map_figure(
         out; the editor shows them with their error).
     actual, believed : str, optional
         During a step-through: the mode the device is in (filled) and the mode the
-        person believes it is in (ringed in the accent colour).
+        person believes it is in, or the look-alike modes they believe together (each
+        ringed in the accent colour).
     finding_transitions : frozenset of (from, to, trigger)
         Transitions some finding is about; their labels are drawn in the accent colour.
 
@@ -200,23 +201,28 @@ def mode_map_figure(
     }
 
 
-def _nodes(modes: ModeMap, at, actual: str | None, believed: str | None) -> dict[str, Any]:
+def _nodes(
+    modes: ModeMap, at, actual: str | None, believed: str | tuple[str, ...] | None
+) -> dict[str, Any]:
     """The modes: a circle each with its name, the initial one with a double rim."""
     ids = [mode.id for mode in modes.states]
+    believed_ids = (believed,) if isinstance(believed, str) else tuple(believed or ())
     fills, rims, widths, text_colours, texts, hovers = [], [], [], [], [], []
     for mode in modes.states:
         is_actual = mode.id == actual
         fills.append(INK if is_actual else PAPER)
         text_colours.append(INK)
-        rims.append(ACCENT if mode.id == believed else INK)
-        widths.append(6 if mode.id == believed else (4 if mode.id == modes.initial else 1.5))
+        rims.append(ACCENT if mode.id in believed_ids else INK)
+        widths.append(6 if mode.id in believed_ids else (4 if mode.id == modes.initial else 1.5))
         words = [f"<b>{html.escape(mode.name)}</b>"]
         if mode.id == modes.initial:
             words.append("(starts here)")
         if is_actual:
             words.append("● device is here")
-        if mode.id == believed:
-            words.append("◯ person believes here")
+        if mode.id in believed_ids:
+            words.append(
+                "◯ person believes here" if len(believed_ids) == 1 else "◯ person may believe here"
+            )
         texts.append("<br>".join(words))
         hovers.append(
             f"<b>{html.escape(mode.name)}</b> ({html.escape(mode.id)})<br>shows: "

@@ -673,20 +673,24 @@ def _moment_context(study: Study, plan: Plan, moment: Moment) -> dict[str, Any]:
             "missed": step.missed,
             "refused": step.refused,
         }
+    believed = [modes.by_id[mode_id] for mode_id in moment.believed_set or (moment.believed,)]
     return {
         "event": event,
         "actual": modes.by_id[moment.actual],
         "believed": modes.by_id[moment.believed],
-        "agree": moment.actual == moment.believed,
+        # Look-alike modes are believed together: "Automatic or Exercise".
+        "believed_modes": believed,
+        "believed_name": " or ".join(mode.name for mode in believed),
+        "agree": [mode.id for mode in believed] == [moment.actual],
         "confused": moment.confused,
         "holders": [
             {
                 "task": study.tasks_by_id[task_id],
                 "actual": _holder_name(study, actual),
-                "believed": _holder_name(study, believed),
-                "differs": actual != believed,
+                "believed": " or ".join(_holder_name(study, holder) for holder in holders),
+                "differs": holders != (actual,),
             }
-            for task_id, actual, believed in moment.holders
+            for task_id, actual, holders in moment.holders
         ],
     }
 
@@ -712,7 +716,9 @@ def mode_finding(request: HttpRequest, pk: int, plan: str, finding: int) -> Http
     figure = None
     if moments:
         figure = mode_map_figure(
-            chosen.modes, actual=moments[step].actual, believed=moments[step].believed
+            chosen.modes,
+            actual=moments[step].actual,
+            believed=moments[step].believed_set or (moments[step].believed,),
         )
     context = page.context(
         "plan-modes",

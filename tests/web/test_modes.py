@@ -168,8 +168,11 @@ def test_adding_a_cue_removes_the_uncued_findings(signed_in, study):
     page = response.content.decode()
     assert 'id="modes-region"' in page
     # By hand: with an alert the resident always notices the return to the schedule, so
-    # only the look-alike indication (both modes show the clock symbol) is left.
-    assert finding_titles(page) == ["Modes that look alike"]
+    # the change without a cue and the one they cannot follow are gone. But Schedule and
+    # Hold both show the clock symbol: having noticed the change they believe "Schedule
+    # or Hold" (methods document, #mode-check), and Hold disagrees with Schedule on the
+    # set points, so the look-alike indication and an error state are left.
+    assert finding_titles(page) == ["Modes that look alike", "Person and device disagree"]
     assert rows_of(study)["transitions"][1] == ("hold", "schedule", "next period", "alert")
 
 
@@ -343,3 +346,35 @@ def test_a_transition_from_any_mode_is_stored_shown_and_read_back(signed_in, stu
     page = signed_in.get(url("plan-modes", study)).content.decode()
     assert "<td>any mode</td>" in page
     assert "power cut&#x27; changes the mode from Hold" in page
+
+
+def test_step_through_of_look_alike_modes_names_the_belief_as_either(signed_in, study):
+    # With an alert on 'next period' the resident notices the return to Schedule, which
+    # shows the clock symbol as Hold does: they believe "Schedule or Hold" (methods
+    # document, #mode-check). By hand: start in Schedule; 'dial turned' (their own
+    # action) leads to Hold, believed Hold; 'next period' leads to Schedule, believed
+    # Schedule or Hold (named "Following the schedule or Holding a set point"); the set
+    # points are the resident's in Hold and the thermostat's in Schedule.
+    signed_in.post(
+        url("transition-edit", study, "1"),
+        {
+            "source": "hold",
+            "target": "schedule",
+            "trigger": "next period",
+            "by": "automation",
+            "cue": "alert",
+            "per_day": "1",
+            "expected_from": "hold",
+            "expected_to": "schedule",
+            "expected_trigger": "next period",
+        },
+        **HTMX,
+    )
+    page = signed_in.get(url("plan-modes", study)).content.decode()
+    number = finding_titles(page).index("Person and device disagree")
+    target = url("mode-finding", study, number)
+    last = signed_in.get(target + "?step=2").content.decode()
+    assert "Step 2 of 2" in last
+    assert "Following the schedule or Holding a set point" in last
+    assert "they look alike, so the person cannot tell which" in last
+    assert "they disagree on who does what" in last

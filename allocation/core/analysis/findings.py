@@ -35,10 +35,13 @@ __all__ = ["Finding", "WitnessStep", "accountability_findings", "capability_find
 class WitnessStep:
     """One event of a mode-map finding's witness, and where it leaves machine and person.
 
-    ``actual`` is the mode the device is in after the event and ``believed`` the mode
-    the person then believes it is in; ``missed`` is true when the person did not notice
-    the change (always false for their own actions and for alerts); ``refused`` marks an
-    action of the person that the device does not accept (nothing changes).
+    ``actual`` is the mode the device is in after the event and ``believed_set`` the
+    modes the person then believes it may be in (modes they cannot tell apart);
+    ``believed`` is one of them, the first that disagrees with the actual mode on who
+    holds some task if any does (else the actual mode if it is in the set); ``missed``
+    is true when the person did not notice the change (always false for their own
+    actions and for alerts); ``refused`` marks an action of the person that the device
+    does not accept (nothing changes).
     """
 
     event: str
@@ -48,6 +51,11 @@ class WitnessStep:
     actual: str
     believed: str
     refused: bool = False
+    believed_set: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        if not self.believed_set:
+            object.__setattr__(self, "believed_set", (self.believed,))
 
     def to_json(self) -> dict[str, Any]:
         return {
@@ -58,6 +66,7 @@ class WitnessStep:
             "refused": self.refused,
             "actual": self.actual,
             "believed": self.believed,
+            "believed_set": list(self.believed_set),
         }
 
 

@@ -1,56 +1,61 @@
 """Formal verification of a plan's mode map against what the person can observe (methods
 document, ``#mode-check``).
 
-The **machine** is the mode map: its modes and transitions (a transition from ``"*"``
-counts from every mode, except where the mode has its own with the same trigger). The
-**person's model** is what they can observe of it: their own actions (they know what
-each does, so after one they believe the mode it leads to from the mode they believed)
-and the cues of the other transitions. An ``alert`` or ``alert_confirm`` is always
-noticed, a change with cue ``none`` never is, and one shown only on the ``display`` or
-``on_request`` may or may not be noticed, so the search branches both ways (tool
-assumption, after Sarter & Woods 1995: unannounced and passively shown changes are the
-ones people miss). The person's belief is a mode.
+The **machine** is the mode map: its modes and transitions (a transition ``"from":
+"*"`` applies in every mode that has no transition of its own on the same trigger). An
+action of the person whose transitions all lead to one mode is accepted without effect
+in that mode (its effect already holds), so pressing it there is not refused.
 
-The two are composed as in Degani & Heymann (2002): a state is ``(actual, believed)``,
-starting at ``(initial, initial)``. From ``(a, b)``, for each transition ``t`` of the
+The **person's model** is what they can observe of it: their own actions and the cues
+of the other transitions. An ``alert`` or ``alert_confirm`` is always noticed, a change
+with cue ``none`` never is, and one shown only on the ``display`` or ``on_request`` may
+or may not be noticed, so the search branches both ways (tool assumption, after Sarter
+& Woods 1995). The person's belief is a **set of modes**: modes that show the same
+indication cannot be told apart, so after a noticed change into one of them the person
+believes all of them. The person starts knowing the initial mode; after their own
+action the belief is the image of the set under that action; a set offers the actions
+any of its modes accepts.
+
+The two are composed as in Degani & Heymann (2002): a state is ``(actual, belief)``,
+starting at ``(initial, {initial})``. From ``(a, B)``, for each transition ``t`` of the
 machine from ``a``:
 
-- an action of the person (``by == "human"``) is taken only if their model offers it in
-  ``b`` (a transition from ``b`` with the same trigger, also by the person); it leads to
-  ``(t.target, p)`` for each mode ``p`` it leads to from ``b``;
-- any other transition leads to ``(t.target, t.target)`` when noticed and to
-  ``(t.target, b)`` when missed.
+- an action of the person (``by == "human"``) is taken only if ``B`` offers it; it
+  leads to ``(t.target, image of B under it)``;
+- any other transition leads to ``(t.target, look-alikes of t.target)`` when noticed and
+  to ``(t.target, B)`` when missed.
 
-The composition has at most ``modes x modes`` states and is searched breadth-first, so
-every witness is a shortest sequence of events. The findings (kinds as named here):
+The beliefs the search can meet are counted from the map before it
+(:func:`mode_search_size`), so the composition has at most ``modes x beliefs`` states;
+it is searched breadth-first, so every witness is a shortest sequence of events. The
+findings (kinds as named here):
 
 - ``uncued_change``: a transition the person does not make, with no cue, that changes
   who holds some task (an indirect mode change; Leveson et al. 1997);
 - ``ambiguous_indication``: two modes that show the same indication but differ in who
   holds some task, or in where the same action of the person leads (interface
   interpretation errors and inconsistent behaviour; Leveson et al. 1997);
-- ``error_state``: a reachable state where the believed and the actual mode disagree on
-  who principally holds some task (Degani & Heymann 2002), with the shortest sequence of
-  events that gets there, "how did we get into this mode?" (Sarter & Woods 1995);
+- ``error_state``: a reachable state where some believed mode and the actual mode
+  disagree on who principally holds some task (Degani & Heymann 2002), with the shortest
+  sequence of events that gets there, "how did we get into this mode?" (Sarter & Woods
+  1995); a belief of several modes is named "A or B";
 - ``unforeseen_transition``: a transition the machine can take from a reachable mode that
   the person cannot notice (cue ``none``), so their model does not follow it;
-- ``refused_action``: an action the person's model offers in the believed mode that the
-  machine does not accept in the actual mode. A mode accepts an action without effect
-  when all the action's transitions lead to that mode (its effect already holds; tool
-  assumption), so repeating it there is not refused;
+- ``refused_action``: an action the belief offers that the machine does not accept in
+  the actual mode;
 - ``unreachable_mode``: a mode no sequence of transitions reaches from the initial one;
-- ``unheld_task``: a mode where a safety-critical task is held by nobody (not done, or
-  no holder); a critical task held by nobody in every mode is left out, as the plan's
-  own decision (tool assumption);
+- ``unheld_task``: a mode where a task at or above the critical severity (the study's
+  risk policy, ``critical_severity``, default 4) is held by nobody; a task no mode has
+  done is the plan's decision and left out (tool assumption);
 - ``no_way_back``: a reachable mode from which no mode is reachable where a person
   principally holds every safety-critical task that the map ever gives to a person
-  (operator authority limits; Leveson et al. 1997); a mode where such a task is not done
-  lacks it. Safety-critical means of the risk policy's critical severity or above
-  (``critical_severity``, default 4); a critical task the plan leaves to the device in
-  every mode is an allocation decision, seen on the other screens, not a trap of the
-  mode map, so it is left out (tool assumption);
+  (operator authority limits; Leveson et al. 1997). Safety-critical means applicable and
+  at or above the critical severity; a mode where such a task is not done lacks it. A
+  critical task the plan leaves to the device in every mode is an allocation decision,
+  seen on the other screens, not a trap of the mode map, so it is left out (tool
+  assumption);
 - ``mode_map_unchecked``: a map too large to search within ``MODE_STATES_MAX`` and
-  ``MODE_STEPS_MAX`` (:func:`mode_search_size`, counted before any search); the study
+  ``MODE_STEPS_MAX`` (:func:`mode_search_size`, counted before the search); the study
   checks refuse such a map, so this is raised only for one that reaches the check
   all the same.
 
@@ -58,10 +63,10 @@ Every finding that an event sequence shows carries it as its ``witness``: each e
 with the mode the device is then in and the mode the person then believes. For
 ``error_state`` and ``refused_action`` it is the path of the composed search; for the
 findings about a mode or a transition (``uncued_change``, ``unforeseen_transition``,
-``no_way_back``) it is the shortest way the machine gets there, replayed with the person
-noticing every change that is shown and missing those that are not (their own action
-sets their belief to where it leads, also when their model does not offer it: they see
-what they did; tool assumption).
+``unheld_task``, ``no_way_back``) it is the shortest way the machine gets there, replayed
+with the person noticing every change that is shown and missing those that are not
+(their own action sets their belief to its image, or, when their model does not offer
+it, to where it led: they see what they did; tool assumption).
 
 A witness that needs some display (or on-request) change to go unnoticed says so. When a
 state can be reached both with and without such a miss, the witness is the shortest
@@ -82,7 +87,8 @@ References
 from __future__ import annotations
 
 from collections import deque
-from dataclasses import dataclass
+from collections.abc import Callable
+from dataclasses import dataclass, replace
 from typing import Any
 
 from ..limits import MODE_STATES_MAX, MODE_STEPS_MAX
@@ -128,7 +134,9 @@ _MISSED_WORDS = {
     "none": "not shown at all",
 }
 
-State = tuple[str, str]
+#: What the person believes about the mode: the set of modes it may be in.
+Belief = frozenset[str]
+State = tuple[str, Belief]
 #: Tasks named with their titles in a message; more are given by id only.
 _NAMED = 4
 
@@ -162,6 +170,7 @@ class Exploration:
     parents: dict[State, tuple[State, Step] | None]
     sure_parents: dict[State, tuple[State, Step] | None]
     machine_parents: dict[str, tuple[str, Transition] | None]
+    ordered: Callable[[Belief], tuple[str, ...]]
 
     @property
     def states(self) -> list[State]:
@@ -188,9 +197,12 @@ class Exploration:
             state = before
         return tuple(reversed(trail)), not sure
 
-    def witness(self, state: State, refused: str | None = None) -> tuple[WitnessStep, ...]:
-        """The witness of a reachable state as events with both modes after each; with
-        ``refused``, ending in that action of the person, which the device refuses."""
+    def witness(
+        self, state: State, pick: Callable[[str, Belief], str], refused: str | None = None
+    ) -> tuple[WitnessStep, ...]:
+        """The witness of a reachable state as events with both modes after each (the
+        belief as the mode ``pick`` names, with the whole set); with ``refused``, ending
+        in that action of the person, which the device refuses."""
         trail, _ = self.trail(state)
         steps = [
             WitnessStep(
@@ -199,12 +211,25 @@ class Exploration:
                 step.transition.cue,
                 step.missed,
                 actual,
-                believed,
+                pick(actual, believed),
+                believed_set=self.ordered(believed),
             )
             for step, (actual, believed) in trail
         ]
         if refused is not None:
-            steps.append(WitnessStep(refused, "human", "", False, *state, refused=True))
+            actual, believed = state
+            steps.append(
+                WitnessStep(
+                    refused,
+                    "human",
+                    "",
+                    False,
+                    actual,
+                    pick(actual, believed),
+                    refused=True,
+                    believed_set=self.ordered(believed),
+                )
+            )
         return tuple(steps)
 
     def machine_path(self, mode: str) -> tuple[Transition, ...]:
@@ -217,34 +242,34 @@ class Exploration:
 
 
 def _outgoing(modes: ModeMap) -> dict[str, list[Transition]]:
-    """Transitions from each mode in file order (one from every mode counted in each,
-    where no transition of the mode's own overrides it), leaving out ones naming unknown
-    modes."""
+    """Transitions from each mode in file order (``"from": "*"`` spelt out), leaving out
+    ones naming unknown modes, and with each action of the person accepted without
+    effect where its effect already holds: a trigger whose transitions all lead to one
+    mode is accepted in that mode itself, leaving it there (methods document,
+    ``#mode-check``)."""
     out: dict[str, list[Transition]] = {mode.id: [] for mode in modes.states}
     for transition in modes.expanded:
         if transition.source in out and transition.target in out:
             out[transition.source].append(transition)
+    targets: dict[str, dict[str, Transition]] = {}
+    for transitions in out.values():
+        for transition in transitions:
+            if transition.by == "human":
+                targets.setdefault(transition.trigger, {}).setdefault(
+                    transition.target, transition
+                )
+    # Each mode's own actions, gathered once: a map of many triggers stays linear.
+    offered = {
+        mode_id: {t.trigger for t in transitions if t.by == "human"}
+        for mode_id, transitions in out.items()
+    }
+    for trigger, leading in targets.items():
+        if len(leading) != 1:
+            continue
+        ((target, example),) = leading.items()
+        if trigger not in offered[target]:
+            out[target].append(replace(example, source=target, per_day=None))
     return out
-
-
-def _no_effect(out: dict[str, list[Transition]]) -> dict[str, set[str]]:
-    """Per mode, the actions of the person it accepts without effect: those whose
-    transitions all lead to that mode, where the mode has none of its own (its effect
-    already holds; tool assumption)."""
-    targets: dict[str, set[str]] = {}
-    own: dict[str, set[str]] = {mode_id: set() for mode_id in out}
-    for mode_id, transitions in out.items():
-        for t in transitions:
-            if t.by == "human":
-                targets.setdefault(t.trigger, set()).add(t.target)
-                own[mode_id].add(t.trigger)
-    accepted: dict[str, set[str]] = {mode_id: set() for mode_id in out}
-    for trigger, into in targets.items():
-        if len(into) == 1:
-            (mode_id,) = into
-            if trigger not in own[mode_id]:
-                accepted[mode_id].add(trigger)
-    return accepted
 
 
 def _actions(out: dict[str, list[Transition]]) -> dict[str, dict[str, list[str]]]:
@@ -261,22 +286,84 @@ def _actions(out: dict[str, list[Transition]]) -> dict[str, dict[str, list[str]]
     return actions
 
 
+def _look_alike(modes: ModeMap) -> dict[str, Belief]:
+    """Per mode, the modes that show the same indication (itself alone when its
+    indication is blank or its own): what the person believes after noticing a change
+    into it."""
+    shown: dict[str, list[str]] = {}
+    for mode in modes.states:
+        key = (mode.indication or "").strip().casefold()
+        if key:
+            shown.setdefault(key, []).append(mode.id)
+    result = {}
+    for mode in modes.states:
+        key = (mode.indication or "").strip().casefold()
+        result[mode.id] = frozenset(shown[key]) if key else frozenset({mode.id})
+    return result
+
+
+class _Person:
+    """The person's model: what they believe after each event, as a set of modes."""
+
+    def __init__(self, modes: ModeMap, out, actions):
+        self.actions = actions
+        self.looks = _look_alike(modes)
+        self._images: dict[tuple[Belief, str], Belief] = {}
+        self._offers: dict[Belief, tuple[str, ...]] = {}
+        self._offered: dict[Belief, frozenset[str]] = {}
+        self.order = {mode.id: i for i, mode in enumerate(modes.states)}
+
+    def offers(self, belief: Belief) -> tuple[str, ...]:
+        """The actions any mode of the set accepts, in map order."""
+        if belief not in self._offers:
+            triggers: dict[str, None] = {}
+            for mode_id in self.ordered(belief):
+                triggers.update(dict.fromkeys(self.actions[mode_id]))
+            self._offers[belief] = tuple(triggers)
+        return self._offers[belief]
+
+    def accepts(self, belief: Belief, trigger: str) -> bool:
+        """Whether some mode of the set accepts the action (a set, so a map of many
+        actions stays linear)."""
+        if belief not in self._offered:
+            self._offered[belief] = frozenset(self.offers(belief))
+        return trigger in self._offered[belief]
+
+    def image(self, belief: Belief, trigger: str) -> Belief:
+        """Where the person believes their action leads: the image of the set."""
+        key = (belief, trigger)
+        if key not in self._images:
+            self._images[key] = frozenset(
+                target for mode_id in belief for target in self.actions[mode_id].get(trigger, ())
+            )
+        return self._images[key]
+
+    def ordered(self, belief: Belief) -> tuple[str, ...]:
+        return tuple(sorted(belief, key=self.order.__getitem__))
+
+
 def _successors(
     state: State,
     out: dict[str, list[Transition]],
-    actions: dict[str, dict[str, list[str]]],
+    person: _Person,
     allow_missed_display: bool,
 ):
     """The steps out of a composed state and the states they lead to."""
     actual, believed = state
     for transition in out[actual]:
         if transition.by == "human":
-            for predicted in actions[believed].get(transition.trigger, ()):
-                yield Step(transition, False), (transition.target, predicted)
+            if person.accepts(believed, transition.trigger):
+                yield (
+                    Step(transition, False),
+                    (
+                        transition.target,
+                        person.image(believed, transition.trigger),
+                    ),
+                )
         elif transition.cue in NOTICED:
-            yield Step(transition, False), (transition.target, transition.target)
+            yield Step(transition, False), (transition.target, person.looks[transition.target])
         elif transition.cue in MISSABLE:
-            yield Step(transition, False), (transition.target, transition.target)
+            yield Step(transition, False), (transition.target, person.looks[transition.target])
             if allow_missed_display:
                 yield Step(transition, True), (transition.target, believed)
         else:
@@ -285,41 +372,64 @@ def _successors(
 
 @dataclass(frozen=True)
 class SearchSize:
-    """The most the check of a mode map may have to search, counted from the map alone
-    before any search: ``states`` pairs of actual and believed mode (modes x modes) and
-    ``steps``, for every believed mode, every transition with each way it can go."""
+    """The most the check of a mode map may have to search, counted from the map before
+    the search: ``beliefs`` the sets of modes the person can believe (every set the
+    person's model alone can reach, :func:`mode_search_size`; at least this many when
+    ``complete`` is false, the count having stopped past a limit), ``states`` pairs of
+    actual mode and belief (modes x beliefs) and ``steps``, for every belief, every
+    transition with each way it can go."""
 
     modes: int
     transitions: int
     states: int
     steps: int
+    beliefs: int = 0
+    complete: bool = True
+    #: Pairs of modes with the same indication, each compared for shared indications.
+    pairs: int = 0
 
     @property
     def over(self) -> bool:
-        """Over ``MODE_STATES_MAX`` or ``MODE_STEPS_MAX``."""
-        return self.states > MODE_STATES_MAX or self.steps > MODE_STEPS_MAX
+        """Over ``MODE_STATES_MAX`` (states, or pairs of look-alike modes) or
+        ``MODE_STEPS_MAX``."""
+        return max(self.states, self.pairs) > MODE_STATES_MAX or self.steps > MODE_STEPS_MAX
 
     def refusal(self) -> str:
         """Why the map is too large to check, naming the sizes and the limits."""
+        least = "" if self.complete else "at least "
         return (
-            f"the mode map has {self.modes:,} modes and {self.transitions:,} transitions: "
-            f"its check would search up to {self.states:,} states (modes x modes; the "
-            f"limit is {MODE_STATES_MAX:,}, MODE_STATES_MAX) and take up to "
-            f"{self.steps:,} steps (every transition from every believed mode, each way "
-            f"it can go; the limit is {MODE_STEPS_MAX:,}, MODE_STEPS_MAX). Split the "
-            "map, or merge modes that differ in nothing the person must know"
+            f"the mode map has {self.modes:,} modes and {self.transitions:,} transitions, "
+            f"and the person can hold {least}{self.beliefs:,} different beliefs about the "
+            f"mode (sets of modes they cannot tell apart): its check would search "
+            f"{least}{self.states:,} states (modes x beliefs, at least modes x modes; the "
+            "limit is "
+            f"{MODE_STATES_MAX:,}, MODE_STATES_MAX) and take {least}{self.steps:,} steps "
+            f"(every transition from every belief, each way it can go; the limit is "
+            f"{MODE_STEPS_MAX:,}, MODE_STEPS_MAX)"
+            + (
+                f", and compare {self.pairs:,} pairs of modes with the same indication "
+                f"(the limit is {MODE_STATES_MAX:,}, MODE_STATES_MAX)"
+                if self.pairs > MODE_STATES_MAX
+                else ""
+            )
+            + ". Split the map, or merge modes that differ in nothing the person must know"
         )
 
 
 def mode_search_size(modes: ModeMap) -> SearchSize:
     """The most states and steps :func:`explore` and the findings may take for a map.
 
-    From a state ``(actual, believed)`` each transition out of ``actual`` gives one step
-    (an alert, a change with no cue), two (a change shown only passively: noticed or
-    missed) or, for an action of the person, one per mode their model expects it to lead
-    to from ``believed`` (at most the most targets the action has from any mode). Summed
-    over the transitions and multiplied by the modes a person may believe, this bounds
-    the steps of the search, and so the findings it can raise. Linear in the map.
+    The beliefs are counted first, on the person's model alone: the initial mode, the
+    set of look-alike modes of every mode a shown change leads into, and every image of
+    a belief under an action it offers, until no new set appears. The composed search
+    reaches no other belief, so ``modes x beliefs`` bounds its states; the count is
+    at least ``modes x modes``, which bounds the pairs of modes compared for shared
+    indications (and the mode shares' matrices) as before. From a state
+    each transition out of the actual mode gives one step (an action of the person, an
+    alert, a change with no cue) or two (a change shown only passively: noticed or
+    missed), so ``beliefs x`` the ways of all transitions bounds its steps. The count of
+    beliefs stops as soon as either bound passes its limit, so it costs no more than
+    the search it guards (the size is then marked incomplete).
 
     Parameters
     ----------
@@ -331,26 +441,58 @@ def mode_search_size(modes: ModeMap) -> SearchSize:
     """
     count = len(modes.states)
     out = _outgoing(modes)
-    fan: dict[str, int] = {}
-    for table in _actions(out).values():
-        for trigger, targets in table.items():
-            fan[trigger] = max(fan.get(trigger, 0), len(targets))
-    ways = 0
-    for moves in out.values():
-        for transition in moves:
-            if transition.by == "human":
-                ways += fan[transition.trigger]
-            else:
-                ways += 2 if transition.cue in MISSABLE else 1
-    return SearchSize(count, len(modes.transitions), count * count, count * ways)
+    ways = sum(
+        2 if t.by != "human" and t.cue in MISSABLE else 1 for moves in out.values() for t in moves
+    )
+    shown: dict[str, int] = {}
+    for mode in modes.states:
+        key = (mode.indication or "").strip().casefold()
+        if key:
+            shown[key] = shown.get(key, 0) + 1
+    pairs = sum(k * (k - 1) // 2 for k in shown.values())
+    if modes.initial not in out:
+        return SearchSize(count, len(modes.transitions), count * count, ways, 1, True, pairs)
+    person = _Person(modes, out, _actions(out))
+    start: list[Belief] = [frozenset({modes.initial})]
+    start += [
+        person.looks[t.target]
+        for moves in out.values()
+        for t in moves
+        if t.by != "human" and t.cue != "none"
+    ]
+    seen = set(start)
+    queue = deque(dict.fromkeys(start))
+    complete = True
+    while queue:
+        if max(len(seen), count) * count > MODE_STATES_MAX or len(seen) * ways > MODE_STEPS_MAX:
+            complete = False
+            break
+        belief = queue.popleft()
+        for trigger in person.offers(belief):
+            image = person.image(belief, trigger)
+            if image not in seen:
+                seen.add(image)
+                queue.append(image)
+    beliefs = len(seen)
+    # The pairs of modes (compared for shared indications; the mode shares' matrices)
+    # stay bounded as modes x modes, so the states count at least that many.
+    return SearchSize(
+        count,
+        len(modes.transitions),
+        count * max(count, beliefs),
+        beliefs * ways,
+        beliefs,
+        complete,
+        pairs,
+    )
 
 
-def _search(initial: State, out, actions, allow_missed_display: bool):
+def _search(initial: State, out, person: _Person, allow_missed_display: bool):
     parents: dict[State, tuple[State, Step] | None] = {initial: None}
     queue = deque([initial])
     while queue:
         state = queue.popleft()
-        for step, following in _successors(state, out, actions, allow_missed_display):
+        for step, following in _successors(state, out, person, allow_missed_display):
             if following not in parents:
                 parents[following] = (state, step)
                 queue.append(following)
@@ -368,10 +510,11 @@ def explore(modes: ModeMap) -> Exploration:
     Returns
     -------
     Exploration
+        Its states are pairs of the actual mode and the belief, a frozenset of modes.
     """
     out = _outgoing(modes)
-    actions = _actions(out)
-    initial = (modes.initial, modes.initial)
+    person = _Person(modes, out, _actions(out))
+    initial = (modes.initial, frozenset({modes.initial}))
     machine: dict[str, tuple[str, Transition] | None] = {modes.initial: None}
     queue = deque([modes.initial])
     while queue:
@@ -382,25 +525,40 @@ def explore(modes: ModeMap) -> Exploration:
                 queue.append(transition.target)
     return Exploration(
         initial,
-        _search(initial, out, actions, True),
-        _search(initial, out, actions, False),
+        _search(initial, out, person, True),
+        _search(initial, out, person, False),
         machine,
+        person.ordered,
     )
 
 
 def _replayed(
-    initial: str, transitions, actions: dict[str, dict[str, list[str]]]
+    initial: str, transitions, person: _Person, pick: Callable[[str, Belief], str]
 ) -> tuple[WitnessStep, ...]:
     """A sequence of the machine's transitions with the person's belief after each: they
-    notice every change that is shown, miss those with no cue, and believe their own
-    action led where it did (module docstring)."""
-    believed = initial
+    notice every change that is shown and miss those with no cue, and after their own
+    action believe where their model says it leads, or where it did lead when their model
+    does not offer it (module docstring)."""
+    believed: Belief = frozenset({initial})
     steps = []
     for t in transitions:
         missed = t.by != "human" and t.cue not in NOTICED | MISSABLE
-        if not missed:
-            believed = t.target
-        steps.append(WitnessStep(t.trigger, t.by, t.cue, missed, t.target, believed))
+        if t.by == "human":
+            image = person.image(believed, t.trigger)
+            believed = image or frozenset({t.target})
+        elif not missed:
+            believed = person.looks[t.target]
+        steps.append(
+            WitnessStep(
+                t.trigger,
+                t.by,
+                t.cue,
+                missed,
+                t.target,
+                pick(t.target, believed),
+                believed_set=person.ordered(believed),
+            )
+        )
     return tuple(steps)
 
 
@@ -416,7 +574,6 @@ class _Checker:
         self.study = study
         self.plan = plan
         self.modes = modes
-        # Tasks of this severity or above are safety-critical (the study's risk policy).
         self.critical = int(resolve_policy(study.risk_policy)["critical_severity"])
         self.leaves = [task.id for task in study.leaves]
         leaf_set = set(self.leaves)
@@ -431,6 +588,7 @@ class _Checker:
             for mode in self.modes.states
         }
         self._differences: dict[tuple[str, str], tuple[str, ...]] = {}
+        self._holders: dict[Belief, dict[str, set[str | None]]] = {}
 
     def _holder(self, task_id: str, mode: str | None, assumptions) -> tuple[str | None, bool]:
         """The principal holder of a task in a mode, and whether the task applies."""
@@ -453,6 +611,47 @@ class _Checker:
                 and self.holder(first, task_id)[0] != self.holder(second, task_id)[0]
             )
         return self._differences[key]
+
+    def believed_differences(self, actual: str, believed: Belief) -> tuple[str, ...]:
+        """Tasks some mode of the belief holds differently from the actual mode."""
+        if len(believed) == 1:
+            (mode_id,) = believed
+            return self.differences(actual, mode_id)
+        # Per belief once, the holders its modes give each task some mode overrides, so
+        # each state costs one pass over those tasks, not one per believed mode.
+        if believed not in self._holders:
+            holders: dict[str, set[str | None]] = {}
+            for mode_id in believed:
+                for task_id in self.overridden[mode_id]:
+                    holders.setdefault(task_id, set())
+            for task_id, found in holders.items():
+                found.update(self.holder(mode_id, task_id)[0] for mode_id in believed)
+            self._holders[believed] = holders
+        holders = self._holders[believed]
+        touched = set(holders) | set(self.overridden[actual])
+        differing = set()
+        for task_id in touched:
+            here = self.holder(actual, task_id)[0]
+            there = holders.get(task_id, {self.base[task_id][0]})
+            if there != {here}:
+                differing.add(task_id)
+        return tuple(task_id for task_id in self.leaves if task_id in differing)
+
+    def pick(self, actual: str, believed: Belief) -> str:
+        """The mode of a belief to show alone: the first (map order) that disagrees with
+        the actual mode on a holder, else the actual mode if believed, else the first."""
+        ordered = [mode.id for mode in self.modes.states if mode.id in believed]
+        for mode_id in ordered:
+            if self.differences(actual, mode_id):
+                return mode_id
+        return actual if actual in believed else ordered[0]
+
+    def ordered(self, believed: Belief) -> tuple[str, ...]:
+        return tuple(mode.id for mode in self.modes.states if mode.id in believed)
+
+    def belief_name(self, believed: Belief) -> str:
+        """A belief in words: its modes joined by "or" (methods document)."""
+        return " or ".join(self.mode_name(mode_id) for mode_id in self.ordered(believed))
 
     def severity(self, tasks) -> int:
         return max((self.study.task(task_id).severity or 1 for task_id in tasks), default=1)
@@ -480,16 +679,19 @@ class _Checker:
             return f"{', '.join(named)} and {len(rest)} more ({', '.join(rest)})"
         return named[0] if len(named) == 1 else f"{', '.join(named[:-1])} and {named[-1]}"
 
-    def holders_text(self, tasks, first: str, second: str) -> str:
-        """Who holds the tasks in two modes, tasks with the same two holders together."""
+    def holders_text(self, tasks, first: str, second: str | Belief) -> str:
+        """Who holds the tasks in two modes (or a mode and a belief, the holders in its
+        modes joined by "or"), tasks with the same holders together."""
+        seconds = (second,) if isinstance(second, str) else self.ordered(second)
+        where = " or ".join(self.mode_name(mode_id) for mode_id in seconds)
         groups: dict[tuple[str, str], list[str]] = {}
         for task_id in tasks:
-            key = (self.holder_name(first, task_id), self.holder_name(second, task_id))
+            names = dict.fromkeys(self.holder_name(mode_id, task_id) for mode_id in seconds)
+            key = (self.holder_name(first, task_id), " or ".join(names))
             groups.setdefault(key, []).append(task_id)
         return "; ".join(
             f"{self.tasks_text(group)} {'is' if len(group) == 1 else 'are'} held by "
-            f"{in_first} in {self.mode_name(first)} and by {in_second} in "
-            f"{self.mode_name(second)}"
+            f"{in_first} in {self.mode_name(first)} and by {in_second} in {where}"
             for (in_first, in_second), group in groups.items()
         )
 
@@ -555,19 +757,22 @@ def verify_mode_map(study: Study, plan: Plan, assumptions: dict[str, Any]) -> li
     found = explore(modes)
     out = _outgoing(modes)
     actions = _actions(out)
+    person = _Person(modes, out, actions)
     findings: list[Finding] = []
-    findings += _uncued_changes(check, modes, found, actions)
+    findings += _uncued_changes(check, modes, found, person)
     findings += _ambiguous_indications(check, modes, actions)
     findings += _error_states(check, found)
-    findings += _unforeseen_transitions(check, modes, found, actions)
-    findings += _refused_actions(check, found, actions, _no_effect(out))
+    findings += _unforeseen_transitions(check, modes, found, person)
+    findings += _refused_actions(check, found, person, actions)
     findings += _unreachable_modes(check, modes, found)
-    findings += _unheld_tasks(check, modes, found, actions)
-    findings += _no_way_back(check, modes, found, out, actions)
+    findings += _unheld_tasks(check, modes, found, person)
+    findings += _no_way_back(check, modes, found, out, person)
     return findings
 
 
-def _uncued_changes(check: _Checker, modes: ModeMap, found: Exploration, actions) -> list[Finding]:
+def _uncued_changes(
+    check: _Checker, modes: ModeMap, found: Exploration, person: _Person
+) -> list[Finding]:
     findings = []
     for t in modes.expanded:
         if t.by == "human" or t.cue != "none" or t.source not in modes.by_id:
@@ -579,7 +784,9 @@ def _uncued_changes(check: _Checker, modes: ModeMap, found: Exploration, actions
             continue
         # The change is a finding wherever it sits; an unreachable one has no witness.
         before = found.machine_path(t.source) if t.source in found.machine_parents else None
-        witness = () if before is None else _replayed(modes.initial, (*before, t), actions)
+        witness = (
+            () if before is None else _replayed(modes.initial, (*before, t), person, check.pick)
+        )
         findings.append(
             Finding(
                 "uncued_change",
@@ -657,9 +864,7 @@ def _error_states(check: _Checker, found: Exploration) -> list[Finding]:
     findings = []
     for state in found.states:
         actual, believed = state
-        if actual == believed:
-            continue
-        tasks = check.differences(actual, believed)
+        tasks = check.believed_differences(actual, believed)
         if not tasks:
             continue
         steps, depends = found.path(state)
@@ -668,19 +873,19 @@ def _error_states(check: _Checker, found: Exploration) -> list[Finding]:
                 "error_state",
                 check.severity(tasks),
                 f"{check.path_text(steps)}, the person can believe the device is in "
-                f"{check.mode_name(believed)} while it is in {check.mode_name(actual)}: "
+                f"{check.belief_name(believed)} while it is in {check.mode_name(actual)}: "
                 f"{check.holders_text(tasks, actual, believed)}.{_dependence(depends)}",
                 tasks,
-                (actual, believed),
+                (actual, *check.ordered(believed)),
                 tuple(step.transition.trigger for step in steps),
-                witness=found.witness(state),
+                witness=found.witness(state, check.pick),
             )
         )
     return findings
 
 
 def _unforeseen_transitions(
-    check: _Checker, modes: ModeMap, found: Exploration, actions
+    check: _Checker, modes: ModeMap, found: Exploration, person: _Person
 ) -> list[Finding]:
     findings = []
     for t in modes.expanded:
@@ -706,32 +911,34 @@ def _unforeseen_transitions(
                 tasks,
                 (t.source, t.target),
                 (*(step.trigger for step in before), t.trigger),
-                witness=_replayed(modes.initial, (*before, t), actions),
+                witness=_replayed(modes.initial, (*before, t), person, check.pick),
             )
         )
     return findings
 
 
-def _refused_actions(check: _Checker, found: Exploration, actions, no_effect) -> list[Finding]:
+def _refused_actions(
+    check: _Checker, found: Exploration, person: _Person, actions
+) -> list[Finding]:
     findings = []
     for state in found.states:
         actual, believed = state
-        for trigger in actions[believed]:
-            if trigger in actions[actual] or trigger in no_effect[actual]:
-                continue  # accepted, with its effect or (already in force) without
+        for trigger in person.offers(believed):
+            if trigger in actions[actual]:
+                continue
             steps, depends = found.path(state)
-            tasks = check.differences(actual, believed)
+            tasks = check.believed_differences(actual, believed)
             findings.append(
                 Finding(
                     "refused_action",
                     check.severity(tasks),
                     f"{check.path_text(steps)}, the person can believe the device is in "
-                    f"{check.mode_name(believed)} and try '{trigger}', which the device, "
+                    f"{check.belief_name(believed)} and try '{trigger}', which the device, "
                     f"in {check.mode_name(actual)}, does not accept.{_dependence(depends)}",
                     tasks,
-                    (actual, believed),
+                    (actual, *check.ordered(believed)),
                     (*(step.transition.trigger for step in steps), trigger),
-                    witness=found.witness(state, refused=trigger),
+                    witness=found.witness(state, check.pick, refused=trigger),
                 )
             )
     return findings
@@ -753,42 +960,91 @@ def _unreachable_modes(check: _Checker, modes: ModeMap, found: Exploration) -> l
     ]
 
 
-def _no_way_back(
-    check: _Checker, modes: ModeMap, found: Exploration, out, actions
-) -> list[Finding]:
-    def person_holds(mode_id: str, task_id: str) -> bool | None:
-        """Whether a person principally holds the task in the mode (None: not done)."""
-        principal, applies = check.holder(mode_id, task_id)
-        if not applies:
-            return None
-        agent = check.study.agents_by_id.get(principal or "")
-        return agent is not None and agent.is_human
+def _critical_tasks(check: _Checker, modes: ModeMap) -> list[str]:
+    """The leaf tasks at or above the critical severity that some mode of the map gives
+    to a person (the others are the plan's allocation decision; module docstring)."""
+    return [
+        task_id
+        for task_id in check.leaves
+        if (check.study.task(task_id).severity or 0) >= check.critical
+        and any(_person_holds(check, mode.id, task_id) for mode in modes.states)
+    ]
 
-    # Only the critical tasks the map gives to a person in some mode (module docstring).
+
+def _person_holds(check: _Checker, mode_id: str, task_id: str) -> bool:
+    """Whether a person principally holds the task in the mode (not when it is not done)."""
+    principal, applies = check.holder(mode_id, task_id)
+    agent = check.study.agents_by_id.get(principal or "")
+    return applies and agent is not None and agent.is_human
+
+
+def _unheld_tasks(
+    check: _Checker, modes: ModeMap, found: Exploration, person: _Person
+) -> list[Finding]:
+    # Tasks at or above the critical severity that some mode has done (by anyone): one
+    # the plan leaves undone in every mode is the plan's decision, not the map's.
     critical = [
         task_id
         for task_id in check.leaves
         if (check.study.task(task_id).severity or 0) >= check.critical
-        and any(person_holds(mode.id, task_id) for mode in modes.states)
+        and any(check.holder(mode.id, task_id)[1] for mode in modes.states)
     ]
+    findings = []
+    for mode in modes.states:
+        tasks = tuple(
+            task_id
+            for task_id in critical
+            if not check.holder(mode.id, task_id)[1] or check.holder(mode.id, task_id)[0] is None
+        )
+        if not tasks:
+            continue
+        reachable = mode.id in found.machine_parents
+        before = found.machine_path(mode.id) if reachable else ()
+        where = (
+            f"{check.machine_path_text(before)}, the device is in {mode.name}"
+            if reachable
+            else f"In {mode.name} (not reachable from the initial mode)"
+        )
+        findings.append(
+            Finding(
+                "unheld_task",
+                check.severity(tasks),
+                f"{where}, where nobody holds {check.tasks_text(tasks)}: "
+                f"{'it is' if len(tasks) == 1 else 'they are'} not done in this mode, "
+                f"although of severity {check.critical} or more (the critical severity of "
+                "the study's risk policy).",
+                tasks,
+                (mode.id,),
+                tuple(t.trigger for t in before),
+                witness=_replayed(modes.initial, before, person, check.pick) if reachable else (),
+            )
+        )
+    return findings
+
+
+def _no_way_back(
+    check: _Checker, modes: ModeMap, found: Exploration, out, person: _Person
+) -> list[Finding]:
+    # Only the critical tasks the map gives to a person in some mode (module docstring);
+    # a mode where one is not done lacks it as much as one where the device holds it.
+    critical = _critical_tasks(check, modes)
     if not critical:
         return []
-    # A mode where a critical task is not done at all lacks it as much as one where the
-    # device holds it.
     lacks = {
-        mode.id: [task_id for task_id in critical if not person_holds(mode.id, task_id)]
+        mode.id: [task_id for task_id in critical if not _person_holds(check, mode.id, task_id)]
         for mode in modes.states
     }
     good = [mode_id for mode_id, tasks in lacks.items() if not tasks]
     reachable = [mode.id for mode in modes.states if mode.id in found.machine_parents]
+    severities = f"severity {check.critical} or more"
     if not good:
         tasks = tuple(dict.fromkeys(t for m in reachable for t in lacks[m]))
         return [
             Finding(
                 "no_way_back",
                 check.severity(tasks),
-                "No mode lets a person hold all the safety-critical tasks (severity "
-                f"{check.critical} or more) that some mode gives them: "
+                f"No mode lets a person hold all the safety-critical tasks ({severities}) "
+                "that some mode gives them: "
                 f"{check.tasks_text(tasks)}; the person can never "
                 "take all of these over at once.",
                 tasks,
@@ -820,57 +1076,12 @@ def _no_way_back(
                 "no_way_back",
                 check.severity(tasks),
                 f"{reach}, the device is in {check.mode_name(mode_id)}, and from there no "
-                "mode can be reached in which a person holds every safety-critical task; "
-                f"here no person holds {check.tasks_text(tasks)}.",
+                "mode can be reached in which a person holds every safety-critical task "
+                f"({severities}); here no person holds {check.tasks_text(tasks)}.",
                 tasks,
                 (mode_id,),
                 tuple(t.trigger for t in before),
-                witness=_replayed(modes.initial, before, actions),
-            )
-        )
-    return findings
-
-
-def _unheld_tasks(check: _Checker, modes: ModeMap, found: Exploration, actions) -> list[Finding]:
-    """Modes where a safety-critical task is held by nobody (not done, or no holder).
-
-    A critical task held by nobody in every mode is the plan's decision, seen on the
-    other screens, not a matter of the mode map, so it is left out (tool assumption).
-    """
-
-    def unheld(mode_id: str, task_id: str) -> bool:
-        principal, applies = check.holder(mode_id, task_id)
-        return not applies or principal is None
-
-    critical = [
-        task_id
-        for task_id in check.leaves
-        if (check.study.task(task_id).severity or 0) >= check.critical
-        and not all(unheld(mode.id, task_id) for mode in modes.states)
-    ]
-    findings = []
-    for mode in modes.states:
-        tasks = tuple(task_id for task_id in critical if unheld(mode.id, task_id))
-        if not tasks:
-            continue
-        reachable = mode.id in found.machine_parents
-        before = found.machine_path(mode.id) if reachable else ()
-        where = (
-            f"{check.machine_path_text(before)}, the device is in {mode.name}"
-            if reachable
-            else f"In {mode.name} (which nothing reaches from the start)"
-        )
-        findings.append(
-            Finding(
-                "unheld_task",
-                check.severity(tasks),
-                f"{where}, and there nobody holds {check.tasks_text(tasks)}: "
-                f"{'it is' if len(tasks) == 1 else 'they are'} safety-critical (severity "
-                f"{check.critical} or more) and not done while the device stays there.",
-                tasks,
-                (mode.id,),
-                tuple(t.trigger for t in before),
-                witness=_replayed(modes.initial, before, actions) if reachable else (),
+                witness=_replayed(modes.initial, before, person, check.pick),
             )
         )
     return findings
@@ -879,18 +1090,22 @@ def _unheld_tasks(check: _Checker, modes: ModeMap, found: Exploration, actions) 
 @dataclass(frozen=True)
 class Moment:
     """One moment of a witness played step by step: the event that led here (``None`` at
-    the start), the mode the device is in, the mode the person believes, and for each
-    task worth showing who holds it in each (agent ids; ``None`` when it is not done)."""
+    the start), the mode the device is in, the mode the person believes (``believed``,
+    one of the set ``believed_set`` of modes they cannot tell apart; see
+    :class:`.WitnessStep`), and for each task worth showing who holds it in the actual
+    mode and who in the believed modes (agent ids, each holder once, in the set's order;
+    ``None`` when it is not done)."""
 
     step: WitnessStep | None
     actual: str
     believed: str
-    holders: tuple[tuple[str, str | None, str | None], ...]
+    holders: tuple[tuple[str, str | None, tuple[str | None, ...]], ...]
+    believed_set: tuple[str, ...] = ()
 
     @property
     def confused(self) -> bool:
         """The person's picture disagrees with the device on who holds some task."""
-        return any(actual != believed for _, actual, believed in self.holders)
+        return any(believed != (actual,) for _, actual, believed in self.holders)
 
 
 def walkthrough(
@@ -899,7 +1114,8 @@ def walkthrough(
     """A mode-map finding's witness as moments, from the initial mode on.
 
     At every moment the tasks shown are the finding's own and any other task whose
-    holder differs between the actual and the believed mode then, in task-file order.
+    holder differs between the actual mode and some believed mode then, in task-file
+    order.
 
     Parameters
     ----------
@@ -920,22 +1136,25 @@ def walkthrough(
     check = _Checker(study, plan, plan.modes, assumptions)
     own = set(finding.tasks)
 
-    def moment(step: WitnessStep | None, actual: str, believed: str) -> Moment:
-        differing = set(check.differences(actual, believed))
+    def moment(step: WitnessStep | None, actual: str, believed: tuple[str, ...]) -> Moment:
+        differing = set(check.believed_differences(actual, frozenset(believed)))
         holders = tuple(
             (
                 task_id,
                 _applied(check.holder(actual, task_id)),
-                _applied(check.holder(believed, task_id)),
+                tuple(
+                    dict.fromkeys(_applied(check.holder(mode_id, task_id)) for mode_id in believed)
+                ),
             )
             for task_id in check.leaves
             if task_id in own or task_id in differing
         )
-        return Moment(step, actual, believed, holders)
+        shown = step.believed if step is not None else actual
+        return Moment(step, actual, shown, holders, believed)
 
     initial = plan.modes.initial
-    moments = [moment(None, initial, initial)]
-    moments += [moment(step, step.actual, step.believed) for step in finding.witness]
+    moments = [moment(None, initial, (initial,))]
+    moments += [moment(step, step.actual, step.believed_set) for step in finding.witness]
     return moments
 
 

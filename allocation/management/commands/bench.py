@@ -32,6 +32,7 @@ from allocation.core.canonical import BATON_1, CURRENT_FORM, canonical_json, dig
 from allocation.core.graph import task_graph
 from allocation.core.limits import (
     CHAIN_ENTRIES_MAX,
+    MODE_STEPS_MAX,
     STUDY_MAX_LINKS,
     STUDY_MAX_PLAN_TASKS,
     STUDY_MAX_TASKS,
@@ -184,6 +185,8 @@ class Command(BaseCommand):
             self.stdout.write("")
             self.pending_imports(repeats=max(repeats, 5))
         if at_limit:
+            self.stdout.write("")
+            self.mode_check_at_limit(repeats=repeats)
             self.stdout.write("")
             self.pages_at_limit(seed=seed)
 
@@ -440,6 +443,64 @@ class Command(BaseCommand):
                     f"    {label:52} {seconds * 1000:8.1f} ms  "
                     f"{ratio:6.1f}x trivial (target <= {PAGE_LIMIT:g}: {verdict})"
                 )
+
+    def mode_check_at_limit(self, *, repeats: int) -> None:
+        """The mode-map check of a map of 23 look-alike modes whose random actions give
+        the person 1,357 beliefs, with 55 changes without a cue bringing its steps just
+        under MODE_STEPS_MAX (the map of the mode-limit tests)."""
+        from importlib import resources
+
+        from allocation.core.analysis.modecheck import mode_search_size
+
+        document = json.loads(
+            (resources.files("allocation.examples") / "home-heating.json").read_text("utf-8")
+        )
+        plan = document["plans"][0]
+        leaves = list(plan["assignments"])
+        rng = random.Random(3)
+        count, moves = 23, []
+        for i in range(count):
+            for k in range(2):
+                target = f"m{rng.randrange(count)}"
+                moves.append(
+                    {"from": f"m{i}", "to": target, "trigger": f"press {k}", "by": "human"}
+                    | {"cue": "display"}
+                )
+            target = f"m{rng.randrange(count)}"
+            moves.append(
+                {"from": f"m{i}", "to": target, "trigger": f"drift {i}", "by": "automation"}
+                | {"cue": "display"}
+            )
+        moves += [
+            {"from": f"m{k % count}", "to": f"m{(k * 7 + 3) % count}", "trigger": f"idle {k}"}
+            | {"by": "automation", "cue": "none"}
+            for k in range(55)
+        ]
+        plan["modes"] = {
+            "initial": "m0",
+            "states": [
+                {"id": f"m{i}", "name": f"Mode {i}", "indication": "lamp"}
+                | (
+                    {"overrides": {leaves[i % len(leaves)]: {"automation": "thermostat"}}}
+                    if i % 3 == 0
+                    else {}
+                )
+                for i in range(count)
+            ],
+            "transitions": moves,
+        }
+        study = load_study(document).require_valid()
+        chosen = study.plans[0]
+        size = mode_search_size(chosen.modes)
+        assumptions = resolve_assumptions(study.assumptions)
+        seconds = _median_seconds(
+            lambda: verify_mode_map(study, chosen, assumptions), max(1, repeats), True
+        )
+        self.stdout.write(
+            f"mode-map check at the limit ({size.modes} modes, {size.beliefs:,} beliefs, "
+            f"{size.states:,} states, {size.steps:,} steps of {MODE_STEPS_MAX:,}): "
+            f"{seconds:.2f} s"
+        )
 
     def pending_imports(self, *, repeats: int) -> None:
         """A trivial page of a user with eleven spreadsheets of 1.9 MB uploaded (one per
