@@ -308,6 +308,9 @@ class AssignmentFields(models.Model):
     rationale = models.TextField(blank=True)
     # False when the task is not done at all under the plan; then no agent is named.
     applies = models.BooleanField(default=True)
+    # How the accountable person keeps watch, as the study file writes it; null: the
+    # default style.
+    monitoring = models.JSONField(null=True, blank=True)
     position = models.PositiveIntegerField(default=0)
     # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.

@@ -20,6 +20,7 @@ __all__ = [
     "LIMITS",
     "Limit",
     "MAX_PER_DAY",
+    "MONITORING_LOOKS_MAX",
     "MODE_STATES_MAX",
     "MODE_STEPS_MAX",
     "NOTE_LENGTH",
@@ -88,6 +89,9 @@ SPREADSHEET_MAX_COLUMNS = 60
 INTEGER_DIGITS = 4300
 #: The most often anything may happen: a million times a day (about twelve a second).
 MAX_PER_DAY = 1_000_000
+#: The most periodic looks a day at one task's work (once a minute): each is drawn in the
+#: day simulation, so the bound keeps a run's memory with its estimate.
+MONITORING_LOOKS_MAX = 1440
 
 # --- Text ----------------------------------------------------------------------------
 
@@ -269,6 +273,13 @@ LIMITS: tuple[Limit, ...] = (
         MAX_PER_DAY,
         "per day",
         "any rate (events, schedules)",
+        "study reader, forms",
+    ),
+    Limit(
+        "MONITORING_LOOKS_MAX",
+        MONITORING_LOOKS_MAX,
+        "per day",
+        "periodic looks at one task's work (an assignment's monitoring per_day)",
         "study reader, forms",
     ),
     Limit(

@@ -24,6 +24,8 @@ __all__ = [
     "Lag",
     "Link",
     "Mode",
+    "Monitoring",
+    "MONITORING_STYLES",
     "ModeMap",
     "Occurs",
     "Plan",
@@ -195,6 +197,24 @@ class Link:
     notes: str | None = None
 
 
+#: How an accountable person keeps watch over work another agent holds.
+MONITORING_STYLES = ("each", "periodic", "exception", "continuous")
+
+
+@dataclass(frozen=True)
+class Monitoring:
+    """How the accountable person keeps watch (methods document, ``#monitoring``).
+
+    ``each``: a check of every occurrence when told of it; ``periodic``: ``per_day``
+    looks a day on their own initiative; ``exception``: a check per flag the automation
+    raises; ``continuous``: ``share`` of their attention while the task runs.
+    """
+
+    style: str
+    per_day: float | None = None
+    share: float | None = None
+
+
 @dataclass(frozen=True)
 class Assignment:
     """A plan's decision for one task."""
@@ -211,6 +231,8 @@ class Assignment:
     # ``False`` when the task is not done at all under the plan (for example sensor care
     # in a plan without a sensor); ``None`` means the default, that it applies.
     applies: bool | None = None
+    # ``None``: the default style (each with an alert, otherwise periodic once a day).
+    monitoring: Monitoring | None = None
 
     @property
     def is_applicable(self) -> bool:

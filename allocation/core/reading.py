@@ -25,6 +25,7 @@ from .limits import (
     INTEGER_DIGITS,
     LABEL_LENGTH,
     MAX_PER_DAY,
+    MONITORING_LOOKS_MAX,
     NOTE_LENGTH,
     PHRASE_LENGTH,
     SIMULATION_MAX_BIN_S,
@@ -35,6 +36,7 @@ from .limits import (
 )
 from .model import (
     ANY_MODE,
+    MONITORING_STYLES,
     Agent,
     Assignment,
     Event,
@@ -42,6 +44,7 @@ from .model import (
     Link,
     Mode,
     ModeMap,
+    Monitoring,
     Occurs,
     Plan,
     Range,
@@ -866,6 +869,7 @@ class StudyReader:
                 "status",
                 "rationale",
                 "applies",
+                "monitoring",
             ),
         )
         if data is None:
@@ -900,7 +904,52 @@ class StudyReader:
             ),
             rationale=self.optional(data, "rationale", path, self.note),
             applies=applies,
+            monitoring=self.optional(data, "monitoring", path, self.monitoring),
         )
+
+    def monitoring(self, value: Any, path: str) -> Monitoring | None:
+        """How the accountable person keeps watch: ``"each"``, ``"exception"``, or
+        ``{"style": ..., "per_day": n}`` (periodic) / ``{"style": ..., "share": s}``
+        (continuous)."""
+        if isinstance(value, str):
+            if value not in ("each", "exception"):
+                self.error(
+                    path,
+                    f"{value!r} is not a monitoring style written as a word: use "
+                    '"each" or "exception", or an object such as '
+                    '{"style": "periodic", "per_day": 2}',
+                )
+                return None
+            return Monitoring(value)
+        amounts = {"periodic": "per_day", "continuous": "share"}
+        data = self.obj(value, path, ("style",), ("per_day", "share"))
+        if data is None or "style" not in data:
+            return None
+        style = self.choice(data["style"], child_path(path, "style"), MONITORING_STYLES)
+        if style is None:
+            return None
+        needed = amounts.get(style)
+        for key in sorted(set(data) - {"style"}):
+            if key != needed:
+                self.error(
+                    child_path(path, key),
+                    f"goes only with the style {'periodic' if key == 'per_day' else 'continuous'}",
+                )
+        if needed is not None and needed not in data:
+            self.error(path, f"the style {style} needs {needed}")
+            return None
+        if style == "periodic":
+            per_day = self.number(
+                data["per_day"],
+                child_path(path, "per_day"),
+                positive=True,
+                maximum=MONITORING_LOOKS_MAX,
+            )
+            return None if per_day is None else Monitoring(style, per_day=per_day)
+        if style == "continuous":
+            share = self.number(data["share"], child_path(path, "share"), positive=True, maximum=1)
+            return None if share is None else Monitoring(style, share=share)
+        return Monitoring(style)
 
     def applies(self, value: Any, path: str) -> bool | None:
         if value is not False:

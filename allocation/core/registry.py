@@ -209,7 +209,9 @@ FIGURES: dict[str, Figure] = _figures(
         "supervision",
         seconds=True,
     ),
-    F("monitoring_s", "Monitoring per occurrence", "s", 1, LOWER, "monitoring", seconds=True),
+    F("monitoring_s", "Seconds per check", "s", 1, LOWER, "monitoring", seconds=True),
+    F("watch_s", "Monitoring per occurrence", "s", 1, LOWER, "monitoring", seconds=True),
+    F("looks_per_day", "Looks or flags", "a day", 2, NONE, "monitoring"),
     F(
         "person_s_per_day",
         "Person time on the task",

@@ -15,6 +15,7 @@ from .model import (
     Link,
     Mode,
     ModeMap,
+    Monitoring,
     Occurs,
     Plan,
     Study,
@@ -147,8 +148,21 @@ def assignment_to_json(assignment: Assignment) -> dict[str, Any]:
             "status": assignment.status,
             "rationale": assignment.rationale,
             "applies": assignment.applies,
+            "monitoring": monitoring_to_json(assignment.monitoring),
         }
     )
+
+
+def monitoring_to_json(monitoring: Monitoring | None) -> str | dict[str, Any] | None:
+    """An assignment's monitoring style as the file writes it: the word alone for
+    ``each`` and ``exception``, else the style with its amount."""
+    if monitoring is None:
+        return None
+    if monitoring.style == "periodic":
+        return {"style": "periodic", "per_day": monitoring.per_day}
+    if monitoring.style == "continuous":
+        return {"style": "continuous", "share": monitoring.share}
+    return monitoring.style
 
 
 def mode_to_json(mode: Mode) -> dict[str, Any]:

@@ -3,11 +3,13 @@ a plan's own fields."""
 
 from __future__ import annotations
 
+import math
 from typing import Any
 
 from django import forms
 
 from allocation.core import Study
+from allocation.core.limits import MONITORING_LOOKS_MAX
 from allocation.core.registry import ASSIGNMENT_STATUS_WORDS, CUE_WORDS, INITIATOR_WORDS
 from allocation.core.scales import EK10_LEVELS, SV10_LEVELS
 from allocation.core.vocabulary import (
@@ -15,6 +17,15 @@ from allocation.core.vocabulary import (
     STAGES,
 )
 from allocation.forms.base import TextForm, optional_choices
+
+#: How an accountable person keeps watch (blank: the default for the feedback).
+MONITORING_CHOICES = [
+    ("", "default"),
+    ("each", "checks each"),
+    ("periodic", "looks n a day"),
+    ("exception", "on flags"),
+    ("continuous", "watches a share"),
+]
 
 WHO_CHOICES = [
     ("person", "person"),
@@ -47,6 +58,8 @@ class AssignmentForm(TextForm):
         required=False, choices=optional_choices(ASSIGNMENT_STATUS_WORDS, "—")
     )
     rationale = forms.CharField(required=False, max_length=2000)
+    monitoring = forms.ChoiceField(required=False, choices=MONITORING_CHOICES)
+    monitoring_amount = forms.CharField(required=False, max_length=32)
 
     def __init__(
         self, *args: Any, study: Study, existing: dict[str, Any] | None = None, **kwargs: Any
@@ -95,6 +108,13 @@ class AssignmentForm(TextForm):
                 )
             },
         }
+        monitoring = item.get("monitoring")
+        if isinstance(monitoring, str):
+            initial["monitoring"] = monitoring
+        elif isinstance(monitoring, dict):
+            initial["monitoring"] = monitoring.get("style", "")
+            amount = monitoring.get("per_day", monitoring.get("share"))
+            initial["monitoring_amount"] = "" if amount is None else f"{amount:g}"
         levels = item.get("levels")
         if isinstance(levels, dict):
             initial["per_stage"] = True
@@ -111,7 +131,39 @@ class AssignmentForm(TextForm):
             self.add_error("human", "Choose the person who does it.")
         if who in ("device", "shared") and not data.get("automation"):
             self.add_error("automation", "Choose the device that does it.")
+        self._clean_monitoring(data)
         return data
+
+    def _clean_monitoring(self, data: dict[str, Any]) -> None:
+        """The style with its amount: looks a day for periodic (more than 0, at most
+        MONITORING_LOOKS_MAX), a share of attention for continuous (more than 0, at most
+        1); the other styles take none."""
+        style, text = data.get("monitoring") or "", (data.get("monitoring_amount") or "").strip()
+        data["monitoring_value"] = None
+        if not style:
+            if text:
+                self.add_error("monitoring_amount", "Choose a style of monitoring first.")
+            return
+        if style in ("each", "exception"):
+            if text:
+                self.add_error("monitoring_amount", f"The style {style} takes no amount.")
+            data["monitoring_value"] = style
+            return
+        key, top, words = (
+            ("per_day", MONITORING_LOOKS_MAX, "looks a day, like 2")
+            if style == "periodic"
+            else ("share", 1, "a share of attention from 0 to 1, like 0.25")
+        )
+        try:
+            amount = float(text)
+        except ValueError:
+            self.add_error("monitoring_amount", f"Give {words}.")
+            return
+        if not (math.isfinite(amount) and 0 < amount <= top):
+            self.add_error("monitoring_amount", f"Give {words} (more than 0, at most {top:g}).")
+            return
+        number = int(amount) if amount.is_integer() else amount
+        data["monitoring_value"] = {"style": style, key: number}
 
     def item(self) -> dict[str, Any] | None:
         """The study-file assignment the form describes (``None``: not allocated).
@@ -138,6 +190,8 @@ class AssignmentForm(TextForm):
             for key in ("accountable", "feedback", "initiator"):
                 if data[key]:
                     item[key] = data[key]
+            if data.get("monitoring_value") is not None:
+                item["monitoring"] = data["monitoring_value"]
         for key in ("status", "rationale"):
             if data[key].strip():
                 item[key] = data[key].strip()

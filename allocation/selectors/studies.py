@@ -294,6 +294,7 @@ def _assignment(row: m.AssignmentFields) -> dict[str, Any]:
             "status": row.status,
             "rationale": row.rationale,
             "applies": None if row.applies else False,
+            "monitoring": row.monitoring,
         }
     )
 

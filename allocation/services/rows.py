@@ -92,6 +92,7 @@ def assignment_values(item: dict[str, Any], agents: dict[str, m.Agent]) -> dict[
         "status": item.get("status", ""),
         "rationale": item.get("rationale", ""),
         "applies": item.get("applies", True),
+        "monitoring": item.get("monitoring"),
     }
 
 

@@ -18,6 +18,7 @@ from allocation import models as m
 from allocation import services
 from allocation.core import Problem, Study, StudyInvalid
 from allocation.core.analysis import PlanAnalysis
+from allocation.core.analysis.involvement import watch_text
 from allocation.core.describe import task_outline
 from allocation.core.limits import PAGE_ROW_CHOICES, PAGE_ROWS
 from allocation.core.model import Task
@@ -25,7 +26,14 @@ from allocation.core.registry import ASSIGNMENT_STATUS_WORDS, figure_text
 from allocation.core.scales import level_text
 from allocation.core.vocabulary import ASSIGNMENT_STATUSES, CUES, INITIATORS, STAGES
 from allocation.core.writing import assignment_to_json
-from allocation.forms.plans import WHO_CHOICES, AssignmentForm, BulkForm, PlanForm, level_choices
+from allocation.forms.plans import (
+    MONITORING_CHOICES,
+    WHO_CHOICES,
+    AssignmentForm,
+    BulkForm,
+    PlanForm,
+    level_choices,
+)
 from allocation.services.conflicts import EditConflict
 from allocation.views.common import StudyPage, study_page
 from allocation.views.conflicts import conflict_context, posted_version
@@ -53,6 +61,7 @@ def _choices(study: Study) -> dict[str, Any]:
         "agents": [(a.id, a.name) for a in study.agents],
         "levels": level_choices(study.scale),
         "feedback": CUES,
+        "monitoring": MONITORING_CHOICES,
         "initiators": INITIATORS,
         "statuses": [(key, ASSIGNMENT_STATUS_WORDS[key].label) for key in ASSIGNMENT_STATUSES],
         "stages": STAGES,
@@ -123,6 +132,7 @@ def _row(
             "person_s_per_day": sum(figures.person_s_per_day.values()),
             "awareness": None if figures.awareness is None else figures.awareness.index,
             "handovers": (handovers or _handover_counts(analysis))[task_id],
+            "watch": watch_text(study, involved),
         }
     return row
 

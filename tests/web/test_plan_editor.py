@@ -149,3 +149,49 @@ def test_a_large_study_opens_on_its_first_goal(client, owner):
     assert all(f'id="row-{task}"' in page for task in first_goal_leaves)
     assert f'id="row-{other_leaf}"' not in page
     assert "opens on one goal" in page
+
+
+def test_a_monitoring_style_is_saved_and_its_cost_shown_beside_the_row(client, study, owner):
+    # The thermostat does T2, the resident answers for it and looks three times a day:
+    # stored as the file writes it, and the row says how and what it costs (the
+    # assumption monitoring_s, 10 s by default, for each look).
+    client.force_login(owner)
+    response = client.post(
+        row_url(study.pk, "manual", "T2"),
+        {
+            "who": "device",
+            "automation": "thermostat",
+            "accountable": "resident",
+            "monitoring": "periodic",
+            "monitoring_amount": "3",
+        },
+        headers={"HX-Request": "true"},
+    )
+    fragment = response.content.decode()
+    stored = selectors.study_document(study)["plans"][0]["assignments"]["T2"]
+    assert stored["monitoring"] == {"style": "periodic", "per_day": 3}
+    assert "looks 3 a day (10 s each)" in fragment
+    assert '<option value="periodic" selected>' in fragment
+
+
+def test_a_bad_monitoring_amount_is_refused_beside_its_field(client, study, owner):
+    client.force_login(owner)
+    before = selectors.study_document(study)
+    for style, amount, words in (
+        ("periodic", "lots", "Give looks a day, like 2."),
+        ("continuous", "1.5", "at most 1"),
+        ("each", "2", "The style each takes no amount."),
+    ):
+        response = client.post(
+            row_url(study.pk, "manual", "T2"),
+            {
+                "who": "device",
+                "automation": "thermostat",
+                "accountable": "resident",
+                "monitoring": style,
+                "monitoring_amount": amount,
+            },
+            headers={"HX-Request": "true"},
+        )
+        assert words in response.content.decode(), style
+    assert selectors.study_document(study) == before

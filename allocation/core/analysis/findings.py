@@ -145,8 +145,8 @@ def accountability_findings(
             "accountability",
             _severity(study, involved.task_id),
             f"{_name(study, involved.monitor)} is accountable for {task}{where} but "
-            f"{holder} holds it: they must monitor it ({involved.monitoring_s:g} s per occurrence "
-            "added to their load).",
+            f"{holder} holds it: they must keep watch over it "
+            f"({_watch_words(involved)}, added to their load).",
             (involved.task_id,),
             modes,
             (),
@@ -198,3 +198,16 @@ def capability_findings(
                 )
             )
     return findings
+
+
+def _watch_words(involved: Involvement) -> str:
+    """The monitoring style and its cost, as the accountability finding says it."""
+    watch = involved.monitoring
+    check = f"{involved.monitoring_s:g} s"
+    if watch is None or watch.style == "each":
+        return f"a check of {check} per occurrence"
+    if watch.style == "periodic":
+        return f"{watch.per_day:g} look(s) a day of {check}"
+    if watch.style == "continuous":
+        return f"{watch.share:.0%} of their attention while it runs"
+    return f"a check of {check} per flag of the automation"

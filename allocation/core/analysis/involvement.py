@@ -28,7 +28,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from ..model import Assignment, Range, Study, Task
+from ..model import Assignment, Monitoring, Range, Study, Task
 from ..scales import (
     EK10_LEVELS,
     category_of,
@@ -40,7 +40,18 @@ from ..scales import (
 )
 from ..vocabulary import STAGES
 
-__all__ = ["Involvement", "expected_duration", "involvement"]
+__all__ = [
+    "ALERTING",
+    "Involvement",
+    "expected_duration",
+    "flags_per_day",
+    "involvement",
+    "monitoring_style",
+    "watch_text",
+]
+
+#: Feedback that tells the person of each occurrence.
+ALERTING = ("alert", "alert_confirm")
 
 
 @dataclass(frozen=True, slots=True)
@@ -51,8 +62,9 @@ class Involvement:
     ``active_s`` (the stages' share of the expected duration the automation leaves them)
     and ``supervision_s``; ``duration_s`` is the expected (triangular mean) duration and
     ``typical_duration_s``, ``active_typical_s`` the same at the typical duration.
-    ``monitor`` is the accountable human who does not hold the task, if any; they spend
-    ``monitoring_s`` per occurrence checking it.
+    ``monitor`` is the accountable human who does not hold the task, if any; they keep
+    watch in the style ``monitoring`` (methods document, ``#monitoring``), each check or
+    look costing ``monitoring_s``.
     """
 
     task_id: str
@@ -71,6 +83,43 @@ class Involvement:
     monitoring_s: float
     typical_duration_s: float = 0.0
     active_typical_s: float = 0.0
+    monitoring: Monitoring | None = None
+
+    @property
+    def watch_s(self) -> float:
+        """The monitor's expected seconds per occurrence: a check of each one (``each``),
+        or their share of attention over its expected duration (``continuous``)."""
+        if self.monitoring is None:
+            return 0.0
+        if self.monitoring.style == "each":
+            return self.monitoring_s
+        if self.monitoring.style == "continuous":
+            return float(self.monitoring.share or 0.0) * self.duration_s
+        return 0.0
+
+    @property
+    def watch_typical_s(self) -> float:
+        """The same as :attr:`watch_s` at the typical duration."""
+        if self.monitoring is not None and self.monitoring.style == "continuous":
+            return float(self.monitoring.share or 0.0) * self.typical_duration_s
+        return self.watch_s
+
+    @property
+    def looks_per_day(self) -> float:
+        """Checks a day the monitor makes whatever the task's occurrences: periodic looks,
+        or flags of the automation (exception monitoring; see :func:`flags_per_day`)."""
+        if self.monitoring is None:
+            return 0.0
+        if self.monitoring.style == "periodic":
+            return float(self.monitoring.per_day or 0.0)
+        if self.monitoring.style == "exception":
+            return flags_per_day(self.assignment)
+        return 0.0
+
+    @property
+    def checks_each(self) -> bool:
+        """The monitor checks every occurrence when told of it: an interaction each."""
+        return self.monitoring is not None and self.monitoring.style == "each"
 
     @property
     def human(self) -> str | None:
@@ -89,24 +138,35 @@ class Involvement:
         return self.active_typical_s + self.supervision_s
 
     def time_of(self, agent_id: str) -> float:
-        """Expected seconds per occurrence ``agent_id`` (a human) spends on the task."""
+        """Expected seconds per occurrence ``agent_id`` (a human) spends on the task
+        (periodic looks and flags are counted per day, not here)."""
         seconds = self.human_s if agent_id == self.human else 0.0
         if agent_id == self.monitor:
-            seconds += self.monitoring_s
+            seconds += self.watch_s
         return seconds
 
     def typical_time_of(self, agent_id: str) -> float:
         """The same as :meth:`time_of` at the typical duration."""
         seconds = self.human_typical_s if agent_id == self.human else 0.0
         if agent_id == self.monitor:
-            seconds += self.monitoring_s
+            seconds += self.watch_typical_s
         return seconds
 
     def people(self) -> list[str]:
         """The humans who spend time on each occurrence."""
         names = [self.human] if self.human and self.human_s > 0 else []
-        if self.monitor and self.monitoring_s > 0 and self.monitor not in names:
+        if self.monitor and self.watch_s > 0 and self.monitor not in names:
             names.append(self.monitor)
+        return names
+
+    def interacting(self) -> list[str]:
+        """The humans each occurrence involves in an interaction: the one doing their
+        part, and a monitor who checks each occurrence (continuous attention is no
+        interaction; periodic looks and flags are counted per day)."""
+        names = [self.human] if self.human and self.human_s > 0 else []
+        monitor = self.monitor
+        if monitor and self.checks_each and self.monitoring_s > 0 and monitor not in names:
+            names.append(monitor)
         return names
 
     def stage_holders(self) -> list[str | None]:
@@ -213,10 +273,48 @@ def involvement(
         monitoring_s=float(assumptions["monitoring_s"]) if monitor else 0.0,
         typical_duration_s=typical,
         active_typical_s=active_typical,
+        monitoring=monitoring_style(assignment) if monitor else None,
     )
+
+
+def monitoring_style(assignment: Assignment) -> Monitoring:
+    """The assignment's monitoring style, else the default: ``each`` where the feedback
+    is an alert (the person is told of every occurrence), otherwise ``periodic`` once a
+    day (methods document, ``#monitoring``; tool assumption)."""
+    if assignment.monitoring is not None:
+        return assignment.monitoring
+    if assignment.feedback in ALERTING:
+        return Monitoring("each")
+    return Monitoring("periodic", per_day=1)
+
+
+def flags_per_day(assignment: Assignment | None) -> float:
+    """Flags a day the automation raises to the accountable person: its false alerts
+    and its failures detected by alert or display. No assignment states its automation's
+    reliability yet, so there are none: exception monitoring costs nothing until it does
+    (methods document, ``#monitoring``)."""
+    return 0.0
 
 
 def expected_duration(duration: Range) -> float:
     """The mean of the triangular distribution over ``[min, typical, max]``:
     ``(min + typical + max) / 3`` (Evans, Hastings & Peacock 2000, ch. 40)."""
     return (float(duration.low) + float(duration.typical) + float(duration.high)) / 3
+
+
+def watch_text(study: Study, involved: Involvement) -> str | None:
+    """How the monitor keeps watch and what it costs, in words (``None``: nobody
+    monitors): "Pat checks each (10 s)", "Pat looks 2 a day (10 s each)"."""
+    watch, monitor = involved.monitoring, involved.monitor
+    if watch is None or monitor is None:
+        return None
+    agent = study.agents_by_id.get(monitor)
+    name = agent.name if agent is not None else monitor
+    check = f"{involved.monitoring_s:g} s"
+    if watch.style == "each":
+        return f"{name} checks each ({check})"
+    if watch.style == "periodic":
+        return f"{name} looks {watch.per_day:g} a day ({check} each)"
+    if watch.style == "continuous":
+        return f"{name} watches {watch.share:.0%} of the run ({involved.watch_s:.3g} s)"
+    return f"{name} acts on flags ({check} each; {flags_per_day(involved.assignment):g} a day)"

@@ -40,6 +40,30 @@ __all__ = ["PersonFigures", "PlanAnalysis", "StudyGraph", "TaskFigures", "analys
 INTERRUPTING = ("automation", "event")
 
 
+def is_interruption(involved: Involvement, initiator: str, person: str) -> bool:
+    """Whether an occurrence reaches ``person`` as an interruption: an involvement they
+    did not start (methods document, ``#interruptions``).
+
+    The one doing their part is interrupted when the automation or an event starts the
+    occurrence; a monitor who checks each occurrence is told of it, which interrupts
+    them. Periodic looks and continuous attention never interrupt.
+    """
+    if person == involved.human:
+        return initiator in INTERRUPTING
+    return person == involved.monitor and involved.checks_each
+
+
+def own_involvement(
+    study: Study, plan: Plan, task_id: str, assumptions: dict[str, Any]
+) -> Involvement:
+    """The task under the plan's own assignment (no mode's override): the one whose
+    monitoring style sets the periodic looks, a habit of the person rather than of a
+    mode (tool assumption)."""
+    return involvement(
+        study, study.task(task_id), assignment_in_mode(plan, None, task_id), assumptions
+    )
+
+
 @dataclass(frozen=True)
 class StudyGraph:
     """The plan-independent structure of a study, built once for all its plans."""
@@ -110,13 +134,13 @@ class TaskFigures:
         """Expected seconds per occurrence all humans together spend on it (durations at
         their triangular mean)."""
         involved = self.involved
-        return involved.human_s + (involved.monitoring_s if involved.monitor else 0.0)
+        return involved.human_s + involved.watch_s
 
     @property
     def typical_s(self) -> float:
         """The same as :attr:`person_s` at the typical duration."""
         involved = self.involved
-        return involved.human_typical_s + (involved.monitoring_s if involved.monitor else 0.0)
+        return involved.human_typical_s + involved.watch_typical_s
 
 
 @dataclass
@@ -406,27 +430,57 @@ class _Analysis:
             asleep = sum(b - a for a, b in asleep_intervals(agent))
             people[agent.id] = PersonFigures(agent.id, awake_s=DAY_S - asleep)
         for task_id, figures in tasks.items():
-            interrupting = figures.initiator in INTERRUPTING
             for share, involved in mixes[task_id]:
                 rate = figures.per_day * share
                 for human in involved.people():
                     if human not in people:
                         continue
                     seconds = involved.time_of(human)
-                    person = people[human]
-                    person.burden_s_per_day += rate * seconds
+                    people[human].burden_s_per_day += rate * seconds
                     figures.person_s_per_day[human] = (
                         figures.person_s_per_day.get(human, 0.0) + rate * seconds
                     )
-                    person.interactions_per_day += rate
                     if human == involved.monitor:
-                        person.monitoring_s_per_day += rate * involved.monitoring_s
-                    if interrupting:
+                        people[human].monitoring_s_per_day += rate * involved.watch_s
+                for human in involved.interacting():
+                    if human not in people:
+                        continue
+                    person = people[human]
+                    person.interactions_per_day += rate
+                    if is_interruption(involved, figures.initiator, human):
                         person.interruptions_per_day += rate
                         person.night_interruptions_per_day += rate * figures.asleep_share.get(
                             human, 0.0
                         )
+            self.add_looks(task_id, figures, people)
         return people
+
+    def add_looks(
+        self, task_id: str, figures: TaskFigures, people: dict[str, PersonFigures]
+    ) -> None:
+        """A monitor's checks a day whatever the task's occurrences (methods document,
+        ``#monitoring``): periodic looks, started by the person, spread over their awake
+        time (interactions, never interruptions), and flags of the automation under
+        exception monitoring (each an interruption, at any time of the day).
+        Looks go with a task that occurs under the plan."""
+        if figures.per_day <= 0:
+            return
+        own = figures.involved if self.initial is None else self.involved(task_id, None)
+        looks = own.looks_per_day
+        if own.monitor not in people or looks <= 0:
+            return
+        person = people[own.monitor]
+        seconds = looks * own.monitoring_s
+        person.burden_s_per_day += seconds
+        person.monitoring_s_per_day += seconds
+        figures.person_s_per_day[own.monitor] = (
+            figures.person_s_per_day.get(own.monitor, 0.0) + seconds
+        )
+        person.interactions_per_day += looks
+        if own.monitoring is not None and own.monitoring.style == "exception":
+            person.interruptions_per_day += looks
+            asleep = sum(b - a for a, b in asleep_intervals(self.study.agents_by_id[own.monitor]))
+            person.night_interruptions_per_day += looks * asleep / DAY_S
 
     def link_weights(self, counted: Occurrences) -> list[tuple[str, str, float]]:
         """Each link with the occurrences per day it carries."""

@@ -15,6 +15,7 @@ from ..model import Study
 from ..registry import CATEGORIES, FIGURES, HANDOVER_SOURCES, RISK_BANDS, figure_text, finding_kind
 from ..scales import level_text, shared_levels, single_level
 from ..vocabulary import STAGES
+from ..writing import monitoring_to_json
 from .involvement import Involvement
 from .plan import PlanAnalysis
 
@@ -84,6 +85,9 @@ def _task_json(result: PlanAnalysis, task_id: str) -> dict[str, Any]:
         "active_s": involved.active_s,
         "supervision_s": involved.supervision_s,
         "monitoring_s": involved.monitoring_s,
+        "monitoring": monitoring_to_json(involved.monitoring),
+        "watch_s": involved.watch_s,
+        "looks_per_day": involved.looks_per_day,
         "person_s_per_day": figures.person_s_per_day,
         "asleep_share": figures.asleep_share,
         "awareness_factors": None if aware is None else aware.factors,

@@ -48,7 +48,7 @@ from ..vocabulary import CHANNELS
 from .sampling import DAY_S, in_intervals, triangular, uniform_in_pieces
 from .tables import KINDS, ChainPlan, SimPlan
 
-__all__ = ["ChunkDraw", "Segments", "draw_chunk", "run_generator"]
+__all__ = ["ChunkDraw", "Looks", "Segments", "draw_chunk", "run_generator"]
 
 
 def run_generator(seed: int, stream: int) -> np.random.Generator:
@@ -68,6 +68,7 @@ class Segments:
     kind: np.ndarray  # index into tables.KINDS
     initiator: np.ndarray
     demand: np.ndarray  # channels x rows
+    weight: np.ndarray | None = None  # share of the person in occupancy (1 but continuous)
 
 
 @dataclass
@@ -91,6 +92,82 @@ class ChunkDraw:
     # Modes: absolute change times and the mode entered
     mode_times: np.ndarray
     mode_index: np.ndarray
+    # Periodic looks and exception flags: one row each (see :func:`_looks`)
+    looks: Looks | None = None
+
+
+@dataclass
+class Looks:
+    """A monitor's checks that come whatever the task's occurrences, in a chunk."""
+
+    task: np.ndarray
+    person: np.ndarray
+    day: np.ndarray  # chunk-relative
+    start: np.ndarray  # absolute
+    seconds: np.ndarray
+    interrupts: np.ndarray
+
+    @classmethod
+    def none(cls) -> Looks:
+        empty = np.zeros(0)
+        return cls(
+            empty.astype(int),
+            empty.astype(int),
+            empty.astype(int),
+            empty,
+            empty,
+            empty.astype(bool),
+        )
+
+
+def _awake_pieces(asleep: list[tuple[float, float]]) -> list[tuple[float, float]]:
+    """The parts of the day outside the asleep intervals."""
+    pieces, clock = [], 0.0
+    for start, end in sorted(asleep):
+        if start > clock:
+            pieces.append((clock, start))
+        clock = max(clock, end)
+    if clock < DAY_S:
+        pieces.append((clock, float(DAY_S)))
+    return pieces
+
+
+def _looks(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -> Looks:
+    """Each monitor's periodic looks and exception flags in the chunk's days: a Poisson
+    count a day with the style's mean, each look at a uniform time of the person's awake
+    day (flags over the whole day). From a stream of their own, so the rest of the draw
+    does not change with them."""
+    if not sim.looks:
+        return Looks.none()
+    rng = np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=(1 + chunk, 1)))
+    parts: dict[str, list[np.ndarray]] = {key: [] for key in Looks.__dataclass_fields__}
+    for task, person, per_day, seconds, interrupts in sim.looks:
+        counts = rng.poisson(per_day, days)
+        total = int(counts.sum())
+        day = np.repeat(np.arange(days), counts)
+        pieces = [(0.0, float(DAY_S))] if interrupts else _awake_pieces(sim.human_asleep[person])
+        lengths = np.array([end - start for start, end in pieces])
+        # A uniform point of the awake day: a piece by its length, then a place in it.
+        offset = rng.random(total) * lengths.sum()
+        edges = np.concatenate([[0.0], np.cumsum(lengths)])
+        which = np.minimum(np.searchsorted(edges, offset, side="right") - 1, len(pieces) - 1)
+        starts = np.array([start for start, _end in pieces])
+        at = (first_day + day) * DAY_S + starts[which] + (offset - edges[which])
+        parts["task"].append(np.full(total, task))
+        parts["person"].append(np.full(total, person))
+        parts["day"].append(day)
+        parts["start"].append(at)
+        parts["seconds"].append(np.full(total, seconds))
+        parts["interrupts"].append(np.full(total, interrupts))
+    joined = {key: np.concatenate(values) for key, values in parts.items()}
+    return Looks(
+        task=joined["task"].astype(int),
+        person=joined["person"].astype(int),
+        day=joined["day"].astype(int),
+        start=joined["start"].astype(float),
+        seconds=joined["seconds"].astype(float),
+        interrupts=joined["interrupts"].astype(bool),
+    )
 
 
 def _phases(sim: SimPlan, seed: int) -> list[float]:
@@ -305,6 +382,7 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
         task_window_counts=window_counts,
         mode_times=mode_times,
         mode_index=mode_index,
+        looks=_looks(sim, seed, chunk, first_day, days),
     )
 
 
@@ -339,22 +417,40 @@ def person_segments(
     rows = np.flatnonzero(mine & (supervision > 0))
     after = draw.finish[rows]
     pieces.append((rows, after, after + supervision[rows], KINDS.index("supervision"), "sup"))
-    watching = (sim.monitor[variant] == person) & (sim.monitoring_s[variant] > 0)
-    rows = np.flatnonzero(watching)
+    monitor = sim.monitor[variant] == person
+    share = sim.watch_share[variant]
+    # A check of each occurrence after its end (and the person's own supervision).
+    rows = np.flatnonzero(monitor & (share == 0) & (sim.watch_s[variant] > 0))
     after = draw.finish[rows] + np.where(mine[rows], supervision[rows], 0.0)
     pieces.append(
-        (rows, after, after + sim.monitoring_s[variant[rows]], KINDS.index("monitoring"), "mon")
+        (rows, after, after + sim.watch_s[variant[rows]], KINDS.index("monitoring"), "mon")
     )
-    starts, ends, tasks, kinds, extras = [], [], [], [], []
+    # Continuous attention: a share of the person over the task's whole run.
+    rows = np.flatnonzero(monitor & (share > 0) & (scale > 0))
+    watch = (rows, draw.start[rows], draw.finish[rows], KINDS.index("monitoring"), "mon")
+    pieces.append(watch)
+    starts, ends, tasks, kinds, extras, weights = [], [], [], [], [], []
     for rows, begin, end, kind, extra in pieces:
         starts.append(begin)
         ends.append(end)
         tasks.append(draw.task[rows])
         kinds.append(np.full(rows.size, kind))
         extras.append(extra)
+        weights.append(share[rows] if extra == "mon" and rows is watch[0] else np.ones(rows.size))
+    looks = draw.looks
+    if looks is not None and looks.task.size:
+        # Periodic looks and exception flags, each a check of monitoring_s.
+        at = np.flatnonzero(looks.person == person)
+        starts.append(looks.start[at])
+        ends.append(looks.start[at] + looks.seconds[at])
+        tasks.append(looks.task[at])
+        kinds.append(np.full(at.size, KINDS.index("monitoring")))
+        extras.append("mon")
+        weights.append(np.ones(at.size))
     task = np.concatenate(tasks).astype(int)
     # Demands by channel (one row each): the task's own while working on it, the
     # assumed small ones while supervising or monitoring.
+    weight = np.concatenate(weights)
     demand = np.empty((len(CHANNELS), task.size))
     for c in range(len(CHANNELS)):
         parts = []
@@ -366,6 +462,8 @@ def person_segments(
             else:
                 parts.append(sim.demands_by_channel[c][piece_task])
         np.concatenate(parts, out=demand[c])
+    # Continuous attention weighs its share in occupancy and in every channel's demand.
+    demand *= weight
     return Segments(
         start=np.concatenate(starts),
         end=np.concatenate(ends),
@@ -373,4 +471,5 @@ def person_segments(
         kind=np.concatenate(kinds).astype(int),
         initiator=sim.initiator[task],
         demand=demand,
+        weight=weight,
     )

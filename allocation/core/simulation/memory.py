@@ -5,7 +5,8 @@ A chunk's working set grows with what it draws and sums up (methods document,
 
 - **occurrences**: every happening of every trigger over the chunk's days and the lead
   days before it, times the tasks of its chain (each may occur), each a row of the
-  draw's arrays and then of a person's stretches of work and their sweep;
+  draw's arrays and then of a person's stretches of work and their sweep; and each
+  periodic look or flag of a monitor;
 - **bins**: the chunk's days times the bins of a day (``study.bin_s``), each an edge,
   a length, an integral and an occupancy (the people are summed up one after another);
 - **mode changes**: per day at most the fastest way out of any mode (the expected time
@@ -17,8 +18,9 @@ A chunk's working set grows with what it draws and sums up (methods document,
 
 The bytes per item are measured (Python's ``tracemalloc``, which NumPy reports to, on
 studies of one to a hundred people) and rounded up: about 360 bytes per occurrence of a
-one-person study, 33 per bin, 61 per daily figure in a chunk's JSON, 95 per daily
-figure combined. The estimate is the work's own memory, not the interpreter's.
+one-person study (about 410 since each stretch carries its weight), 33 per bin, 61 per
+daily figure in a chunk's JSON, 95 per daily figure combined. The estimate is the
+work's own memory, not the interpreter's.
 
 References
 ----------
@@ -41,7 +43,7 @@ from .tables import SimPlan
 __all__ = ["MemoryEstimate", "simulation_memory_estimate"]
 
 #: Bytes per item (measured, rounded up; see the module docstring).
-OCCURRENCE_BYTES = 400
+OCCURRENCE_BYTES = 440
 BIN_BYTES = 48
 MODE_CHANGE_BYTES = 64
 CHUNK_FIGURE_BYTES = 64
@@ -98,7 +100,8 @@ def _per_day(plan: SimPlan) -> float:
         else:
             rate = float(rule.per_day or 0.0)
         total += rate * len(chain.members)
-    return total
+    # Periodic looks and flags are drawn as rows of their own.
+    return total + sum(per_day for _task, _person, per_day, _s, _flag in plan.looks)
 
 
 def simulation_memory_estimate(

@@ -59,7 +59,8 @@ def person_sweep(sim: SimPlan, draw: ChunkDraw, person: int, by_stage: bool = Fa
     """A person's stretches of work and their sweep: column 0 counts stretches under way
     (occupancy), then one column per VACP channel."""
     segments = person_segments(sim, draw, person, by_stage)
-    weights = np.vstack([np.ones(segments.start.size), segments.demand])
+    occupied = np.ones(segments.start.size) if segments.weight is None else segments.weight
+    weights = np.vstack([occupied, segments.demand])
     return segments, Sweep.of(segments.start, segments.end, weights)
 
 
@@ -73,23 +74,42 @@ def chunk_figures(sim: SimPlan, draw: ChunkDraw) -> dict[str, dict[str, np.ndarr
     day_edges = np.arange(draw.first_day, draw.first_day + days + 1) * DAY_S
     lengths = np.diff(edges)[: days * per_day].reshape(days, per_day)
     result = {}
+    looks = draw.looks
     for p, human in enumerate(sim.humans):
         doing = sim.human[variant] == p
-        watching = sim.monitor[variant] == p
-        seconds = np.where(doing, active + sim.supervision_s[variant], 0.0)
-        seconds = seconds + np.where(watching, sim.monitoring_s[variant], 0.0)
+        # The monitor's checks of each occurrence, or continuous attention over its run
+        # (the share of the drawn duration).
+        watching = np.where(
+            sim.monitor[variant] == p,
+            np.where(
+                sim.watch_share[variant] > 0,
+                sim.watch_share[variant] * worked,
+                sim.watch_s[variant],
+            ),
+            0.0,
+        )
+        seconds = np.where(doing, active + sim.supervision_s[variant], 0.0) + watching
         involved = sim.interacts[variant, p]
-        interrupting = involved & sim.interrupting[draw.task]
+        interrupting = sim.interrupts[variant, p]
         night = interrupting & in_intervals(draw.start % DAY_S, sim.human_asleep[p])
         figures = {
             "burden_s": _per_day(draw.day, seconds, days),
-            "monitoring_s": _per_day(
-                draw.day, np.where(watching, sim.monitoring_s[variant], 0.0), days
-            ),
+            "monitoring_s": _per_day(draw.day, watching, days),
             "interactions": _per_day(draw.day, involved.astype(float), days),
             "interruptions": _per_day(draw.day, interrupting.astype(float), days),
             "night_interruptions": _per_day(draw.day, night.astype(float), days),
         }
+        if looks is not None and looks.task.size:
+            # Periodic looks (interactions) and exception flags (interruptions).
+            mine = looks.person == p
+            day, spent = looks.day[mine], looks.seconds[mine]
+            flags = looks.interrupts[mine]
+            asleep = in_intervals(looks.start[mine] % DAY_S, sim.human_asleep[p])
+            figures["burden_s"] += _per_day(day, spent, days)
+            figures["monitoring_s"] += _per_day(day, spent, days)
+            figures["interactions"] += _per_day(day, np.ones(day.size), days)
+            figures["interruptions"] += _per_day(day, flags.astype(float), days)
+            figures["night_interruptions"] += _per_day(day, (flags & asleep).astype(float), days)
         _segments, sweep = person_sweep(sim, draw, p)
         bins = np.diff(sweep.integral(0, edges))[: days * per_day].reshape(days, per_day)
         bins = bins / lengths

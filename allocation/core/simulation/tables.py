@@ -19,7 +19,7 @@ from ..analysis.chains import Span
 from ..analysis.involvement import Involvement, involvement
 from ..analysis.modes import assignment_in_mode
 from ..analysis.occurrences import TriggerTiming
-from ..analysis.plan import INTERRUPTING, PlanAnalysis, StudyGraph
+from ..analysis.plan import PlanAnalysis, StudyGraph, is_interruption, own_involvement
 from ..analysis.timeofday import DAY_S, asleep_intervals, awake_intervals, rule_sleeper
 from ..graph import trigger_rule
 from ..model import Study, seconds_of_day
@@ -84,8 +84,10 @@ class SimPlan:
     human: np.ndarray  # human index or -1
     monitor: np.ndarray
     holder: np.ndarray  # agent index or -1
-    interacts: np.ndarray  # variants x humans: the human spends time on an occurrence
-    interrupting: np.ndarray  # tasks: initiator automation or event
+    interacts: np.ndarray  # variants x humans: an occurrence is an interaction of theirs
+    interrupts: np.ndarray  # variants x humans: ... and one they did not start
+    watch_s: np.ndarray  # variants: the monitor's seconds per occurrence (each, continuous)
+    watch_share: np.ndarray  # variants: continuous monitoring's share of attention
     initiator: np.ndarray  # tasks: index into INITIATORS
     demands: np.ndarray  # tasks x channels
     supervision_demand: np.ndarray
@@ -95,6 +97,8 @@ class SimPlan:
     asleep: list[list[tuple[float, float]]]  # per agent (empty for automations)
     window_s: np.ndarray  # tasks, nan without
     chains: list[ChainPlan] = field(default_factory=list)
+    #: Periodic looks and exception flags: (task, human, per day, seconds each, interrupts).
+    looks: list[tuple[int, int, float, float, bool]] = field(default_factory=list)
     lead_days: int = 0
     bin_s: float = 900.0
     occupancy_limit: float = 0.8
@@ -201,6 +205,9 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
     monitor = np.full(count, -1)
     holder = np.full(count, -1)
     interacts = np.zeros((count, len(humans)), bool)
+    interrupts = np.zeros((count, len(humans)), bool)
+    watch = np.zeros(count)
+    watch_share = np.zeros(count)
     variant_task = np.zeros(count, int)
     for v, involved in enumerate(variants):
         task = study.task(involved.task_id)
@@ -221,9 +228,29 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
         human[v] = human_index.get(involved.human or "", -1)
         monitor[v] = human_index.get(involved.monitor or "", -1)
         holder[v] = agent_index.get(involved.principal or "", -1)
-        for person in involved.people():
+        watch[v] = involved.watch_s
+        if involved.monitoring is not None and involved.monitoring.style == "continuous":
+            watch_share[v] = float(involved.monitoring.share or 0.0)
+        initiator = analysis.tasks[involved.task_id].initiator
+        for person in involved.interacting():
             if person in human_index:
                 interacts[v, human_index[person]] = True
+                interrupts[v, human_index[person]] = is_interruption(involved, initiator, person)
+    looks = []
+    for i, task_id in enumerate(task_ids):
+        if analysis.tasks[task_id].per_day <= 0:
+            continue  # looks go with a task that occurs (methods document, #monitoring)
+        own = own_involvement(study, plan, task_id, assumptions)
+        if own.monitor in human_index and own.looks_per_day > 0:
+            looks.append(
+                (
+                    i,
+                    human_index[own.monitor],
+                    own.looks_per_day,
+                    own.monitoring_s,
+                    own.monitoring is not None and own.monitoring.style == "exception",
+                )
+            )
 
     initiators = [analysis.tasks[task_id].initiator for task_id in task_ids]
     demands = np.array(
@@ -267,7 +294,9 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
         monitor=monitor,
         holder=holder,
         interacts=interacts,
-        interrupting=np.array([initiator in INTERRUPTING for initiator in initiators], bool),
+        interrupts=interrupts,
+        watch_s=watch,
+        watch_share=watch_share,
         initiator=np.array([INITIATORS.index(initiator) for initiator in initiators], int),
         demands=demands,
         supervision_demand=np.array(
@@ -290,6 +319,7 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
         channel_limit=float(assumptions["channel_limit"]),
     )
     sim.chains = _chains(study, analysis, graph, index, assumptions["every_days_when"])
+    sim.looks = looks
     # How many days the longest chain can run on (its latest finish, from the analysis).
     longest = max(
         (timing.finish.high for chain in analysis.chains for timing in chain.tasks), default=0.0

@@ -244,7 +244,9 @@ def test_an_accountable_human_monitors_when_the_automation_holds_the_task():
 
     pat: active 60*(1-7/9) = 13.333... + sup[8] + monitoring 42 (the study's override).
     """
-    result = involved({**SHARED, "levels": 8}, assumptions={"monitoring_s": 42})
+    result = involved(
+        {**SHARED, "levels": 8, "monitoring": "each"}, assumptions={"monitoring_s": 42}
+    )
     assert result.principal == "pump"
     assert result.monitor == "pat"
     assert result.monitoring_s == 42
@@ -258,14 +260,18 @@ def test_the_default_monitoring_time_is_used_without_an_override():
 
 def test_an_accountable_human_of_automation_only_work_monitors_it():
     result = involved(
-        {"automation": "pump", "accountable": "pat"}, assumptions={"monitoring_s": 42}
+        {"automation": "pump", "accountable": "pat", "monitoring": "each"},
+        assumptions={"monitoring_s": 42},
     )
     assert (result.monitor, result.human_s, result.time_of("pat")) == ("pat", 0, 42)
     assert result.people() == ["pat"]
 
 
 def test_a_second_person_accountable_for_human_work_monitors_it():
-    result = involved({"human": "pat", "accountable": "sam"}, assumptions={"monitoring_s": 42})
+    result = involved(
+        {"human": "pat", "accountable": "sam", "monitoring": "each"},
+        assumptions={"monitoring_s": 42},
+    )
     assert result.monitor == "sam"
     assert result.time_of("pat") == 60
     assert result.time_of("sam") == 42
@@ -282,12 +288,12 @@ def test_no_monitoring_when_the_accountable_person_holds_it_or_nobody_is_account
 
 
 def test_monitoring_enters_the_daily_burden_and_raises_an_accountability_finding():
-    """Twice a day (08:00, 20:00), the pump does T, pat is accountable, 42 s each:
-    monitoring = burden = 2 * 42 = 84 s per day; 2 interactions."""
+    """Twice a day (08:00, 20:00), the pump does T, pat is accountable and checks each
+    occurrence, 42 s each: monitoring = burden = 2 * 42 = 84 s per day; 2 interactions."""
     task = leaf("T", occurs={"times": ["08:00", "20:00"]})
     result = analyse(
         [task],
-        {"T": {"automation": "pump", "accountable": "pat"}},
+        {"T": {"automation": "pump", "accountable": "pat", "monitoring": "each"}},
         assumptions={"monitoring_s": 42},
     )
     pat = result.people["pat"]
@@ -433,11 +439,12 @@ def test_monitoring_can_start_when_a_raise_passes_the_task_to_the_automation():
     """{1, 1, 10, 10} -> {1, 2, 10, 10}, 60 s, equal split, accountable pat:
     sum split*d goes from 0.5 (pat holds it) to 0.528 (the pump does); pat's active time
     falls by 15/9 = 1.667 s, supervision stays max(sup[10], sup[10]) = 0, and
-    monitoring of 42 s is added."""
+    a check of each occurrence, 42 s, is added."""
     base = {"acquisition": 1, "analysis": 1, "decision": 10, "action": 10}
     assumptions = {"monitoring_s": 42}
-    before = involved({**SHARED, "levels": base}, assumptions=assumptions)
-    after = involved({**SHARED, "levels": base | {"analysis": 2}}, assumptions=assumptions)
+    each = {**SHARED, "monitoring": "each"}
+    before = involved({**each, "levels": base}, assumptions=assumptions)
+    after = involved({**each, "levels": base | {"analysis": 2}}, assumptions=assumptions)
     assert (before.principal, after.principal) == ("pat", "pump")
     assert after.human_s == pytest.approx(before.human_s - 15 / 9)
     assert after.time_of("pat") == pytest.approx(before.time_of("pat") - 15 / 9 + 42)
