@@ -20,6 +20,7 @@ import pandas as pd
 from allocation.core.assumptions import assumption_table
 from allocation.core.cautions import CAUTIONS
 from allocation.core.methods import methods_document
+from allocation.core.monitoring import monitoring_cell
 from allocation.core.needs import needs_text
 from allocation.core.registry import (
     ASSUMPTION_STATUS_WORDS,
@@ -37,6 +38,7 @@ from allocation.core.spreadsheets.layout import (
     TASK_COLUMNS,
 )
 from allocation.core.vocabulary import STAGES
+from allocation.core.writing import monitoring_to_json
 
 from .source import ExportSource
 
@@ -204,6 +206,9 @@ def allocation_rows(source: ExportSource) -> list[dict[str, Any]]:
             "accountable": (assignment and assignment.accountable) or "",
             "feedback": (assignment and assignment.feedback) or "",
             "initiator": (assignment and assignment.initiator) or "",
+            "monitoring": monitoring_cell(
+                None if assignment is None else monitoring_to_json(assignment.monitoring)
+            ),
             "rationale": (assignment and assignment.rationale) or "",
             "status": (assignment and assignment.status) or "",
             "applies": "no" if assignment is not None and not assignment.is_applicable else "yes",

@@ -40,6 +40,7 @@ ALLOCATION_COLUMNS = (
     "accountable",
     "feedback",
     "initiator",
+    "monitoring",
     "rationale",
     "status",
     "applies",

@@ -35,6 +35,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from allocation.core import limits, load_study
+from allocation.core.monitoring import parse_monitoring_cell
 from allocation.core.needs import parse_needs
 from allocation.core.reading import parse_json_text
 from allocation.core.spreadsheets.layout import ALLOCATION_COLUMNS, LINK_COLUMNS, TASK_COLUMNS
@@ -81,6 +82,7 @@ ASSIGNMENT_COLUMNS = (
     "accountable",
     "feedback",
     "initiator",
+    "monitoring",
     "rationale",
     "status",
     "applies",
@@ -112,6 +114,7 @@ _ASSIGNMENT_FIELDS = (
     "accountable",
     "feedback",
     "initiator",
+    "monitoring",
     "status",
     "rationale",
     "applies",
@@ -745,6 +748,17 @@ def _needs(value: Any) -> list[str] | dict[str, list[str]] | None:
         raise _CellError(str(problem)) from None
 
 
+def _monitoring(value: Any) -> str | dict[str, Any] | None:
+    """A monitoring style: each, exception, periodic N or continuous S."""
+    text = _text(value)
+    if text is None:
+        return None
+    try:
+        return parse_monitoring_cell(text)
+    except ValueError as problem:
+        raise _CellError(str(problem)) from None
+
+
 _STAGE_LEVEL = re.compile(r"^([A-Za-z_]+)\s*[:=]?\s*(\S+)$")
 _LEVELS_HELP = (
     "write one level (7) or one per stage (acquisition 7; analysis 7; decision 5; action 5)"
@@ -827,6 +841,7 @@ _ASSIGNMENT_CELLS = {
     "accountable": _text,
     "feedback": _text,
     "initiator": _text,
+    "monitoring": _monitoring,
     "rationale": _text,
     "status": _text,
     "applies": _applies,
