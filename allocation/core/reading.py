@@ -58,8 +58,10 @@ from .vocabulary import (
     CHANNELS,
     CUES,
     EVENT_WHEN,
+    FREQUENCY_BANDS,
     INITIATORS,
     LINK_KINDS,
+    RISK_BAND_NAMES,
     SCALES,
     STAGES,
     TRANSITION_CAUSES,
@@ -564,10 +566,22 @@ class StudyReader:
             value,
             path,
             (),
-            ("likelihood_bands", "review", "unacceptable", "note", "critical_severity"),
+            (
+                "likelihood_bands",
+                "frequency_bands",
+                "band_matrix",
+                "review",
+                "unacceptable",
+                "note",
+                "critical_severity",
+            ),
         )
         if policy is None:
             return None
+        if "frequency_bands" in policy:
+            self.frequency_bands(policy["frequency_bands"], child_path(path, "frequency_bands"))
+        if "band_matrix" in policy:
+            self.band_matrix(policy["band_matrix"], child_path(path, "band_matrix"))
         if "likelihood_bands" in policy:
             bands_path = child_path(path, "likelihood_bands")
             bands = self.listing(policy["likelihood_bands"], bands_path)
@@ -598,6 +612,35 @@ class StudyReader:
         # The severity from which a task counts as safety-critical (1-5, default 4).
         self.optional(policy, "critical_severity", path, lambda v, p: self.integer(v, p, 1, 5))
         return value
+
+    def frequency_bands(self, value: Any, path: str) -> None:
+        """Four cuts in expected slips a year, falling strictly: frequent, probable,
+        occasional, remote (below the last, improbable)."""
+        bands = self.listing(value, path)
+        cuts = [self.number(b, child_path(path, i), positive=True) for i, b in enumerate(bands)]
+        known = [cut for cut in cuts if cut is not None]
+        if isinstance(value, list) and len(bands) != 4:
+            self.error(path, "must list 4 cut points between the 5 frequency bands")
+        elif len(known) == len(cuts) and any(
+            a <= b for a, b in zip(known, known[1:], strict=False)
+        ):
+            self.error(path, "must fall strictly from frequent to remote, like [10, 1, 0.1, 0.01]")
+
+    def band_matrix(self, value: Any, path: str) -> None:
+        """Each frequency band's row of five bands, by severity 1 to 5."""
+        rows = self.obj(value, path, FREQUENCY_BANDS, ())
+        if rows is None:
+            return
+        for name in FREQUENCY_BANDS:
+            if name not in rows:
+                continue
+            row_path = child_path(path, name)
+            cells = self.listing(rows[name], row_path)
+            if isinstance(rows[name], list) and len(cells) != 5:
+                self.error(row_path, "must give 5 bands, one per severity from 1 to 5")
+                continue
+            for i, cell in enumerate(cells):
+                self.choice(cell, child_path(row_path, i), RISK_BAND_NAMES)
 
     def agent(self, value: Any, path: str) -> Agent | None:
         data = self.obj(

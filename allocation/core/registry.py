@@ -26,7 +26,14 @@ from typing import Any
 
 from .assumptions import MEMORY, PRACTICE, PUBLISHED, TOOL
 from .describe import seconds_text
-from .vocabulary import ASSIGNMENT_STATUSES, CHANNELS, CUES, INITIATORS, TRANSITION_CAUSES
+from .vocabulary import (
+    ASSIGNMENT_STATUSES,
+    CHANNELS,
+    CUES,
+    FREQUENCY_BANDS,
+    INITIATORS,
+    TRANSITION_CAUSES,
+)
 
 __all__ = [
     "INITIATOR_WORDS",
@@ -44,6 +51,7 @@ __all__ = [
     "HANDOVER_SOURCES",
     "LIKELIHOOD_FACTORS",
     "RISK_BANDS",
+    "FREQUENCY_BAND_WORDS",
     "SIMULATED",
     "Figure",
     "FindingKind",
@@ -248,7 +256,8 @@ FIGURES: dict[str, Figure] = _figures(
     F("time_ratio", "Time budget ratio", "", 2, LOWER, "time-budget-ratio"),
     F("likelihood", "Likelihood index", "", 2, LOWER, "handover-likelihood"),
     F("likelihood_band", "Likelihood band", "", 0, LOWER, "handover-risk"),
-    F("risk", "Risk score", "", 0, LOWER, "handover-risk", short="Risk"),
+    F("frequency_per_year", "Expected slips a year", "a year", 3, LOWER, "handover-risk"),
+    F("risk", "Screening score", "", 0, LOWER, "handover-risk", short="Score"),
     F("receiver_load", "Receiver's load", "", 3, LOWER, "waking-day-share"),
     F(
         "handovers_to_review",
@@ -259,7 +268,15 @@ FIGURES: dict[str, Figure] = _figures(
         "handover-risk",
         short="To review",
     ),
-    F("max_risk", "Highest handover risk", "", 0, LOWER, "handover-risk", short="Highest risk"),
+    F(
+        "max_risk",
+        "Highest screening score",
+        "",
+        0,
+        LOWER,
+        "handover-risk",
+        short="Highest score",
+    ),
     # -- plan headline --------------------------------------------------------------------
     F(
         "mean_awareness",
@@ -632,13 +649,32 @@ DECISION_STATUS_WORDS: dict[str, Term] = _terms(
     "decision-statuses",
 )
 
-#: The bands of the risk policy a handover's risk score falls in.
+#: How often a slip at a handover may happen (expected slips a year, the policy's cuts).
+FREQUENCY_BAND_WORDS: dict[str, Term] = _terms(
+    FREQUENCY_BANDS,
+    {
+        "frequent": ("Frequent", "At or above the policy's first cut (example: 10 a year)."),
+        "probable": ("Probable", "At or above the second cut (example: 1 a year)."),
+        "occasional": ("Occasional", "At or above the third cut (example: 0.1 a year)."),
+        "remote": ("Remote", "At or above the last cut (example: 0.01 a year)."),
+        "improbable": ("Improbable", "Below the last cut."),
+    },
+    "handover-risk",
+)
+
+#: The bands of the risk policy a handover falls in.
 RISK_BANDS: dict[str, Term] = _terms(
     ("acceptable", "review", "unacceptable"),
     {
-        "acceptable": ("Acceptable", "Below the policy's review threshold."),
-        "review": ("Review", "At or above the review threshold: the team looks at it."),
-        "unacceptable": ("Unacceptable", "At or above the unacceptable threshold."),
+        "acceptable": (
+            "Acceptable",
+            "Its frequency and severity fall in the policy's acceptable cells.",
+        ),
+        "review": ("Review", "Its frequency and severity call for the team to look at it."),
+        "unacceptable": (
+            "Unacceptable",
+            "Its frequency and severity fall in the policy's unacceptable cells.",
+        ),
     },
     "handover-risk",
 )
@@ -709,6 +745,7 @@ def anchors() -> dict[str, set[str]]:
             *ASSUMPTION_STATUS_WORDS.values(),
             *DECISION_STATUS_WORDS.values(),
             *RISK_BANDS.values(),
+            *FREQUENCY_BAND_WORDS.values(),
             *HANDOVER_SOURCES.values(),
             *CATEGORIES.values(),
             *CUE_WORDS.values(),

@@ -12,8 +12,10 @@ __all__ = [
     "CHANNELS",
     "CUES",
     "EVENT_WHEN",
+    "FREQUENCY_BANDS",
     "INITIATORS",
     "LINK_KINDS",
+    "RISK_BAND_NAMES",
     "SCALES",
     "SEVERITIES",
     "STAGES",
@@ -24,6 +26,12 @@ __all__ = [
 
 #: Agent kinds.
 AGENT_KINDS = ("human", "automation")
+
+#: A handover's frequency bands, from the most to the least often (expected slips a year).
+FREQUENCY_BANDS = ("frequent", "probable", "occasional", "remote", "improbable")
+
+#: The bands of the screening index a handover lands in.
+RISK_BAND_NAMES = ("acceptable", "review", "unacceptable")
 
 #: The four stages of information processing, in order. Published: Parasuraman,
 #: Sheridan & Wickens (2000), IEEE Trans. SMC-A 30(3), 286-297.

@@ -126,9 +126,10 @@ def report_charts(source: ExportSource) -> list[Chart]:
     result.append(
         _chart(
             "risk",
-            "Handovers by severity and likelihood",
-            "Each cell counts the plan's handovers with that severity and likelihood band; its "
-            "colour is the band of severity × likelihood under the study's risk policy.",
+            "Screening index of the handovers, in the form of a risk chart",
+            "Not a risk estimate. Each cell counts the plan's handovers with that severity and "
+            "frequency band (expected slips a year = occurrences a day × 365 × the likelihood "
+            "index); its colour is the band the study's policy matrix gives them.",
             dashboard_figures.risk_matrix_chart(analysis.policy, counts),
         )
     )

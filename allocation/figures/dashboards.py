@@ -14,11 +14,11 @@ from collections.abc import Iterable
 from typing import Any
 
 from allocation.core.analysis import PlanAnalysis
-from allocation.core.analysis.risk import risk_band
+from allocation.core.analysis.risk import frequency_level, matrix_band
 from allocation.core.describe import seconds_text
 from allocation.core.model import Study
 from allocation.core.registry import AWARENESS_FACTORS, FIGURES, figure_text
-from allocation.core.vocabulary import SEVERITIES
+from allocation.core.vocabulary import FREQUENCY_BANDS, SEVERITIES
 from allocation.figures.base import (
     AUTOMATION_COLOURS,
     INK,
@@ -39,7 +39,7 @@ __all__ = [
     "daily_figures_chart",
     "goal_person_time",
     "goal_time_chart",
-    "likelihood_band_labels",
+    "frequency_band_labels",
     "mode_share_chart",
     "risk_matrix_chart",
     "risk_matrix_counts",
@@ -211,59 +211,58 @@ def goal_time_chart(analysis: PlanAnalysis) -> dict[str, Any]:
 
 
 def risk_matrix_counts(analysis: PlanAnalysis) -> list[list[int]]:
-    """Handovers per cell: ``counts[severity - 1][likelihood band - 1]``."""
+    """Handovers per cell: ``counts[severity - 1][frequency level - 1]`` (level 1 is
+    improbable, 5 frequent)."""
     counts = [[0] * 5 for _ in range(5)]
     for handover in analysis.handovers:
         severity = min(max(int(handover.severity), 1), 5)
-        band = min(max(int(handover.likelihood_band), 1), 5)
-        counts[severity - 1][band - 1] += 1
+        level = frequency_level(handover.frequency_band)
+        counts[severity - 1][level - 1] += 1
     return counts
 
 
-def likelihood_band_labels(policy: dict[str, Any]) -> list[str]:
-    """The five likelihood bands in words, from the policy's four cut points."""
-    cuts = [float(cut) for cut in policy["likelihood_bands"]]
-    labels = [f"1: below {cuts[0]:g}"]
-    pairs = zip(cuts, cuts[1:], strict=False)
-    labels += [f"{i + 2}: {low:g} to {high:g}" for i, (low, high) in enumerate(pairs)]
-    labels.append(f"5: {cuts[-1]:g} or more")
+def frequency_band_labels(policy: dict[str, Any]) -> list[str]:
+    """The five frequency bands in words, least often first, from the policy's cuts."""
+    cuts = [float(cut) for cut in policy["frequency_bands"]]
+    names = list(reversed(FREQUENCY_BANDS))
+    labels = [f"{names[0]}: below {cuts[-1]:g} a year"]
+    for k in range(1, 4):
+        labels.append(f"{names[k]}: {cuts[-k]:g} to {cuts[-k - 1]:g} a year")
+    labels.append(f"{names[4]}: {cuts[0]:g} a year or more")
     return labels
 
 
 def risk_matrix_chart(
     policy: dict[str, Any], counts: list[list[int]] | None = None, *, compact: bool = False
 ) -> dict[str, Any]:
-    """Severity (1-5) by likelihood band (1-5), each cell coloured by the policy's band
-    for its risk (severity x band) and labelled with its count of handovers.
+    """A screening index in the form of a risk chart: severity (1-5) by frequency band
+    (expected slips a year, least often first), each cell coloured by the policy's band
+    matrix and labelled with its count of handovers.
 
-    Without ``counts`` the matrix shows the risk scores only (the policy on its own).
-    ``compact`` labels the bands by number only (their ranges stay in the hover text),
-    for a narrow chart.
+    Without ``counts`` the chart shows the bands only (the policy on its own).
+    ``compact`` labels the frequency bands by their names alone (their ranges stay in the
+    hover text), for a narrow chart.
     """
-    ranges = likelihood_band_labels(policy)
-    # Two-line ticks (band, then its range) stay level on a chart of middling width.
-    x_labels = (
-        [str(band) for band in range(1, 6)]
-        if compact
-        else [label.replace(": ", "<br>", 1) for label in ranges]
-    )
+    ranges = frequency_band_labels(policy)
+    names = list(reversed(FREQUENCY_BANDS))
+    x_labels = names if compact else [label.replace(": ", "<br>", 1) for label in ranges]
     y_labels = [f"{severity} {SEVERITIES[severity][0]}" for severity in range(1, 6)]
     codes, text, hover = [], [], []
     for severity in range(1, 6):
         code_row, text_row, hover_row = [], [], []
-        for band in range(1, 6):
-            risk = severity * band
-            name = risk_band(risk, policy)
+        for level in range(1, 6):
+            frequency = names[level - 1]
+            name = matrix_band(frequency, severity, policy)
             code_row.append(BAND_CODES[name])
-            where = f"likelihood {ranges[band - 1].split(': ', 1)[1]}<br>"
+            where = f"{ranges[level - 1]}<br>"
             if counts is None:
-                text_row.append(str(risk))
-                hover_row.append(f"{where}risk {risk}: {name}")
+                text_row.append(name)
+                hover_row.append(f"{where}band: {name}")
             else:
-                count = counts[severity - 1][band - 1]
+                count = counts[severity - 1][level - 1]
                 text_row.append(str(count) if count else "·")
                 hover_row.append(
-                    f"{where}risk {risk}: {name}<br>{count} handover{'' if count == 1 else 's'}"
+                    f"{where}band: {name}<br>{count} handover{'' if count == 1 else 's'}"
                 )
         codes.append(code_row)
         text.append(text_row)
@@ -285,14 +284,16 @@ def risk_matrix_chart(
             "texttemplate": "%{text}",
             "textfont": {"size": 15, "color": INK},
             "customdata": hover,
-            "hovertemplate": "severity %{y}, band %{x}<br>%{customdata}<extra></extra>",
+            "hovertemplate": "severity %{y}<br>%{customdata}<extra></extra>",
             "xgap": 3,
             "ygap": 3,
         }
     ]
     layout = chart_layout(
         height=330,
-        xaxis=chart_axis("likelihood band", type="category", showgrid=False, tickangle=0),
+        xaxis=chart_axis(
+            "frequency band (expected slips a year)", type="category", showgrid=False, tickangle=0
+        ),
         yaxis=chart_axis("severity", type="category", showgrid=False),
         margin={"l": 20, "r": 20, "t": 20, "b": 50},
     )

@@ -182,7 +182,7 @@ def _handover_hover(study: Study, handover: Handover) -> str:
             f"{_agent_name(study, site.from_agent)} → {_agent_name(study, site.to_agent)}",
             f"{FIGURES['risk'].label.lower()} {handover.risk} "
             f"({RISK_BANDS[handover.band].label.lower()}): severity {handover.severity} × "
-            f"likelihood band {handover.likelihood_band}",
+            f"{handover.frequency_band} ({handover.frequency_per_year:.3g} slips a year)",
             f"{FIGURES['likelihood'].label.lower()} "
             f"{figure_number('likelihood', handover.likelihood)} · "
             f"{figure_text('handovers_per_day', site.per_day)}",

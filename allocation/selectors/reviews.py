@@ -35,6 +35,7 @@ from allocation.core.registry import (
     ASSIGNMENT_STATUS_WORDS,
     CUE_WORDS,
     FINDING_KINDS,
+    FREQUENCY_BAND_WORDS,
     HANDOVER_SOURCES,
     RISK_BANDS,
     figure,
@@ -263,6 +264,11 @@ def _handover_item(study: Study, plan_id: str, handover: Handover) -> ReviewItem
             figure("likelihood").label,
             f"{figure_number('likelihood', handover.likelihood)} "
             f"(band {handover.likelihood_band})",
+        ),
+        (
+            figure("frequency_per_year").label,
+            f"{figure_number('frequency_per_year', handover.frequency_per_year)} "
+            f"({FREQUENCY_BAND_WORDS[handover.frequency_band].label.lower()})",
         ),
         ("Severity", severity_text(handover.severity)),
         (figure("risk").label, f"{handover.risk} ({RISK_BANDS[handover.band].label})"),

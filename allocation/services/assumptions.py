@@ -32,7 +32,15 @@ __all__ = [
 ]
 
 ASSUMPTION_KEYS = tuple(assumption.key for assumption in ASSUMPTIONS)
-POLICY_KEYS = ("likelihood_bands", "review", "unacceptable", "note", "critical_severity")
+POLICY_KEYS = (
+    "likelihood_bands",
+    "frequency_bands",
+    "band_matrix",
+    "review",
+    "unacceptable",
+    "note",
+    "critical_severity",
+)
 ASSUMPTIONS_PATH = "$.study.assumptions"
 POLICY_PATH = "$.study.risk_policy"
 

@@ -32,6 +32,7 @@ TERMS = {
     "assumption-status": registry.ASSUMPTION_STATUS_WORDS,
     "decision-status": registry.DECISION_STATUS_WORDS,
     "risk-band": registry.RISK_BANDS,
+    "frequency-band": registry.FREQUENCY_BAND_WORDS,
     "handover-source": registry.HANDOVER_SOURCES,
     "category": registry.CATEGORIES,
     "cue": registry.CUE_WORDS,

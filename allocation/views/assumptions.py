@@ -19,7 +19,7 @@ from django_htmx.http import trigger_client_event
 from allocation import models as m
 from allocation import services
 from allocation.core import Problem, StudyInvalid
-from allocation.core.analysis.risk import resolve_policy
+from allocation.core.analysis.risk import DEFAULT_BAND_MATRIX, resolve_policy
 from allocation.core.assumptions import METHOD_NOTES, assumption_table
 from allocation.core.methods import assumption_uses
 from allocation.core.reading import child_path
@@ -172,8 +172,9 @@ def _policy(
             )
             if isinstance(bands, list)
             else value_text(bands),
-            "review": str(stored.get("review", policy["review"])),
-            "unacceptable": str(stored.get("unacceptable", policy["unacceptable"])),
+            "frequency_bands": _cuts_text(
+                stored.get("frequency_bands", policy["frequency_bands"])
+            ),
             "critical_severity": str(stored.get("critical_severity", policy["critical_severity"])),
             "note": str(stored.get("note", "")),
         }
@@ -198,6 +199,7 @@ def _policy(
         "can_edit": page.can_edit,
         "policy": policy,
         "policy_stored": bool(stored),
+        "example_matrix": DEFAULT_BAND_MATRIX,
         "policy_note": stored.get("note") if stored else None,
         "policy_editing": editing and page.can_edit,
         "policy_form": form,
@@ -391,25 +393,36 @@ def _number_or_text(text: str) -> Any:
     return number if math.isfinite(number) else text
 
 
+#: The risk policy's keys the form sets.
+_POLICY_FORM = ("likelihood_bands", "frequency_bands", "critical_severity", "note")
+
+
+def _cuts_text(cuts: Any) -> str:
+    """Cut points as the form shows them: ``10, 1, 0.1, 0.01``."""
+    if isinstance(cuts, list):
+        return ", ".join(f"{cut:g}" if _is_number(cut) else str(cut) for cut in cuts)
+    return value_text(cuts)
+
+
 def _policy_from_form(data) -> tuple[dict[str, str], dict[str, Any], list[Problem]]:
     """The form's text, the policy it gives, and any problem reading the text."""
     form = {
         name: data.get(name, "").strip()
-        for name in ("likelihood_bands", "review", "unacceptable", "critical_severity", "note")
+        for name in ("likelihood_bands", "frequency_bands", "critical_severity", "note")
     }
     policy: dict[str, Any] = {}
     problems: list[Problem] = []
-    bands = form["likelihood_bands"]
-    if bands.startswith("["):
-        path = child_path(POLICY_PATH, "likelihood_bands")
-        value, problems = assumption_value_parse(bands, path)
-        if not problems:
-            policy["likelihood_bands"] = value
-    elif bands:
-        policy["likelihood_bands"] = [
-            _number_or_text(part) for part in _SEPARATORS.split(bands) if part
-        ]
-    for name in ("review", "unacceptable", "critical_severity"):
+    for key in ("likelihood_bands", "frequency_bands"):
+        bands = form[key]
+        if bands.startswith("["):
+            path = child_path(POLICY_PATH, key)
+            value, found = assumption_value_parse(bands, path)
+            problems += found
+            if not found:
+                policy[key] = value
+        elif bands:
+            policy[key] = [_number_or_text(part) for part in _SEPARATORS.split(bands) if part]
+    for name in ("critical_severity",):
         if form[name]:
             policy[name] = _number_or_text(form[name])
     if form["note"]:
@@ -420,10 +433,13 @@ def _policy_from_form(data) -> tuple[dict[str, str], dict[str, Any], list[Proble
 @require_POST
 @login_required
 def risk_policy_set(request: HttpRequest, pk: int) -> HttpResponse:
-    """Set the study's risk policy: likelihood band cut points, review and unacceptable
-    thresholds, and a note."""
+    """Set the study's risk policy: likelihood and frequency band cut points, the
+    critical severity and a note (a band matrix from the study file is kept)."""
     page = study_page(request, pk, role=m.Role.EDITOR)
     form, policy, problems = _policy_from_form(request.POST)
+    # What the form does not show (a band matrix set in the study file) is kept.
+    stored = page.row.risk_policy or {}
+    policy = {key: value for key, value in stored.items() if key not in _POLICY_FORM} | policy
     before = _headline_values(page)
     if not problems:
         try:

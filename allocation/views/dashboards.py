@@ -14,6 +14,7 @@ from django.views.decorators.http import require_GET
 
 from allocation.core.analysis import PlanAnalysis
 from allocation.core.analysis.modecheck import MODE_FINDING_KINDS
+from allocation.core.analysis.report import interfaces_json
 from allocation.core.describe import seconds_text, severity_text
 from allocation.core.registry import (
     AWARENESS_FACTORS,
@@ -220,6 +221,14 @@ def _dashboard(
         "handovers": handovers,
         "handovers_page": handovers_page,
         "handover_count": len(analysis.handovers),
+        "interfaces": [
+            {
+                **row,
+                "from_agent": _agent_name(page, row["from_agent"]),
+                "to_agent": _agent_name(page, row["to_agent"]),
+            }
+            for row in interfaces_json(analysis)
+        ],
         "handovers_shown": HANDOVERS_SHOWN,
         "awareness": awareness,
         "awareness_count": len(dashboard_figures.awareness_rows(analysis, None)),
@@ -229,7 +238,7 @@ def _dashboard(
         "finding_kinds": sorted(kinds.items(), key=lambda kv: (-kv[1], kv[0])),
         "modes": modes,
         "policy": analysis.policy,
-        "band_labels": dashboard_figures.likelihood_band_labels(analysis.policy),
+        "band_labels": dashboard_figures.frequency_band_labels(analysis.policy),
         "coherence": analysis.coherence,
         "coherence_figures": [(key, coherence[key]) for key in COHERENCE_FIGURES],
         "figures": {

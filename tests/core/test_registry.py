@@ -22,7 +22,7 @@ import allocation.core
 from allocation.core import read_study
 from allocation.core.analysis import analyse_plan, prepare
 from allocation.core.analysis.modecheck import MODE_FINDING_KINDS
-from allocation.core.analysis.risk import DEFAULT_RISK_POLICY, resolve_policy, risk_band
+from allocation.core.analysis.risk import matrix_band, resolve_policy
 from allocation.core.assumptions import ASSUMPTIONS, METHOD_NOTES
 from allocation.core.registry import (
     ASSIGNMENT_STATUS_WORDS,
@@ -32,6 +32,7 @@ from allocation.core.registry import (
     CATEGORIES,
     FIGURES,
     FINDING_KINDS,
+    FREQUENCY_BAND_WORDS,
     HANDOVER_SOURCES,
     LIKELIHOOD_FACTORS,
     RISK_BANDS,
@@ -232,11 +233,13 @@ def test_every_handover_source_band_and_category_has_words():
         categories |= {task["category"] for task in analysis.to_json()["tasks"].values()}
     assert sources <= set(HANDOVER_SOURCES) and {"link", "shared", "mode"} <= sources
     assert bands <= set(RISK_BANDS) and categories <= set(CATEGORIES)
-    # The example policy's three bands, at its thresholds (review from 10, unacceptable
-    # from 17): 9, 10 and 17.
+    # The example matrix's three bands, at severity 3 from improbable to frequent
+    # (methods document, #handover-risk): acceptable, review, unacceptable.
     policy = resolve_policy({})
-    assert (DEFAULT_RISK_POLICY["review"], DEFAULT_RISK_POLICY["unacceptable"]) == (10, 17)
-    assert [risk_band(score, policy) for score in (9, 10, 17)] == list(RISK_BANDS)
+    cells = [matrix_band(f, 3, policy) for f in ("improbable", "occasional", "frequent")]
+    assert cells == list(RISK_BANDS)
+    frequencies = {handover.frequency_band for a in analyses() for handover in a.handovers}
+    assert frequencies <= set(FREQUENCY_BAND_WORDS)
 
 
 def test_every_status_has_words():

@@ -18,6 +18,7 @@ from allocation import models as m
 from allocation import selectors, services
 from allocation.core.analysis import analyse_plan
 from allocation.core.assumptions import ASSUMPTIONS, METHOD_NOTES
+from allocation.examples import example_documents
 
 HTMX = {"HX-Request": "true"}
 
@@ -187,29 +188,50 @@ def policy_url(study: m.Study) -> str:
     return reverse("study-risk-policy-set", args=[study.pk])
 
 
-def test_setting_the_policy_rebands_the_handovers(client, study, owner):
-    """Review from 6: the "auto" handover of risk 6 now needs review (0 -> 1)."""
+def test_setting_the_policy_rebands_the_handovers(client, owner):
+    """Frequency cuts ten times higher (100, 10, 1, 0.1 a year) move every handover of
+    "auto" one band down. Of the six needing review under the example, the three mode
+    changes to the resident at 2.4 to 2.6 slips a year go from probable to occasional and
+    stay in review at severity 2; the link T7 -> T8 at 1.0 a year (severity 3) and the two
+    changes back at 0.11 a year (severity 2) go from occasional to remote: acceptable
+    (methods document, #handover-risk, example matrix). 6 -> 3."""
+    document = next(d for d in example_documents() if d["study"]["id"] == "home-heating")
+    study = services.study_import(data=document, owner=owner)
     client.force_login(owner)
-    data = {"likelihood_bands": "0.2, 0.4, 0.6, 0.8", "review": "6", "unacceptable": "12"}
+    result = selectors.study_load(study)
+    assert analyse_plan(result.study, "auto").headline()["handovers_to_review"] == 6
+    data = {"likelihood_bands": "0.2, 0.4, 0.6, 0.8", "frequency_bands": "100, 10, 1, 0.1"}
     response = client.post(policy_url(study), {**data, "note": "Ours, 2025"}, headers=HTMX)
     fragment = response.content.decode()
     assert stored(study)[1] == {
         "likelihood_bands": [0.2, 0.4, 0.6, 0.8],
-        "review": 6,
-        "unacceptable": 12,
+        "frequency_bands": [100, 10, 1, 0.1],
         "note": "Ours, 2025",
     }
     assert fragment.startswith('<section class="panel" id="risk-policy">')
     assert "study's own risk policy is in force" in fragment and "Ours, 2025" in fragment
     result = selectors.study_load(study)
-    assert analyse_plan(result.study, "auto").headline()["handovers_to_review"] == 1
-    assert "was 0" in fragment and "assumptions-changed" in response["HX-Trigger"]
+    assert analyse_plan(result.study, "auto").headline()["handovers_to_review"] == 3
+    assert "was 6" in fragment and "assumptions-changed" in response["HX-Trigger"]
+
+
+def test_a_band_matrix_from_the_study_file_is_kept_when_the_form_saves(client, study, owner):
+    matrix = {"frequent": ["review"] * 5}
+    study.risk_policy = {"band_matrix": matrix, "review": 8}
+    study.save()
+    client.force_login(owner)
+    client.post(policy_url(study), {"critical_severity": "3"}, headers=HTMX)
+    assert stored(study)[1] == {"band_matrix": matrix, "review": 8, "critical_severity": 3}
 
 
 @pytest.mark.parametrize(
     ("data", "path", "message"),
     [
-        ({"review": "12", "unacceptable": "9"}, "$.study.risk_policy.review", "must not be above"),
+        (
+            {"frequency_bands": "1, 10, 0.1, 0.01"},
+            "$.study.risk_policy.frequency_bands",
+            "must fall strictly",
+        ),
         (
             {"critical_severity": "6"},
             "$.study.risk_policy.critical_severity",
@@ -218,7 +240,7 @@ def test_setting_the_policy_rebands_the_handovers(client, study, owner):
         ({"likelihood_bands": "0.5, 0.4, 0.6, 0.8"}, "likelihood_bands", "must rise strictly"),
         ({"likelihood_bands": "0.2, 0.4, 0.6"}, "likelihood_bands", "must list 4 cut points"),
         ({"likelihood_bands": "0.2, x, 0.6, 0.8"}, "likelihood_bands[1]", "must be a number"),
-        ({"unacceptable": "30"}, "$.study.risk_policy.unacceptable", "from 1 to 25"),
+        ({"frequency_bands": "10, 1"}, "frequency_bands", "must list 4 cut points"),
     ],
 )
 def test_a_bad_policy_shows_the_readers_message_and_stores_nothing(
@@ -242,8 +264,8 @@ def test_the_critical_severity_is_set_with_the_policy_and_shown(client, study, o
 
 def test_policy_reset_brings_back_the_example(client, study, owner):
     client.force_login(owner)
-    client.post(policy_url(study), {"review": "6", "unacceptable": "12"})
-    assert stored(study)[1] == {"review": 6, "unacceptable": 12}
+    client.post(policy_url(study), {"frequency_bands": "100, 10, 1, 0.1"})
+    assert stored(study)[1] == {"frequency_bands": [100, 10, 1, 0.1]}
     response = client.post(reverse("study-risk-policy-reset", args=[study.pk]))
     assert response.status_code == 302 and stored(study)[1] == {}
     page = client.get(response["Location"]).content.decode()
@@ -253,7 +275,7 @@ def test_policy_reset_brings_back_the_example(client, study, owner):
 POST_URLS = (
     ("study-assumption-set", {"key": "monitoring_s", "value": "20"}),
     ("study-assumption-reset", {"key": "monitoring_s"}),
-    ("study-risk-policy-set", {"review": "6", "unacceptable": "12"}),
+    ("study-risk-policy-set", {"frequency_bands": "100, 10, 1, 0.1"}),
     ("study-risk-policy-reset", {}),
 )
 
@@ -302,10 +324,11 @@ def test_a_save_changes_only_the_study_row(study, owner):
 
 def test_a_bad_policy_without_htmx_is_the_full_page_with_the_form(client, study, owner):
     client.force_login(owner)
-    response = client.post(policy_url(study), {"review": "20", "unacceptable": "5"})
+    response = client.post(policy_url(study), {"frequency_bands": "1, 10, 100, 1000"})
     page = response.content.decode()
     assert response.status_code == 400 and "<html" in page
-    assert 'name="review" value="20"' in page and "must not be above unacceptable" in page
+    assert 'name="frequency_bands" value="1, 10, 100, 1000"' in page
+    assert "must fall strictly" in page
     assert stored(study)[1] == {}
 
 

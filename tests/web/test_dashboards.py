@@ -86,12 +86,13 @@ def test_unknown_plan_is_404(client, study, owner):
 
 
 def test_risk_matrix_on_the_page_counts_the_handovers(client, study, owner):
-    """Plan "auto": two handovers of T2 (severity 2), in likelihood bands 3 and 2."""
+    """Plan "auto": two handovers of T2 (severity 2) at mode changes without a rate: 0 a
+    day, so 0 expected slips a year, improbable (the first column, least often first)."""
     client.force_login(owner)
     page = client.get(dashboard(study)).content.decode()
     text = chart_data(page, "figure-risk")["data"][0]["text"]
-    assert (text[1][1], text[1][2]) == ("1", "1")
-    assert sum(cell != "·" for row in text for cell in row) == 2
+    assert text[1][0] == "2"
+    assert sum(cell != "·" for row in text for cell in row) == 1
 
 
 @pytest.fixture
@@ -146,13 +147,13 @@ def test_study_with_errors_shows_its_problems_and_no_charts(client, study, owner
 
 
 def test_study_own_policy_is_named_not_called_an_example(client, study, owner):
-    study.risk_policy = {"likelihood_bands": [0.1, 0.2, 0.3, 0.4], "review": 4, "unacceptable": 8}
+    study.risk_policy = {"frequency_bands": [20, 2, 0.2, 0.02]}
     study.save()
     client.force_login(owner)
     page = client.get(dashboard(study)).content.decode()
     assert "study's own risk policy" in page and "example risk policy" not in page
-    # The band in the registry's words.
-    assert "Review (risk 4 or more)" in page
+    # The study's cuts, in words.
+    assert "improbable: below 0.02 a year" in page and "frequent: 20 a year or more" in page
 
 
 def test_user_text_is_escaped_in_tables_and_chart_data(client, owner, heating_document):

@@ -333,10 +333,11 @@ def test_report_charts_are_the_dashboards_figures_in_the_screens_palette(auto):
     assert human in svg_fills(svgs["goals-1"])
     assert "G1 Keep the home comfortable" in svg_lines(svgs["goals-1"])
     # The risk policy's three bands in the style sheet's band colours; the two
-    # handovers (severity 2, bands 2 and 3: test_figures_dashboards) leave 23 of 25 cells empty.
+    # handovers (severity 2, both improbable: test_figures_dashboards) leave 24 of 25 cells
+    # empty.
     bands = {style_colour(f".band-{band}") for band in ("acceptable", "review", "unacceptable")}
     assert bands <= svg_fills(svgs["risk"])
-    assert svg_lines(svgs["risk"]).count("·") == 23
+    assert svg_lines(svgs["risk"]).count("·") == 24
     # The thermostat's first mode (the initial one) in the devices' violet.
     assert automation in svg_fills(svgs["modes"])
     assert "schedule Following the schedule" in svg_lines(svgs["modes"])
@@ -490,7 +491,10 @@ def test_pdf_tables_repeat_their_header_rows_on_every_page():
     pages = [
         normal(page.extract_text()) for page in PdfReader(io.BytesIO(report_pdf(source))).pages
     ]
-    header = "Source From To Agents Per day Time ratio Likelihood Severity Risk Band Cue"
+    header = (
+        "Source From To Agents Per day Time ratio Likelihood index Slips a year Severity "
+        "Screening score Band Cue"
+    )
     start = next(i for i, text in enumerate(pages) if text.startswith("Handovers "))
     assert pages[start].startswith("Handovers " + header)
     following = []

@@ -70,9 +70,11 @@ def test_daily_bars_equal_the_person_figures_worked_by_hand(heating_manual, heat
                 person.night_interruptions_per_day,
             ]
         )
-    # By hand: in "auto" the resident monitors T2 once a day for 10 s and touches only T2.
+    # By hand: in "auto" the resident touches only T2 (once a day): their own part at
+    # level 7 (one interaction) and, accountable with a display as feedback, one look a
+    # day of 10 s (the default periodic monitoring; methods document, #monitoring).
     auto = heating_auto.people["resident"]
-    assert (auto.monitoring_s_per_day, auto.interactions_per_day) == pytest.approx((10.0, 1.0))
+    assert (auto.monitoring_s_per_day, auto.interactions_per_day) == pytest.approx((10.0, 2.0))
 
 
 def test_each_person_keeps_one_colour_in_every_chart(insulin_hybrid):
@@ -124,55 +126,57 @@ def test_time_by_goal_shows_sub_goals_and_loose_tasks():
     assert labels[1].strip().startswith("↳ G2") and labels[2] == "Tasks outside any goal"
 
 
-def test_risk_matrix_counts_are_the_handovers_by_severity_and_band(insulin_hybrid):
+def test_risk_matrix_counts_are_the_handovers_by_severity_and_frequency(insulin_hybrid):
+    # Counted from the handovers' own severity and frequency band (level 1 improbable to
+    # 5 frequent, the chart's columns from left to right).
+    order = ("improbable", "remote", "occasional", "probable", "frequent")
     counts = charts.risk_matrix_counts(insulin_hybrid)
-    expected = Counter((h.severity, h.likelihood_band) for h in insulin_hybrid.handovers)
+    expected = Counter(
+        (h.severity, order.index(h.frequency_band) + 1) for h in insulin_hybrid.handovers
+    )
     assert len(insulin_hybrid.handovers) > 50
     for severity in range(1, 6):
-        for band in range(1, 6):
-            assert counts[severity - 1][band - 1] == expected[(severity, band)]
+        for level in range(1, 6):
+            assert counts[severity - 1][level - 1] == expected[(severity, level)]
     assert sum(map(sum, counts)) == len(insulin_hybrid.handovers)
 
 
 def test_risk_matrix_of_heating_auto_by_hand(heating_auto):
-    """Both mode handovers of T2 (severity 2) fall in bands 3 and 2: risks 6 and 4."""
+    """Both mode handovers of T2 (severity 2) come with transitions without a rate: 0 a
+    day, 0 slips a year, improbable."""
     counts = charts.risk_matrix_counts(heating_auto)
-    assert counts[1][2] == 1 and counts[1][1] == 1 and sum(map(sum, counts)) == 2
+    assert counts[1][0] == 2 and sum(map(sum, counts)) == 2
     figure = charts.risk_matrix_chart(heating_auto.policy, counts)
     heatmap = figure["data"][0]
-    assert heatmap["text"][1][2] == "1" and heatmap["text"][0][0] == "·"
+    assert heatmap["text"][1][0] == "2" and heatmap["text"][0][0] == "·"
 
 
-def test_risk_matrix_cells_follow_the_policy_bands():
-    """Example policy (review from 10, unacceptable from 17), cells worked by hand:
-    severity 2 x band 5 = 10 is review, 4 x 5 = 20 unacceptable, 3 x 3 = 9 acceptable."""
+def test_risk_matrix_cells_follow_the_policy_matrix():
+    """The example matrix's rule (methods document, #handover-risk), cells by hand: rows
+    severity 1-5, columns improbable .. frequent. Severity 2 frequent: review; 4 probable:
+    unacceptable; 3 remote: acceptable; 5 occasional: unacceptable; 4 occasional: review."""
     policy = resolve_policy({})
-    assert (policy["review"], policy["unacceptable"]) == (10, 17)
     z = charts.risk_matrix_chart(policy)["data"][0]["z"]
     codes = charts.BAND_CODES
     assert z[1][4] == codes["review"]
-    assert z[3][4] == codes["unacceptable"]
-    assert z[2][2] == codes["acceptable"]
-    assert z[4][3] == codes["unacceptable"]  # 5 x 4 = 20
-    assert z[3][2] == codes["review"]  # 4 x 3 = 12
+    assert z[3][3] == codes["unacceptable"]
+    assert z[2][1] == codes["acceptable"]
+    assert z[4][2] == codes["unacceptable"]
+    assert z[3][2] == codes["review"]
     own = resolve_policy(
-        {"likelihood_bands": [0.2, 0.4, 0.6, 0.8], "review": 4, "unacceptable": 6}
+        {"band_matrix": {**DEFAULT_RISK_POLICY["band_matrix"], "remote": ["review"] * 5}}
     )
     z = charts.risk_matrix_chart(own)["data"][0]["z"]
-    assert (z[0][2], z[0][3], z[1][2]) == (
-        codes["acceptable"],
-        codes["review"],
-        codes["unacceptable"],
-    )
+    assert [z[row][1] for row in range(5)] == [codes["review"]] * 5
 
 
-def test_likelihood_band_labels_follow_the_cut_points():
-    assert charts.likelihood_band_labels(DEFAULT_RISK_POLICY) == [
-        "1: below 0.2",
-        "2: 0.2 to 0.4",
-        "3: 0.4 to 0.6",
-        "4: 0.6 to 0.8",
-        "5: 0.8 or more",
+def test_frequency_band_labels_follow_the_cut_points():
+    assert charts.frequency_band_labels(DEFAULT_RISK_POLICY) == [
+        "improbable: below 0.01 a year",
+        "remote: 0.01 to 0.1 a year",
+        "occasional: 0.1 to 1 a year",
+        "probable: 1 to 10 a year",
+        "frequent: 10 a year or more",
     ]
 
 

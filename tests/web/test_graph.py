@@ -241,8 +241,9 @@ def test_handover_links_are_drawn_thick_in_the_accent(client, graph_study, owner
     by_target = {h.site.to_task: h for h in analysis.handovers if h.site.source == "link"}
     for target, hover in zip(markers["customdata"], markers["hovertext"], strict=True):
         handover = by_target[target]
-        # The registry's words: "risk score", the band's label.
-        assert f"risk score {handover.risk} ({handover.band})" in hover
+        # The registry's words: "screening score", the band's label, the frequency band.
+        assert f"screening score {handover.risk} ({handover.band})" in hover
+        assert handover.frequency_band in hover
     assert "Thermostat → Resident" in markers["hovertext"][0]
 
 
@@ -347,9 +348,10 @@ def test_details_fragment_for_htmx(client, study, owner):
 def test_details_page_shows_the_task_under_the_plan(client, study, owner):
     """T2 under "auto": shared at sv10 level 7 on every stage, so each stage's degree is
     (7 - 1) / 9 = 0.67 and the thermostat is the principal holder (0.67 > 0.5). The
-    resident's time per occurrence: 1/3 of the duration [3, 10, 20] s + 4 s supervision +
-    10 s monitoring; expected, at the triangular mean (3 + 10 + 20) / 3 = 11 s: 53/3 =
-    17.7 s; at the typical 10 s: 52/3 = 17.3 s."""
+    resident's time per occurrence: 1/3 of the duration [3, 10, 20] s + 4 s supervision
+    (their look of 10 s once a day, periodic monitoring with a display, counts a day, not
+    per occurrence); expected, at the triangular mean (3 + 10 + 20) / 3 = 11 s: 23/3 =
+    7.67 s; at the typical 10 s: 22/3 = 7.33 s."""
     client.force_login(owner)
     response = client.get(task_url(study, "T2", "auto"))
     page = response.content.decode()
@@ -372,8 +374,9 @@ def test_details_page_shows_the_task_under_the_plan(client, study, owner):
         "Automation of decision and action",
         "Mode change",  # the hold mode hands T2 to the resident
         "Back to the graph",
-        "<dt>Expected person time per occurrence</dt><dd>17.7 s",
-        "<dt>Person time per occurrence at typical durations</dt><dd>17.3 s</dd>",
+        # A day: 7.67 s for the one occurrence and the 10 s look, 17.7 s.
+        "<dt>Expected person time per occurrence</dt><dd>7.67 s; Resident 17.7 s a day",
+        "<dt>Person time per occurrence at typical durations</dt><dd>7.33 s</dd>",
         CAUTIONS[:60],
     ):
         assert text in page, text

@@ -27,6 +27,7 @@ from django.urls import reverse
 
 from allocation import models as m
 from allocation import services
+from allocation.core.analysis.risk import DEFAULT_RISK_POLICY
 from allocation.selectors import plan_analysis, study_load
 from allocation.selectors.reviews import review_items
 
@@ -64,20 +65,26 @@ def test_open_items_of_the_home_heating_plans_match_the_hand_worked_lists(study)
 
 
 def test_a_handover_in_the_review_band_is_open(owner, heating_document):
-    """With the review threshold at 5, schedule -> hold (risk 2 x 3 = 6) is in the
-    review band and open; hold -> schedule (risk 2 x 2 = 4) is still acceptable."""
+    """Both mode changes of T2 happen 0 times a day (no rate): 0 slips a year,
+    improbable, severity 2. A band matrix that sends improbable at severity 2 to review
+    opens both; the example matrix leaves them acceptable. Score 2 x 1 = 2."""
+    row = services.study_import(data=heating_document, owner=owner)
+    assert [item for item in open_items(row, "auto") if item.kind == "handover"] == []
+    matrix = {"improbable": ["acceptable", "review", "acceptable", "acceptable", "acceptable"]}
+    heating_document["study"]["id"] = "heating-strict"
     heating_document["study"]["risk_policy"] = {
-        "likelihood_bands": [0.2, 0.4, 0.6, 0.8],
-        "review": 5,
-        "unacceptable": 17,
+        "band_matrix": {**DEFAULT_RISK_POLICY["band_matrix"], **matrix}
     }
     row = services.study_import(data=heating_document, owner=owner)
-    items = open_items(row, "auto")
-    handovers = [item for item in items if item.kind == "handover"]
-    assert [item.key for item in handovers] == ["T2>T2@schedule>hold"]
+    handovers = [item for item in open_items(row, "auto") if item.kind == "handover"]
+    assert sorted(item.key for item in handovers) == [
+        "T2>T2@hold>schedule",
+        "T2>T2@schedule>hold",
+    ]
     assert handovers[0].reasons == ["review band"]
     # The registry's label and band words.
-    assert ("Risk score", "6 (Review)") in handovers[0].facts
+    assert ("Screening score", "2 (Review)") in handovers[0].facts
+    assert ("Expected slips a year", "0.000 (improbable)") in handovers[0].facts
 
 
 def test_assignment_item_shows_who_level_words_and_figures(study):
@@ -420,7 +427,7 @@ def test_workshop_walks_the_open_items_one_by_one(client, study):
     second = client.get(base + "?item=2").content.decode()
     assert "Item <strong>2</strong> of <strong>6</strong>" in second
     assert "Finding: Accountable without holding the task (T2)" in second
-    assert "they must monitor it" in second
+    assert "they must keep watch over it" in second
     assert f'rel="prev" href="{base}?item=1"' in second
     last = client.get(base + "?item=99").content.decode()  # past the end: the last item
     assert "Item <strong>6</strong> of <strong>6</strong>" in last

@@ -21,7 +21,12 @@ assumption ``likelihood_weights``)::
 - ``automation_initiated``: who starts it (``initiation_weight``);
 - ``awareness``: the receiving task's mode-awareness index.
 
-Risk is severity (1-5) times the likelihood band (1-5), banded by the study's risk policy.
+The likelihood is a screening *index*, not a probability. Its band also weighs how
+often the handover happens: expected slips a year = per day x 365 x index (tool
+assumption: the index read as a chance per occurrence), placed in the policy's frequency
+bands, then crossed with the severity in the policy's matrix (frequency band x severity
+-> band). The score ``risk`` is severity (1-5) times the frequency level (1 improbable to
+5 frequent); ``likelihood_band`` stays the band of the index alone.
 
 References
 ----------
@@ -36,7 +41,10 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-from .risk import likelihood_band, noisy_or, risk_band
+from .risk import frequency_band, frequency_level, likelihood_band, matrix_band, noisy_or
+
+#: Days a year, for expected slips a year (tool assumption: 365).
+DAYS_A_YEAR = 365
 
 __all__ = ["Handover", "HandoverSite", "assess_handover", "time_budget_ratio"]
 
@@ -73,6 +81,8 @@ class Handover:
     likelihood_band: int = 1
     risk: int = 1
     band: str = "acceptable"
+    frequency_per_year: float = 0.0
+    frequency_band: str = "improbable"
 
     def to_json(self) -> dict[str, Any]:
         site = self.site
@@ -89,6 +99,8 @@ class Handover:
             "risk": self.risk,
             "band": self.band,
             "likelihood_band": self.likelihood_band,
+            "frequency_per_year": self.frequency_per_year,
+            "frequency_band": self.frequency_band,
             "cue": site.cue,
             "initiator": site.initiator,
             "automation_initiated": site.initiator == "automation",
@@ -138,7 +150,9 @@ def assess_handover(
     contributions = {name: float(weights[name]) * value for name, value in factors.items()}
     likelihood = noisy_or(contributions)
     band = likelihood_band(likelihood, policy)
-    risk = severity * band
+    per_year = site.per_day * DAYS_A_YEAR * likelihood
+    frequency = frequency_band(per_year, policy)
+    risk = severity * frequency_level(frequency)
     return Handover(
         site=site,
         time_ratio=time_ratio,
@@ -150,5 +164,7 @@ def assess_handover(
         likelihood=likelihood,
         likelihood_band=band,
         risk=risk,
-        band=risk_band(risk, policy),
+        band=matrix_band(frequency, severity, policy),
+        frequency_per_year=per_year,
+        frequency_band=frequency,
     )

@@ -159,6 +159,9 @@ class PlanAnalysis:
     coherence: Coherence
     findings: list[Finding]
     mode_share: dict[str, float] = field(default_factory=dict)
+    #: Work passing between two automations: not handovers (methods document,
+    #: #automation-interfaces).
+    interfaces: list[HandoverSite] = field(default_factory=list)
 
     def headline(self) -> dict[str, float]:
         """The plan's headline figures, for overviews and comparison."""
@@ -292,7 +295,11 @@ class _Analysis:
                 in_error_state=task_id in in_question,
             )
         link_weights = self.link_weights(counted)
-        handovers = self.handovers(tasks, people, holders, link_weights)
+        sites = self.handover_sites(tasks, holders, link_weights)
+        interfaces = [site for site in sites if not self.involves_a_person(site)]
+        handovers = self.handovers(
+            [site for site in sites if self.involves_a_person(site)], tasks, people
+        )
         findings = self.findings(normal, chains)
         return PlanAnalysis(
             study=study,
@@ -307,6 +314,7 @@ class _Analysis:
             coherence=coherence(holders, link_weights),
             findings=findings,
             mode_share=self.mode_share,
+            interfaces=interfaces,
         )
 
     # -- modes ----------------------------------------------------------------------
@@ -569,10 +577,19 @@ class _Analysis:
         ]
         return min(cues, key=lambda cue: weakness[cue], default=None)
 
-    def handovers(self, tasks, people, holders, link_weights) -> list[Handover]:
+    def involves_a_person(self, site: HandoverSite) -> bool:
+        """A handover is a change of holder with a human on at least one side; between
+        two automations it is an automation interface."""
+        agents = self.study.agents_by_id
+        return any(
+            agent is not None and agent.is_human
+            for agent in (agents.get(site.from_agent or ""), agents.get(site.to_agent or ""))
+        )
+
+    def handovers(self, sites: list[HandoverSite], tasks, people) -> list[Handover]:
         study = self.study
         assessed = []
-        for site in self.handover_sites(tasks, holders, link_weights):
+        for site in sites:
             receiver = study.agents_by_id.get(site.to_agent or "")
             is_human = receiver is not None and receiver.is_human
             target = tasks[site.to_task]

@@ -116,6 +116,27 @@ def _chain_json(chain) -> dict[str, Any]:
     }
 
 
+def interfaces_json(result: PlanAnalysis) -> list[dict[str, Any]]:
+    """Work passing between two automations, one row per pair of agents: how often a
+    day, and along which tasks (methods document, ``#automation-interfaces``)."""
+    rows: dict[tuple[str, str], dict[str, Any]] = {}
+    for site in result.interfaces:
+        key = (site.from_agent or "", site.to_agent or "")
+        row = rows.setdefault(
+            key, {"from_agent": key[0], "to_agent": key[1], "per_day": 0.0, "tasks": []}
+        )
+        row["per_day"] += site.per_day
+        row["tasks"].append(
+            {
+                "source": site.source,
+                "from_task": site.from_task,
+                "to_task": site.to_task,
+                "per_day": site.per_day,
+            }
+        )
+    return sorted(rows.values(), key=lambda row: -row["per_day"])
+
+
 def analysis_json(result: PlanAnalysis) -> dict[str, Any]:
     """The analysis file (``baton.analysis`` version 1), with more keys beside its own."""
     study = result.study
@@ -127,6 +148,7 @@ def analysis_json(result: PlanAnalysis) -> dict[str, Any]:
         "people": {agent_id: person.to_json() for agent_id, person in result.people.items()},
         "tasks": {task.id: _task_json(result, task.id) for task in study.leaves},
         "handovers": [handover.to_json() for handover in result.handovers],
+        "interfaces": interfaces_json(result),
         "coherence": {
             "cut_ratio": result.coherence.cut_ratio,
             "modularity": result.coherence.modularity,

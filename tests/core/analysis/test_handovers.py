@@ -23,10 +23,11 @@ from allocation.core.analysis.handovers import HandoverSite, assess_handover, ti
 from allocation.core.analysis.involvement import involvement
 from allocation.core.analysis.risk import (
     DEFAULT_RISK_POLICY,
+    frequency_band,
     likelihood_band,
+    matrix_band,
     noisy_or,
     resolve_policy,
-    risk_band,
 )
 from allocation.core.assumptions import resolve_assumptions
 from allocation.core.model import Agent, Assignment, Range, Study, Task
@@ -64,8 +65,9 @@ def test_a_handover_likelihood_by_hand():
     Factors: time 0.6, load 0.25, cue 0.5, initiated 1, awareness 0.4.
     Terms: 0.30, 0.05, 0.20, 0.10, 0.12.
     likelihood = 1 - 0.70 * 0.95 * 0.80 * 0.90 * 0.88 = 1 - 0.421344 = 0.578656.
-    Band (default example policy, cut at 0.2/0.4/0.6/0.8): 0.4 <= 0.5787 < 0.6 -> 3.
-    Risk = severity 4 x band 3 = 12: review (10 <= 12 < 17).
+    Likelihood band (default example policy, cut at 0.2/0.4/0.6/0.8): 0.4 <= 0.5787 < 0.6
+    -> 3. Twice a day: expected slips a year = 2 x 365 x 0.578656 = 422.42, at least 10:
+    frequent (level 5); severity 4 and frequent: unacceptable; score 4 x 5 = 20.
     """
     assumptions = resolve_assumptions(
         {
@@ -97,7 +99,9 @@ def test_a_handover_likelihood_by_hand():
         {"time": 0.3, "load": 0.05, "cue": 0.2, "automation_initiated": 0.1, "awareness": 0.12}
     )
     assert handover.likelihood == pytest.approx(0.578656)
-    assert (handover.likelihood_band, handover.risk, handover.band) == (3, 12, "review")
+    assert handover.frequency_per_year == pytest.approx(422.41888)
+    assert (handover.likelihood_band, handover.frequency_band) == (3, "frequent")
+    assert (handover.risk, handover.band) == (20, "unacceptable")
 
 
 def test_a_time_ratio_above_one_counts_as_one_and_no_window_as_none():
@@ -151,8 +155,11 @@ def test_the_default_policy_is_an_example_and_says_so():
     assert POLICY["is_example"] is True
     assert "Example" in POLICY["note"] and "ISO 14971" in POLICY["note"]
     assert DEFAULT_RISK_POLICY["likelihood_bands"] == [0.2, 0.4, 0.6, 0.8]
-    assert (DEFAULT_RISK_POLICY["review"], DEFAULT_RISK_POLICY["unacceptable"]) == (10, 17)
-    assert resolve_policy({"review": 8})["is_example"] is False
+    assert DEFAULT_RISK_POLICY["frequency_bands"] == [10, 1, 0.1, 0.01]
+    assert resolve_policy({"frequency_bands": [5, 1, 0.1, 0.01]})["is_example"] is False
+    # The score thresholds of revision 1 no longer set a band: a policy of them alone is
+    # still the example.
+    assert resolve_policy({"review": 8})["is_example"] is True
 
 
 @pytest.mark.parametrize(
@@ -165,41 +172,98 @@ def test_likelihood_bands_of_the_default_policy(likelihood, band):
     assert likelihood_band(likelihood, POLICY) == band
 
 
+#: The example matrix written out by hand from its rule (methods document,
+#: #handover-risk): unacceptable where frequent and severity >= 3, probable or more and
+#: severity >= 4, or occasional or more and severity 5; acceptable where improbable,
+#: where remote and severity <= 3, or severity 1; review otherwise.
+BY_HAND = {
+    "frequent": ["acceptable", "review", "unacceptable", "unacceptable", "unacceptable"],
+    "probable": ["acceptable", "review", "review", "unacceptable", "unacceptable"],
+    "occasional": ["acceptable", "review", "review", "review", "unacceptable"],
+    "remote": ["acceptable", "acceptable", "acceptable", "review", "review"],
+    "improbable": ["acceptable"] * 5,
+}
+
+
+@pytest.mark.parametrize("frequency", list(BY_HAND))
+@pytest.mark.parametrize("severity", [1, 2, 3, 4, 5])
+def test_every_cell_of_the_example_matrix(frequency, severity):
+    assert matrix_band(frequency, severity, POLICY) == BY_HAND[frequency][severity - 1]
+
+
 @pytest.mark.parametrize(
-    ("severity", "band", "verdict"),
-    # risk = severity x band; review from 10, unacceptable from 17 (default example):
-    # 1x5 = 5, 3x3 = 9, 4x2 = 8 acceptable; 2x5 = 10, 3x5 = 15, 4x4 = 16 review;
-    # 4x5 = 20, 5x4 = 20, 5x5 = 25 unacceptable.
+    ("per_year", "name"),
+    # Cuts at 10, 1, 0.1, 0.01 a year; a cut belongs to the band above it.
     [
-        (1, 5, "acceptable"),
-        (3, 3, "acceptable"),
-        (4, 2, "acceptable"),
-        (2, 5, "review"),
-        (3, 5, "review"),
-        (4, 4, "review"),
-        (4, 5, "unacceptable"),
-        (5, 4, "unacceptable"),
-        (5, 5, "unacceptable"),
+        (50, "frequent"),
+        (10, "frequent"),
+        (9.99, "probable"),
+        (1, "probable"),
+        (0.5, "occasional"),
+        (0.1, "occasional"),
+        (0.05, "remote"),
+        (0.01, "remote"),
+        (0.009, "improbable"),
+        (0, "improbable"),
     ],
 )
-def test_risk_bands_of_the_default_policy(severity, band, verdict):
-    assert risk_band(severity * band, POLICY) == verdict
+def test_frequency_bands_of_the_default_policy(per_year, name):
+    assert frequency_band(per_year, POLICY) == name
+
+
+def test_equal_factors_a_hundred_times_apart_in_frequency_land_in_different_bands():
+    """Two handovers with the same factors (likelihood 0.5 from the time factor alone),
+    severity 4; one happens once a day, the other once in a hundred days.
+
+    Daily: 1 x 365 x 0.5 = 182.5 a year, frequent -> unacceptable (score 4 x 5 = 20).
+    Rare: 0.01 x 365 x 0.5 = 1.825 a year, probable -> unacceptable too at severity 4, so
+    at severity 3: daily frequent -> unacceptable, rare probable -> review.
+    """
+    assumptions = resolve_assumptions(
+        {
+            "likelihood_weights": {
+                "time": 0.5,
+                "load": 0,
+                "cue": 0,
+                "automation_initiated": 0,
+                "awareness": 0,
+            }
+        }
+    )
+    common = {
+        "receiver_is_human": True,
+        "time_ratio": 1.0,
+        "receiver_load": 0.0,
+        "awareness": 0.0,
+        "severity": 3,
+        "assumptions": assumptions,
+        "policy": POLICY,
+    }
+    daily = HandoverSite("link", "A", "B", "pump", "pat", 1.0, "display", "human")
+    rare = HandoverSite("link", "A", "B", "pump", "pat", 0.01, "display", "human")
+    first, second = assess_handover(daily, **common), assess_handover(rare, **common)
+    assert first.likelihood == second.likelihood == pytest.approx(0.5)
+    assert first.frequency_per_year == pytest.approx(182.5)
+    assert second.frequency_per_year == pytest.approx(1.825)
+    assert (first.frequency_band, first.band, first.risk) == ("frequent", "unacceptable", 15)
+    assert (second.frequency_band, second.band, second.risk) == ("probable", "review", 12)
 
 
 def test_a_study_policy_moves_the_bands():
     policy = resolve_policy(
-        {"likelihood_bands": [0.1, 0.2, 0.3, 0.4], "review": 4, "unacceptable": 6}
+        {
+            "likelihood_bands": [0.1, 0.2, 0.3, 0.4],
+            "frequency_bands": [100, 10, 1, 0.1],
+            "band_matrix": {**DEFAULT_RISK_POLICY["band_matrix"], "probable": ["review"] * 5},
+        }
     )
     assert likelihood_band(0.25, policy) == 3
-    assert [risk_band(r, policy) for r in (3, 4, 5, 6)] == [
-        "acceptable",
-        "review",
-        "review",
-        "unacceptable",
-    ]
-
-
-# -- monotonicity: stronger cues ------------------------------------------------------
+    assert frequency_band(50, policy) == "probable"
+    assert matrix_band("probable", 1, policy) == "review"
+    # A matrix given in part keeps the example's other rows.
+    partial = resolve_policy({"band_matrix": {"remote": ["review"] * 5}})
+    assert matrix_band("remote", 1, partial) == "review"
+    assert matrix_band("frequent", 5, partial) == "unacceptable"
 
 
 def test_the_default_cue_weakness_falls_with_cue_strength():
