@@ -311,6 +311,8 @@ class AssignmentFields(models.Model):
     # How the accountable person keeps watch, as the study file writes it; null: the
     # default style.
     monitoring = models.JSONField(null=True, blank=True)
+    # On a task not done under the plan: its chain goes on without it.
+    pass_through = models.BooleanField(default=False)
     position = models.PositiveIntegerField(default=0)
     # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.

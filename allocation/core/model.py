@@ -233,6 +233,8 @@ class Assignment:
     applies: bool | None = None
     # ``None``: the default style (each with an alert, otherwise periodic once a day).
     monitoring: Monitoring | None = None
+    # ``True`` on a task not done under the plan: its chain goes on without it.
+    pass_through: bool | None = None
 
     @property
     def is_applicable(self) -> bool:

@@ -913,18 +913,24 @@ class StudyReader:
                 "rationale",
                 "applies",
                 "monitoring",
+                "pass_through",
             ),
         )
         if data is None:
             return None
         applies = self.optional(data, "applies", path, self.applies)
         if applies is False:
-            for key in sorted(set(data) - {"applies", "rationale", "status"}):
+            for key in sorted(set(data) - {"applies", "rationale", "status", "pass_through"}):
                 self.error(
                     child_path(path, key),
                     "goes only with a task that applies; "
                     'an assignment with "applies": false names no one',
                 )
+        elif "pass_through" in data:
+            self.error(
+                child_path(path, "pass_through"),
+                'goes only with "applies": false (a task not done whose chain goes on)',
+            )
         elif "human" not in data and "automation" not in data:
             self.error(
                 path,
@@ -948,7 +954,17 @@ class StudyReader:
             rationale=self.optional(data, "rationale", path, self.note),
             applies=applies,
             monitoring=self.optional(data, "monitoring", path, self.monitoring),
+            pass_through=self.optional(data, "pass_through", path, self.pass_through),
         )
+
+    def pass_through(self, value: Any, path: str) -> bool | None:
+        if value is not True:
+            self.error(
+                path,
+                f"can only be true (the chain goes on without the task), not {json.dumps(value)}",
+            )
+            return None
+        return True
 
     def monitoring(self, value: Any, path: str) -> Monitoring | None:
         """How the accountable person keeps watch: ``"each"``, ``"exception"``, or

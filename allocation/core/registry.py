@@ -508,6 +508,14 @@ FINDING_KINDS: dict[str, FindingKind] = _kinds(
         "finding-window-missed",
     ),
     K(
+        "chain_cut",
+        "Chain cut",
+        "A task not done in the plan takes away the tasks only it starts, and the work "
+        "that goes with them.",
+        "the highest severity among the tasks cut",
+        "finding-chain-cut",
+    ),
+    K(
         "uncued_change",
         "Change without a cue",
         "The device changes mode by itself with nothing to tell the person, and who does "

@@ -149,6 +149,7 @@ def assignment_to_json(assignment: Assignment) -> dict[str, Any]:
             "rationale": assignment.rationale,
             "applies": assignment.applies,
             "monitoring": monitoring_to_json(assignment.monitoring),
+            "pass_through": assignment.pass_through,
         }
     )
 

@@ -20,6 +20,7 @@ import pandas as pd
 from allocation.core.assumptions import assumption_table
 from allocation.core.cautions import CAUTIONS
 from allocation.core.methods import methods_document
+from allocation.core.model import Assignment
 from allocation.core.monitoring import monitoring_cell
 from allocation.core.needs import needs_text
 from allocation.core.registry import (
@@ -34,6 +35,7 @@ from allocation.core.scales import level_text
 from allocation.core.spreadsheets.layout import (
     ALLOCATION_COLUMNS,
     LINK_COLUMNS,
+    PASS_THROUGH_WORDS,
     SHEETS,
     TASK_COLUMNS,
 )
@@ -214,7 +216,7 @@ def allocation_rows(source: ExportSource) -> list[dict[str, Any]]:
             ),
             "rationale": (assignment and assignment.rationale) or "",
             "status": (assignment and assignment.status) or "",
-            "applies": "no" if assignment is not None and not assignment.is_applicable else "yes",
+            "applies": _applies_words(assignment),
             "occurrences_per_day": _rounded("occurrences_per_day", figures.per_day),
             "person_s_per_day": _rounded(
                 "person_s_per_day", sum(figures.person_s_per_day.values())
@@ -406,3 +408,10 @@ def sheet_tables(source: ExportSource) -> dict[str, pd.DataFrame]:
         "methods": methods_table(),
         "cautions": pd.DataFrame([[CAUTIONS]]),
     }
+
+
+def _applies_words(assignment: Assignment | None) -> str:
+    """The applies cell: yes, no, or no with the chain going on (as the import reads)."""
+    if assignment is None or assignment.is_applicable:
+        return "yes"
+    return PASS_THROUGH_WORDS if assignment.pass_through else "no"

@@ -58,6 +58,7 @@ class AssignmentForm(TextForm):
         required=False, choices=optional_choices(ASSIGNMENT_STATUS_WORDS, "—")
     )
     rationale = forms.CharField(required=False, max_length=2000)
+    pass_through = forms.BooleanField(required=False)
     monitoring = forms.ChoiceField(required=False, choices=MONITORING_CHOICES)
     monitoring_amount = forms.CharField(required=False, max_length=32)
 
@@ -108,6 +109,8 @@ class AssignmentForm(TextForm):
                 )
             },
         }
+        if item.get("pass_through"):
+            initial["pass_through"] = True
         monitoring = item.get("monitoring")
         if isinstance(monitoring, str):
             initial["monitoring"] = monitoring
@@ -131,6 +134,10 @@ class AssignmentForm(TextForm):
             self.add_error("human", "Choose the person who does it.")
         if who in ("device", "shared") and not data.get("automation"):
             self.add_error("automation", "Choose the device that does it.")
+        if data.get("pass_through") and who != "not_applicable":
+            self.add_error(
+                "pass_through", "Only a task not done in this plan can let its chain go on."
+            )
         self._clean_monitoring(data)
         return data
 
@@ -177,6 +184,8 @@ class AssignmentForm(TextForm):
         item: dict[str, Any] = {}
         if who == "not_applicable":
             item["applies"] = False
+            if data.get("pass_through"):
+                item["pass_through"] = True
         else:
             if who in ("person", "shared") and data["human"]:
                 item["human"] = data["human"]

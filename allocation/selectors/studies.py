@@ -295,6 +295,7 @@ def _assignment(row: m.AssignmentFields) -> dict[str, Any]:
             "rationale": row.rationale,
             "applies": None if row.applies else False,
             "monitoring": row.monitoring,
+            "pass_through": True if row.pass_through else None,
         }
     )
 

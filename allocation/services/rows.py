@@ -93,6 +93,7 @@ def assignment_values(item: dict[str, Any], agents: dict[str, m.Agent]) -> dict[
         "rationale": item.get("rationale", ""),
         "applies": item.get("applies", True),
         "monitoring": item.get("monitoring"),
+        "pass_through": bool(item.get("pass_through", False)),
     }
 
 

@@ -195,3 +195,29 @@ def test_a_bad_monitoring_amount_is_refused_beside_its_field(client, study, owne
         )
         assert words in response.content.decode(), style
     assert selectors.study_document(study) == before
+
+
+def test_a_task_not_done_may_let_its_chain_go_on(client, study, owner):
+    client.force_login(owner)
+    response = client.post(
+        row_url(study.pk, "manual", "T2"),
+        {"who": "not_applicable", "pass_through": "on"},
+        headers={"HX-Request": "true"},
+    )
+    stored = selectors.study_document(study)["plans"][0]["assignments"]["T2"]
+    assert stored == {"applies": False, "pass_through": True}
+    assert 'name="pass_through" form="f-T2" checked' in response.content.decode()
+
+
+def test_only_a_task_not_done_can_let_its_chain_go_on(client, study, owner):
+    client.force_login(owner)
+    before = selectors.study_document(study)
+    response = client.post(
+        row_url(study.pk, "manual", "T2"),
+        {"who": "person", "human": "resident", "pass_through": "on"},
+        headers={"HX-Request": "true"},
+    )
+    assert "Only a task not done in this plan can let its chain go on." in (
+        response.content.decode()
+    )
+    assert selectors.study_document(study) == before

@@ -728,3 +728,39 @@ def test_a_lone_surrogate_in_a_csv_is_refused_with_its_line(study):
     read = read_tables(Upload("s.csv", data))
     assert [(p.sheet, p.row) for p in read.problems] == [("file", 2)]
     assert "lone surrogate" in read.problems[0].message
+
+
+def test_a_task_whose_chain_goes_on_and_a_monitoring_style_read_from_cells(study):
+    """The applies cell "no, chain goes on" and the monitoring cell as the export writes
+    them; a plain "no" afterwards drops the pass-through."""
+    data = csv_file(
+        [
+            allocation_row(
+                task="T1", automation="thermostat", accountable="resident", monitoring="periodic 2"
+            ),
+            allocation_row(task="T2", category="not_applicable", applies="no, chain goes on"),
+        ]
+    )
+    proposal = propose(selectors.study_document(study), "auto", Upload("a.csv", data))
+    assignments = proposal.document["plans"][1]["assignments"]
+    assert assignments["T1"]["monitoring"] == {"style": "periodic", "per_day": 2}
+    assert assignments["T2"] == {"applies": False, "pass_through": True}
+    again = csv_file([allocation_row(task="T2", category="not_applicable", applies="no")])
+    proposal = propose(proposal.document, "auto", Upload("b.csv", again))
+    assert proposal.document["plans"][1]["assignments"]["T2"] == {"applies": False}
+
+
+@pytest.mark.skipif(not EXPORTS, reason="allocation.exports is not there yet")
+def test_a_pass_through_exports_and_imports_back_unchanged(study, owner):
+    from allocation import exports
+
+    document = selectors.study_document(study)
+    document["plans"][1]["assignments"]["T2"] = {"applies": False, "pass_through": True}
+    document["study"]["id"] = "heating-through"
+    row = services.study_import(data=document, owner=owner)
+    data = exports.export_bytes(exports.export_source(row, "auto"), "csv")
+    assert b"no, chain goes on" in data
+    preview = services.spreadsheet_preview(
+        study=row, plan_key="auto", upload=Upload("auto.csv", data)
+    )
+    assert preview.problems == [] and preview.changes.empty

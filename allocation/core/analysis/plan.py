@@ -24,6 +24,7 @@ from ..graph import precedence_order
 from ..model import Lag, Plan, Study
 from ..vocabulary import STAGES
 from .awareness import Awareness, awareness
+from .chaincut import chain_cut_findings
 from .chains import ChainTiming, Span, TaskTiming, chain_timings, response_latency
 from .coherence import Coherence, coherence
 from .findings import Finding, accountability_findings, capability_findings
@@ -258,8 +259,9 @@ class _Analysis:
         holders = {task_id: normal[task_id].principal for task_id in leaves}
 
         def applies(task_id: str) -> bool:
+            # A task not done stops its chain, unless the plan lets the chain go on.
             assignment = plan.assignments.get(task_id)
-            return assignment is None or assignment.is_applicable
+            return assignment is None or assignment.is_applicable or bool(assignment.pass_through)
 
         counted = occurrences(
             study, graph.successors, graph.position, applies, self.assumptions["every_days_when"]
@@ -267,6 +269,8 @@ class _Analysis:
 
         def duration(task_id: str):
             assignment = normal[task_id].assignment
+            if assignment is not None and not assignment.is_applicable:
+                return None  # a step the chain passes through in no time
             if assignment is not None and assignment.duration_s is not None:
                 return assignment.duration_s
             return study.task(task_id).duration_s
@@ -300,7 +304,8 @@ class _Analysis:
         handovers = self.handovers(
             [site for site in sites if self.involves_a_person(site)], tasks, people
         )
-        findings = self.findings(normal, chains)
+        findings = self.findings(normal, chains) + self.chain_cuts(tasks, counted)
+        findings.sort(key=lambda f: (-f.severity, f.kind, f.tasks))
         return PlanAnalysis(
             study=study,
             plan=plan,
@@ -629,6 +634,34 @@ class _Analysis:
         return assessed
 
     # -- findings -------------------------------------------------------------------
+
+    def chain_cuts(self, tasks: dict[str, TaskFigures], counted: Occurrences) -> list[Finding]:
+        """The tasks each task not done takes away (methods document,
+        ``#finding-chain-cut``): occurrences counted again as if every such task let
+        its chain go on."""
+        stopped = [
+            task_id
+            for task_id, assignment in self.plan.assignments.items()
+            if task_id in tasks and not assignment.is_applicable and not assignment.pass_through
+        ]
+        if not stopped:
+            return []
+        graph = self.graph
+        through = occurrences(
+            self.study,
+            graph.successors,
+            graph.position,
+            lambda _task_id: True,
+            self.assumptions["every_days_when"],
+        )
+        return chain_cut_findings(
+            self.study,
+            stopped,
+            counted.per_day,
+            through.per_day,
+            graph.successors,
+            lambda task_id: tasks[task_id].person_s,
+        )
 
     def findings(self, normal: dict[str, Involvement], chains: list[ChainTiming]):
         study = self.study

@@ -7,7 +7,7 @@ One module, so that the exports (``allocation.exports``) and the spreadsheet imp
 
 from __future__ import annotations
 
-__all__ = ["ALLOCATION_COLUMNS", "LINK_COLUMNS", "SHEETS", "TASK_COLUMNS"]
+__all__ = ["ALLOCATION_COLUMNS", "LINK_COLUMNS", "PASS_THROUGH_WORDS", "SHEETS", "TASK_COLUMNS"]
 
 #: The sheets of a plan's workbook, in order.
 SHEETS = (
@@ -68,3 +68,6 @@ TASK_COLUMNS = (
 
 #: The links sheet.
 LINK_COLUMNS = ("from", "to", "kind", "lag_s", "probability", "notes")
+
+#: The allocation table's applies cell of a task not done whose chain goes on.
+PASS_THROUGH_WORDS = "no, chain goes on"

@@ -38,7 +38,12 @@ from allocation.core import limits, load_study
 from allocation.core.monitoring import parse_monitoring_cell
 from allocation.core.needs import parse_needs
 from allocation.core.reading import parse_json_text
-from allocation.core.spreadsheets.layout import ALLOCATION_COLUMNS, LINK_COLUMNS, TASK_COLUMNS
+from allocation.core.spreadsheets.layout import (
+    ALLOCATION_COLUMNS,
+    LINK_COLUMNS,
+    PASS_THROUGH_WORDS,
+    TASK_COLUMNS,
+)
 from allocation.core.vocabulary import STAGES
 
 __all__ = [
@@ -799,7 +804,8 @@ def _levels(value: Any) -> int | dict[str, int] | None:
     return levels
 
 
-def _applies(value: Any) -> bool:
+def _applies(value: Any) -> bool | str:
+    """Yes, no, or "no, chain goes on" (not done, its chain going on: ``"pass"``)."""
     if value is None or value is True:
         return True
     if value is False:
@@ -809,7 +815,9 @@ def _applies(value: Any) -> bool:
         return True
     if text in ("no", "n", "false"):
         return False
-    raise _CellError(f"{value!r} is not yes or no")
+    if text == PASS_THROUGH_WORDS:
+        return "pass"
+    raise _CellError(f"{value!r} is not yes, no or {PASS_THROUGH_WORDS!r}")
 
 
 _TASK_CELLS = {
@@ -1082,10 +1090,12 @@ def _apply_assignments(
             )
             continue
         existing = assignments.get(task_id, {})
-        applies = values.pop("applies", existing.get("applies", True))
+        kept = "pass" if existing.get("pass_through") else existing.get("applies", True)
+        applies = values.pop("applies", kept)
         merged = _with(existing, values, _ASSIGNMENT_FIELDS)
         merged.pop("applies", None)
-        if not applies:
+        merged.pop("pass_through", None)
+        if applies is not True:
             # Not done under the plan: keep what the row gives and the words kept from
             # before (an agent the row names is the core's to refuse).
             merged = {
@@ -1094,6 +1104,8 @@ def _apply_assignments(
                 if key in values or key in ("rationale", "status")
             }
             merged["applies"] = False
+            if applies == "pass":
+                merged["pass_through"] = True
         elif "human" not in merged and "automation" not in merged:
             # Not allocated: the row's other cells have nothing to belong to.
             assignments.pop(task_id, None)
