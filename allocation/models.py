@@ -119,6 +119,9 @@ class Agent(models.Model):
     capabilities = models.JSONField(null=True, blank=True)
     asleep_from = models.CharField(max_length=8, blank=True)
     asleep_to = models.CharField(max_length=8, blank=True)
+    # Duty hours of a person ("" when always available).
+    on_duty_from = models.CharField(max_length=8, blank=True)
+    on_duty_to = models.CharField(max_length=8, blank=True)
     response_s = models.JSONField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)

@@ -128,6 +128,11 @@ class _Checker:
                     child_path(path, "asleep"),
                     f"only a human has an asleep window; {agent.id} is an automation",
                 )
+            if agent.on_duty is not None and not agent.is_human:
+                self.error(
+                    child_path(path, "on_duty"),
+                    f"only a human has duty hours; {agent.id} is an automation",
+                )
             keys = set(agent.response_s or {})
             if not agent.is_human and keys - {"any"}:
                 self.error(

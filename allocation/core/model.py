@@ -95,6 +95,8 @@ class Agent:
     asleep: tuple[str, str] | None = None
     response_s: dict[str, Range] | None = None
     notes: str | None = None
+    # A person's duty hours (from, to): work reaching them outside waits for the start.
+    on_duty: tuple[str, str] | None = None
 
     @property
     def is_human(self) -> bool:

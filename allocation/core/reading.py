@@ -644,7 +644,10 @@ class StudyReader:
 
     def agent(self, value: Any, path: str) -> Agent | None:
         data = self.obj(
-            value, path, ("id", "name", "kind"), ("capabilities", "asleep", "response_s", "notes")
+            value,
+            path,
+            ("id", "name", "kind"),
+            ("capabilities", "asleep", "on_duty", "response_s", "notes"),
         )
         if data is None or "id" not in data:
             return None
@@ -660,6 +663,8 @@ class StudyReader:
             asleep=self.optional(data, "asleep", path, self.asleep),
             response_s=self.optional(data, "response_s", path, self.response),
             notes=self.optional(data, "notes", path, self.note),
+            # Duty hours are [from, to] like the asleep window.
+            on_duty=self.optional(data, "on_duty", path, self.asleep),
         )
 
     def asleep(self, value: Any, path: str) -> tuple[str, str] | None:

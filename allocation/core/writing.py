@@ -73,6 +73,7 @@ def agent_to_json(agent: Agent) -> dict[str, Any]:
             "kind": agent.kind,
             "capabilities": _listed(agent.capabilities),
             "asleep": _listed(agent.asleep),
+            "on_duty": _listed(agent.on_duty),
             "response_s": None
             if agent.response_s is None
             else {key: value.to_json() for key, value in agent.response_s.items()},

@@ -48,6 +48,12 @@ class AgentForm(ItemForm):
         required=False, label="asleep to", widget=forms.TimeInput(attrs={"type": "time"})
     )
     awake_low, awake_typical, awake_high = range_fields("response awake (s)")
+    on_duty_from = forms.CharField(
+        required=False, label="on duty from", widget=forms.TimeInput(attrs={"type": "time"})
+    )
+    on_duty_to = forms.CharField(
+        required=False, label="on duty to", widget=forms.TimeInput(attrs={"type": "time"})
+    )
     sleeping_low, sleeping_typical, sleeping_high = range_fields("response asleep (s)")
     any_low, any_typical, any_high = range_fields("response (s)")
     notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
@@ -58,6 +64,7 @@ class AgentForm(ItemForm):
         ("Kind", "kind", ("kind",)),
         ("Capabilities", "capabilities", ("capabilities",)),
         ("Asleep (people)", "asleep", ("asleep_from", "asleep_to")),
+        ("On duty (people; blank: always)", "on_duty", ("on_duty_from", "on_duty_to")),
         (
             "Response when awake, s (min, typical, max)",
             "response_s",
@@ -82,6 +89,8 @@ class AgentForm(ItemForm):
         initial["capabilities"] = ", ".join(item.get("capabilities") or [])
         if item.get("asleep"):
             initial["asleep_from"], initial["asleep_to"] = item["asleep"]
+        if item.get("on_duty"):
+            initial["on_duty_from"], initial["on_duty_to"] = item["on_duty"]
         for key, prefix in (("awake", "awake"), ("asleep", "sleeping"), ("any", "any")):
             value = (item.get("response_s") or {}).get(key)
             if isinstance(value, list):
@@ -107,6 +116,8 @@ class AgentForm(ItemForm):
             item["capabilities"] = comma_words(data["capabilities"])
         if data["asleep_from"] or data["asleep_to"]:
             item["asleep"] = [data["asleep_from"][:5], data["asleep_to"][:5]]
+        if data["on_duty_from"] or data["on_duty_to"]:
+            item["on_duty"] = [data["on_duty_from"][:5], data["on_duty_to"][:5]]
         response: dict[str, Any] = {}
         for key, prefix in (("awake", "awake"), ("asleep", "sleeping"), ("any", "any")):
             self._range(prefix, key, response)

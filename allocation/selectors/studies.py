@@ -228,6 +228,7 @@ def _agent(agent: m.Agent) -> dict[str, Any]:
             "kind": agent.kind,
             "capabilities": agent.capabilities,
             "asleep": [agent.asleep_from, agent.asleep_to] if agent.asleep_from else None,
+            "on_duty": [agent.on_duty_from, agent.on_duty_to] if agent.on_duty_from else None,
             "response_s": agent.response_s,
             "notes": agent.notes,
         }

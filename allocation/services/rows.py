@@ -26,6 +26,7 @@ def header_values(item: dict[str, Any]) -> dict[str, Any]:
 
 def agent_values(item: dict[str, Any]) -> dict[str, Any]:
     asleep = item.get("asleep") or ["", ""]
+    on_duty = item.get("on_duty") or ["", ""]
     return {
         "key": item["id"],
         "name": item["name"],
@@ -33,6 +34,8 @@ def agent_values(item: dict[str, Any]) -> dict[str, Any]:
         "capabilities": item.get("capabilities"),
         "asleep_from": asleep[0],
         "asleep_to": asleep[1],
+        "on_duty_from": on_duty[0],
+        "on_duty_to": on_duty[1],
         "response_s": item.get("response_s"),
         "notes": item.get("notes", ""),
     }

@@ -103,3 +103,22 @@ def test_new_study_from_the_list_page(client, owner):
         reverse("study-new"), {"id": "night-watch", "title": "Night watch", "scale": "sv10"}
     )
     assert response.status_code == 302 and response["Location"].endswith("/inventory")
+
+
+def test_duty_hours_are_saved_from_the_agent_form_and_shown(client, study, owner):
+    client.force_login(owner)
+    url = item_url(study.pk, "agents", "resident")
+    page = client.get(url).content.decode()
+    assert 'name="on_duty_from"' in page
+    data = {
+        "id": "resident",
+        "name": "Resident",
+        "kind": "human",
+        "on_duty_from": "08:00",
+        "on_duty_to": "18:00",
+    }
+    client.post(url, data)
+    agent = selectors.study_document(study)["agents"][0]
+    assert agent["on_duty"] == ["08:00", "18:00"]
+    listing = client.get(reverse("study-inventory", args=[study.pk])).content.decode()
+    assert "08:00–18:00" in listing

@@ -38,6 +38,7 @@ from typing import Any, NamedTuple
 
 from ..graph import Trigger
 from ..model import Lag, Range, Study
+from .duty import duty_wait
 from .occurrences import Occurrences
 from .timeofday import asleep_intervals
 
@@ -206,6 +207,7 @@ def chain_timings(
     """
     default_human = assumptions["default_response_s"]
     sleep_of = {agent.id: asleep_intervals(agent) for agent in study.humans}
+    duty_of = {agent.id: agent.on_duty for agent in study.humans if agent.on_duty}
     chains = []
     for trigger_id, timing in occurrences.timings.items():
         members = {
@@ -225,6 +227,20 @@ def chain_timings(
             if key not in _cache:
                 pieces = sleep_of.get(agent_id or "", [])
                 day = _timing.timing
+                duty = duty_of.get(agent_id or "")
+                if duty is not None:
+                    # Off duty the work waits for the next duty start; on duty the person
+                    # answers awake (methods document, #duty-hours).
+                    awake = response_latency(study, agent_id, 0.0, default_human, 0.0)
+                    _off, typical_wait, _longest = duty_wait(day.shifted(after.typical), duty)
+                    _off, mean_wait, longest = duty_wait(day.shifted(after.mean), duty)
+                    _cache[key] = Span(
+                        awake.low,
+                        awake.typical + typical_wait,
+                        awake.high + longest,
+                        awake.mean + mean_wait,
+                    )
+                    return _cache[key]
                 share = day.shifted(after.typical).share_within(pieces) if pieces else 0
                 mean_share = day.shifted(after.mean).share_within(pieces) if pieces else 0
                 _cache[key] = response_latency(study, agent_id, share, default_human, mean_share)

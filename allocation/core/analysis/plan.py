@@ -27,6 +27,7 @@ from .awareness import Awareness, awareness
 from .chaincut import chain_cut_findings
 from .chains import ChainTiming, Span, TaskTiming, chain_timings, response_latency
 from .coherence import Coherence, coherence
+from .duty import on_duty_pieces
 from .findings import Finding, accountability_findings, capability_findings
 from .handovers import Handover, HandoverSite, assess_handover, time_budget_ratio
 from .involvement import Involvement, involvement
@@ -129,6 +130,9 @@ class TaskFigures:
     asleep_share: dict[str, float]
     awareness: Awareness | None = None
     ready_s: float = 0.0
+    #: People with duty hours: the share of the task's work that reaches them on duty,
+    #: and on duty inside their asleep window (methods document, #duty-hours).
+    duty_share: dict[str, tuple[float, float]] = field(default_factory=dict)
 
     @property
     def person_s(self) -> float:
@@ -434,8 +438,29 @@ class _Analysis:
                 person_s_per_day={},
                 asleep_share=asleep_share,
                 ready_s=ready,
+                duty_share=self.duty_shares(starts[task_id], total, holders[task_id]),
             )
         return tasks
+
+    def duty_shares(self, starts, total: float, holder: str | None):
+        """For each person with duty hours, the share of the task's work that reaches
+        them on duty, and on duty while asleep: the holder is reached when the work is
+        ready, anyone else (a monitor) when it starts."""
+        shares: dict[str, tuple[float, float]] = {}
+        for agent in self.study.humans:
+            if agent.on_duty is None or not total:
+                continue
+            on = on_duty_pieces(agent.on_duty)
+            night = _overlap(on, asleep_intervals(agent))
+            reached = on_share = night_share = 0.0
+            for weight, timing, day in starts:
+                moment = timing.ready.mean if agent.id == holder else timing.start.mean
+                moved = day.shifted(moment)
+                on_share += weight * moved.share_within(on)
+                night_share += weight * (moved.share_within(night) if night else 0.0)
+                reached += weight
+            shares[agent.id] = (on_share / reached, night_share / reached)
+        return shares
 
     def people_figures(self, tasks: dict[str, TaskFigures], mixes) -> dict[str, PersonFigures]:
         people = {}
@@ -461,10 +486,12 @@ class _Analysis:
                     person = people[human]
                     person.interactions_per_day += rate
                     if is_interruption(involved, figures.initiator, human):
-                        person.interruptions_per_day += rate
-                        person.night_interruptions_per_day += rate * figures.asleep_share.get(
-                            human, 0.0
+                        # Work reaching a person off duty waits: not an interruption.
+                        on, night = figures.duty_share.get(
+                            human, (1.0, figures.asleep_share.get(human, 0.0))
                         )
+                        person.interruptions_per_day += rate * on
+                        person.night_interruptions_per_day += rate * night
             self.add_looks(task_id, figures, people)
         return people
 

@@ -94,6 +94,8 @@ class ChunkDraw:
     mode_index: np.ndarray
     # Periodic looks and exception flags: one row each (see :func:`_looks`)
     looks: Looks | None = None
+    # When the work reached its holder (ready; the start adds their latency)
+    reached: np.ndarray | None = None
 
 
 @dataclass
@@ -238,6 +240,20 @@ def _latency(
         mine = who == a
         if mine.any():
             asleep[mine] = in_intervals(moment[rows][mine] % DAY_S, sim.asleep[a])
+    duty_wait = np.zeros(rows.size)
+    for a, pieces in enumerate(sim.off_duty):
+        mine = who == a
+        if not pieces or not mine.any():
+            continue
+        # Off duty the work waits for the next duty start; on duty they answer awake
+        # (methods document, #duty-hours).
+        asleep[mine] = False
+        clock = moment[rows][mine] % DAY_S
+        waits = np.zeros(clock.size)
+        for low, high, next_start in pieces:
+            inside = (clock >= low) & (clock < high)
+            waits[inside] = next_start - clock[inside]
+        duty_wait[mine] = waits
     if np.all(who == who[0]):
         # One agent (the common case): draw awake and asleep latencies from its rows.
         low, mode, high = sim.latency_awake[who[0]]
@@ -245,10 +261,10 @@ def _latency(
         if asleep.any():
             low, mode, high = sim.latency_asleep[who[0]]
             awake[asleep] = triangular(rng, low, mode, high, int(asleep.sum()))
-        wait[rows] = awake
+        wait[rows] = awake + duty_wait
         return wait
     table = np.where(asleep[:, None], sim.latency_asleep[who], sim.latency_awake[who])
-    wait[rows] = triangular(rng, table[:, 0], table[:, 1], table[:, 2])
+    wait[rows] = triangular(rng, table[:, 0], table[:, 1], table[:, 2]) + duty_wait
     return wait
 
 
@@ -262,7 +278,7 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
     opens, closes = first_day * DAY_S, (first_day + days) * DAY_S
     mode_times, mode_index = _mode_path(sim, rng, first_day - lead, days + lead)
     parts: dict[str, list[np.ndarray]] = {
-        key: [] for key in ("task", "variant", "begin", "start", "finish", "duration")
+        key: [] for key in ("task", "variant", "begin", "reached", "start", "finish", "duration")
     }
     happenings_count, missed_count = [], []
     window_counts: dict[tuple[int, int], tuple[int, int]] = {}
@@ -354,6 +370,7 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
             parts["task"].append(np.full(size, task))
             parts["variant"].append(variant)
             parts["begin"].append(begin[rows])
+            parts["reached"].append(at)
             parts["start"].append(start)
             parts["finish"].append(done)
             parts["duration"].append(took)
@@ -374,6 +391,7 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
         variant=variant,
         day=(np.floor(joined["start"] / DAY_S) - first_day).astype(int),
         begin=joined["begin"],
+        reached=joined["reached"],
         start=joined["start"],
         finish=joined["finish"],
         duration=joined["duration"],

@@ -92,6 +92,15 @@ def chunk_figures(sim: SimPlan, draw: ChunkDraw) -> dict[str, dict[str, np.ndarr
         involved = sim.interacts[variant, p]
         interrupting = sim.interrupts[variant, p]
         night = interrupting & in_intervals(draw.start % DAY_S, sim.human_asleep[p])
+        off_duty = sim.human_off_duty[p]
+        if off_duty and draw.reached is not None:
+            # Work reaching them off duty waits: not an interruption; at night, one that
+            # reaches them on duty while asleep (methods document, #duty-hours).
+            holding = sim.holder[variant] == sim.agents.index(human)
+            reached = np.where(holding, draw.reached, draw.start) % DAY_S
+            off = in_intervals(reached, [(low, high) for low, high, _next in off_duty])
+            interrupting = interrupting & ~off
+            night = interrupting & in_intervals(reached, sim.human_asleep[p])
         figures = {
             "burden_s": _per_day(draw.day, seconds, days),
             "monitoring_s": _per_day(draw.day, watching, days),

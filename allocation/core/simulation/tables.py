@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 
 from ..analysis.chains import Span
+from ..analysis.duty import off_duty_pieces
 from ..analysis.involvement import Involvement, involvement
 from ..analysis.modes import assignment_in_mode
 from ..analysis.occurrences import TriggerTiming
@@ -99,6 +100,8 @@ class SimPlan:
     chains: list[ChainPlan] = field(default_factory=list)
     #: Periodic looks and exception flags: (task, human, per day, seconds each, interrupts).
     looks: list[tuple[int, int, float, float, bool]] = field(default_factory=list)
+    #: Per agent: off-duty stretches (from, to, next duty start); empty without hours.
+    off_duty: list[list[tuple[float, float, float]]] = field(default_factory=list)
     lead_days: int = 0
     bin_s: float = 900.0
     occupancy_limit: float = 0.8
@@ -115,6 +118,12 @@ class SimPlan:
     @property
     def human_asleep(self) -> list[list[tuple[float, float]]]:
         return [self.asleep[self.agents.index(h)] for h in self.humans]
+
+    @property
+    def human_off_duty(self) -> list[list[tuple[float, float, float]]]:
+        if not self.off_duty:
+            return [[] for _h in self.humans]
+        return [self.off_duty[self.agents.index(h)] for h in self.humans]
 
 
 def _rule(study: Study, trigger_timing: TriggerTiming, every_days_when: str) -> TriggerRule:
@@ -320,6 +329,10 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
     )
     sim.chains = _chains(study, analysis, graph, index, assumptions["every_days_when"])
     sim.looks = looks
+    sim.off_duty = [
+        off_duty_pieces(agent.on_duty) if agent.is_human and agent.on_duty else []
+        for agent in study.agents
+    ]
     # How many days the longest chain can run on (its latest finish, from the analysis).
     longest = max(
         (timing.finish.high for chain in analysis.chains for timing in chain.tasks), default=0.0
