@@ -52,6 +52,7 @@ from .model import (
     Task,
     Transition,
 )
+from .objective_file import OBJECTIVE_KEYS
 from .vocabulary import (
     AGENT_KINDS,
     ASSIGNMENT_STATUSES,
@@ -497,7 +498,7 @@ class StudyReader:
                 root["study"],
                 "$.study",
                 ("id", "title", "scale"),
-                ("description", "bin_s", "assumptions", "risk_policy"),
+                ("description", "bin_s", "assumptions", "risk_policy", "objective"),
             )
             if "study" in root
             else None
@@ -512,6 +513,17 @@ class StudyReader:
         bin_s = self.optional(header, "bin_s", path, self.bin_width)
         assumptions = self.optional(header, "assumptions", path, self.assumptions)
         risk_policy = self.optional(header, "risk_policy", path, self.risk_policy)
+        objective = self.optional(header, "objective", path, self.objective)
+        if objective:
+            # The objective's home in the file; the analyses read it with the other
+            # assumptions (methods document, #objective).
+            given = set(objective) & set(assumptions or {})
+            for key in sorted(given):
+                self.error(
+                    child_path(child_path(path, "assumptions"), key),
+                    "is given twice: here and in study.objective; keep it in study.objective",
+                )
+            assumptions = {**(assumptions or {}), **objective}
         # Agents first: upgrading a version 1 rate needs to know who sleeps.
         agents = self.entries(root, "agents", "$", self.agent)
         self.sleepers = [agent for agent in agents if agent.is_human and agent.asleep]
@@ -529,6 +541,24 @@ class StudyReader:
             links=self.entries(root, "links", "$", self.link),
             plans=self.entries(root, "plans", "$", self.plan),
         )
+
+    def objective(self, value: Any, path: str) -> dict[str, Any] | None:
+        """``{"weights": {...}, "reference": {...}}``: the study objective's weights and
+        reference points, as the assumptions ``objective_weights`` and
+        ``objective_reference``."""
+        data = self.obj(value, path, (), tuple(OBJECTIVE_KEYS))
+        if data is None:
+            return None
+        found = {}
+        for key, assumption in OBJECTIVE_KEYS.items():
+            if key not in data:
+                continue
+            problems = check_assumptions({assumption: data[key]})
+            for _name, message in problems:
+                self.error(child_path(path, key), message)
+            if not problems:
+                found[assumption] = data[key]
+        return found
 
     def bin_width(self, value: Any, path: str) -> int | float | None:
         """The workload bin, within ``SIMULATION_MIN_BIN_S`` and ``SIMULATION_MAX_BIN_S``:

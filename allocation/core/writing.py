@@ -22,6 +22,7 @@ from .model import (
     Task,
     Transition,
 )
+from .objective_file import split_objective
 from .reading import FORMAT_NAME, FORMAT_VERSION
 
 __all__ = ["study_to_json"]
@@ -42,6 +43,8 @@ def _range(value: Any) -> Any:
 
 def study_to_json(study: Study) -> dict[str, Any]:
     """The study as a JSON-ready dict in format version 2."""
+    # The objective's weights and reference points live in study.objective.
+    assumptions, objective = split_objective(study.assumptions)
     header = _compact(
         {
             "id": study.id,
@@ -49,8 +52,9 @@ def study_to_json(study: Study) -> dict[str, Any]:
             "description": study.description,
             "scale": study.scale,
             "bin_s": study.bin_s,
-            "assumptions": study.assumptions,
+            "assumptions": assumptions,
             "risk_policy": study.risk_policy,
+            "objective": objective,
         }
     )
     return {

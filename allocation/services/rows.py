@@ -10,6 +10,7 @@ from typing import Any
 
 from allocation import models as m
 from allocation.core.model import ANY_MODE
+from allocation.core.objective_file import objective_from_header
 
 
 def header_values(item: dict[str, Any]) -> dict[str, Any]:
@@ -19,7 +20,8 @@ def header_values(item: dict[str, Any]) -> dict[str, Any]:
         "description": item.get("description", ""),
         "scale": item["scale"],
         "bin_s": item.get("bin_s"),
-        "assumptions": item.get("assumptions"),
+        # The file's study.objective is kept with the assumptions.
+        "assumptions": objective_from_header(item),
         "risk_policy": item.get("risk_policy"),
     }
 

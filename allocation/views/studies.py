@@ -24,6 +24,7 @@ from allocation.core.describe import (
     task_outline,
 )
 from allocation.core.limits import PAGE_PROBLEMS
+from allocation.core.objective_file import with_objective
 from allocation.core.reading import parse_json_text
 from allocation.views.common import study_page
 from allocation.views.paging import page_of
@@ -137,7 +138,7 @@ def study_download(request: HttpRequest, pk: int) -> HttpResponse:
 
         return snapshot_study_download(request, study_row)
     filename = f"{slugify(study_row.key) or 'study'}.baton.json"
-    return _json_attachment(selectors.study_document(study_row), filename)
+    return _json_attachment(with_objective(selectors.study_document(study_row)), filename)
 
 
 @require_GET

@@ -442,3 +442,28 @@ def test_viewers_and_reviewers_may_not_change_reference_points(client, study, me
     assert client.post(reference_url(study), reference_form(poor_findings="9")).status_code == 403
     study.refresh_from_db()
     assert "objective_reference" not in (study.assumptions or {})
+
+
+def test_the_weights_set_here_are_the_study_file_s_objective(client, owner):
+    """Saved on this page, the weights are exported under study.objective, and a file
+    with an objective imports them back as they were."""
+    from allocation import selectors, services
+    from allocation.core.objective_file import with_objective
+    from allocation.examples import example_documents
+
+    document = next(d for d in example_documents() if d["study"]["id"] == "home-heating")
+    study = services.study_import(data=document, owner=owner)
+    services.study_assumption_set(
+        study=study,
+        key="objective_weights",
+        value={"burden_s_per_day": 3.0},
+        user=owner,
+    )
+    client.force_login(owner)
+    downloaded = client.get(reverse("study-download", args=[study.pk])).json()
+    assert downloaded["study"]["objective"] == {"weights": {"burden_s_per_day": 3.0}}
+    assert "objective_weights" not in downloaded["study"].get("assumptions", {})
+    downloaded["study"]["id"] = "heating-again"
+    again = services.study_import(data=downloaded, owner=owner)
+    stored = with_objective(selectors.study_document(again))["study"]
+    assert stored["objective"] == {"weights": {"burden_s_per_day": 3.0}}

@@ -13,6 +13,7 @@ from pathlib import Path
 from django.core.management.base import BaseCommand, CommandError
 
 from allocation import exports, selectors
+from allocation.core.objective_file import with_objective
 
 from ._study import study_from_reference
 
@@ -56,7 +57,7 @@ class Command(BaseCommand):
             if frozen is not None:
                 data = frozen.canonical.encode("utf-8")
             else:
-                document = selectors.study_document(row)
+                document = with_objective(selectors.study_document(row))
                 data = (json.dumps(document, indent=2, ensure_ascii=False) + "\n").encode()
         else:
             data = self.plan_export(row, format, plan, frozen, output)
