@@ -343,6 +343,15 @@ ASSUMPTIONS: tuple[Assumption, ...] = (
         _choice(("awake", "any")),
     ),
     Assumption(
+        "time_budget_floor_s",
+        1,
+        TOOL,
+        "Baton default",
+        "The least time left in a window a handover's time budget ratio divides by, in "
+        "seconds: work ready at or past its deadline still gets a finite, large ratio.",
+        _number(0.0, None, strict=True),
+    ),
+    Assumption(
         "objective_weights",
         OBJECTIVE_WEIGHTS,
         TOOL,
@@ -394,6 +403,61 @@ METHOD_NOTES = (
         TOOL,
         "Overall degree of automation weighs the stages 1 : 2 : 3 : 4 (after "
         "Onnasch et al. 2014: later stages and higher levels both raise it).",
+    ),
+    (
+        "degree_spacing",
+        TOOL,
+        "A level L of the ten-level scales is the degree d = (L - 1) / 9: an ordinal "
+        "scale read as even steps.",
+    ),
+    (
+        "stage_threshold",
+        TOOL,
+        "A stage is the automation's where its degree is above one half; the automation "
+        "principally holds a task where its stage-weighted degree is above one half.",
+    ),
+    (
+        "noticing",
+        TOOL,
+        "Alerts are always noticed; a change shown on the display or on request may be "
+        "missed (the mode check follows both ways); a change with no cue is never "
+        "noticed (after Sarter & Woods 1995).",
+    ),
+    (
+        "link_weights",
+        TOOL,
+        "A link weighs the occurrences a day it carries: for precedes, the smaller of "
+        "the source's a day times the link's probability and the target's a day; for "
+        "informs, the smaller of the two a day.",
+    ),
+    (
+        "monitoring_default",
+        TOOL,
+        "An accountable person who does not hold a task checks each occurrence where the "
+        "feedback is an alert, otherwise looks once a day; looks follow the plan's own "
+        "assignment and go with a task that occurs. False alerts of an automation with "
+        "no accountable person cost no one.",
+    ),
+    (
+        "slips_a_year",
+        TOOL,
+        "A handover's expected slips a year are its occurrences a day times 365 times "
+        "its likelihood index, the index read as a chance per occurrence; the time "
+        "factor of the index is the time budget ratio capped at 1.",
+    ),
+    (
+        "duty",
+        TOOL,
+        "On duty a person answers with their awake latency; work reaching them off duty "
+        "waits for their next duty start and interrupts no one.",
+    ),
+    (
+        "simulation",
+        TOOL,
+        "The day simulation draws durations and latencies from their triangular "
+        "distributions, lags uniformly, rates as Poisson processes and periodic looks "
+        "as a Poisson process over the person's awake day; each day starts in the "
+        "initial mode at midnight; runs are cut into chunks of days drawn from one seed.",
     ),
 )
 

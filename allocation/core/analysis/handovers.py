@@ -115,15 +115,20 @@ class Handover:
 
 
 def time_budget_ratio(
-    latency_s: float, work_s: float, window_s: float | None, ready_s: float
+    latency_s: float,
+    work_s: float,
+    window_s: float | None,
+    ready_s: float,
+    floor_s: float = 1.0,
 ) -> float | None:
     """(latency + work) / time left in the window; ``None`` when there is no window.
 
-    The time left is the window less the time the work is ready at, floored at 1 s.
+    The time left is the window less the time the work is ready at, floored at
+    ``floor_s`` (the assumption ``time_budget_floor_s``).
     """
     if window_s is None:
         return None
-    return (latency_s + work_s) / max(window_s - ready_s, 1.0)
+    return (latency_s + work_s) / max(window_s - ready_s, floor_s)
 
 
 def assess_handover(

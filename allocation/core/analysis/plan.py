@@ -642,7 +642,11 @@ class _Analysis:
             window = study.task(site.to_task).window_s
             ready = 0.0 if site.source == "mode" else target.ready_s
             ratio = time_budget_ratio(
-                latency, work, None if window is None else float(window), ready
+                latency,
+                work,
+                None if window is None else float(window),
+                ready,
+                float(self.assumptions["time_budget_floor_s"]),
             )
             load = people[site.to_agent].load if site.to_agent in people else 0.0
             assessed.append(

@@ -1,5 +1,10 @@
-"""A plan's analysis as the analysis file (JSON, ``baton.analysis`` version 1) and as a
+"""A plan's analysis as the analysis file (JSON, ``baton.analysis`` version 2) and as a
 readable report.
+
+Version 2 (model revision 2; Baton's format document lists the keys) adds the automation
+interfaces, each handover's expected slips a year and frequency band, each task's
+expected and typical person time and monitoring style, and the findings of revision 2;
+the keys of version 1 keep their names.
 
 Both carry the assumptions in force, the methods with their sources, and the cautions.
 """
@@ -22,7 +27,7 @@ from .plan import PlanAnalysis
 __all__ = ["METHODS", "METHOD_ANCHORS", "analysis_json", "levels_with_words", "text_report"]
 
 ANALYSIS_FORMAT = "baton.analysis"
-ANALYSIS_VERSION = 1
+ANALYSIS_VERSION = 2
 
 #: The method notes shown beside the figures, each by the anchor of its section in
 #: Baton's methods document (``METHODS.md``).
@@ -138,7 +143,7 @@ def interfaces_json(result: PlanAnalysis) -> list[dict[str, Any]]:
 
 
 def analysis_json(result: PlanAnalysis) -> dict[str, Any]:
-    """The analysis file (``baton.analysis`` version 1), with more keys beside its own."""
+    """The analysis file (``baton.analysis`` version 2), with more keys beside its own."""
     study = result.study
     return {
         "format": ANALYSIS_FORMAT,

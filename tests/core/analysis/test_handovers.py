@@ -433,3 +433,21 @@ def test_a_wider_window_never_raises_the_time_budget_ratio(latency, work, window
     narrow = time_budget_ratio(latency, work, window, ready)
     wide = time_budget_ratio(latency, work, window + wider_by, ready)
     assert wide <= narrow * (1 + 1e-12)
+
+
+def test_the_time_budget_floor_is_a_study_setting():
+    """Work ready at 400 s for a 300 s window: no time is left, so latency 20 s + work
+    10 s is divided by the floor. Default floor 1 s: 30 / 1 = 30;
+    a study floor of 60 s: 30 / 60 = 0.5 (methods document, #time-budget-ratio)."""
+    assert time_budget_ratio(20, 10, 300, 400) == pytest.approx(30)
+    assert time_budget_ratio(20, 10, 300, 400, 60) == pytest.approx(0.5)
+    assert resolve_assumptions({})["time_budget_floor_s"] == 1
+    assert resolve_assumptions({"time_budget_floor_s": 60})["time_budget_floor_s"] == 60
+
+
+def test_a_bad_time_budget_floor_is_refused_with_its_key():
+    from allocation.core.assumptions import check_assumptions
+
+    assert [key for key, _m in check_assumptions({"time_budget_floor_s": 0})] == [
+        "time_budget_floor_s"
+    ]

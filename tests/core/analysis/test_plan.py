@@ -39,6 +39,7 @@ TOP_KEYS = {
     "handovers",
     "coherence",
     "findings",
+    "interfaces",
 }
 PERSON_KEYS = {
     "burden_s_per_day",
@@ -47,7 +48,17 @@ PERSON_KEYS = {
     "night_interruptions_per_day",
     "monitoring_s_per_day",
 }
-TASK_KEYS = {"category", "principal", "person_s", "occurrences_per_day", "awareness", "degrees"}
+TASK_KEYS = {
+    "category",
+    "principal",
+    "person_s",
+    "expected_s",
+    "typical_s",
+    "occurrences_per_day",
+    "awareness",
+    "degrees",
+    "monitoring",
+}
 DEGREE_KEYS = {"acquisition", "analysis", "decision", "action"}
 HANDOVER_KEYS = {
     "source",
@@ -61,6 +72,9 @@ HANDOVER_KEYS = {
     "severity",
     "risk",
     "band",
+    "likelihood_band",
+    "frequency_per_year",
+    "frequency_band",
 }
 COHERENCE_KEYS = {"cut_ratio", "modularity"}
 FINDING_KEYS = {"kind", "severity", "tasks", "modes", "events", "message"}
@@ -105,7 +119,7 @@ def test_every_example_plan_gives_the_design_analysis_file(name, plan_id):
     output = analysis_json(analysed(name, plan_id))
 
     assert TOP_KEYS - set(output) == set()
-    assert (output["format"], output["version"]) == ("baton.analysis", 1)
+    assert (output["format"], output["version"]) == ("baton.analysis", 2)
     assert (output["study"], output["plan"]) == (study.id, plan_id)
 
     assert set(output["people"]) == {agent.id for agent in study.humans}
