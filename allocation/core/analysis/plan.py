@@ -557,6 +557,7 @@ class _Analysis:
                     trigger=link.kind,
                 )
             )
+        sites += self.sites_through(tasks, holders, link_weights)
         for task_id, figures in tasks.items():
             involved = figures.involved
             if not involved.applies or involved.category != "shared":
@@ -596,6 +597,48 @@ class _Analysis:
                     trigger=transition.trigger,
                 )
             )
+        return sites
+
+    def sites_through(self, tasks, holders, link_weights) -> list[HandoverSite]:
+        """Work passing across a task not done whose chain goes on (``pass_through``):
+        from the holder before it to the holder after it, as often as the lesser of the
+        two links carries (methods document, #handover-sites)."""
+        passed = {
+            task_id
+            for task_id, assignment in self.plan.assignments.items()
+            if not assignment.is_applicable and assignment.pass_through
+        }
+        if not passed:
+            return []
+        into: dict[str, list[tuple[str, float]]] = defaultdict(list)
+        out_of: dict[str, list[tuple[str, float]]] = defaultdict(list)
+        for (source, target, weight), link in zip(link_weights, self.study.links, strict=True):
+            if link.kind != "precedes":
+                continue
+            if target in passed:
+                into[target].append((source, weight))
+            if source in passed:
+                out_of[source].append((target, weight))
+        sites = []
+        for middle in sorted(passed):
+            for source, weight_in in into[middle]:
+                for target, weight_out in out_of[middle]:
+                    before, after = holders.get(source), holders.get(target)
+                    if before is None or after is None or before == after:
+                        continue
+                    sites.append(
+                        HandoverSite(
+                            "link",
+                            source,
+                            target,
+                            before,
+                            after,
+                            min(weight_in, weight_out),
+                            self.strongest_cue(tasks[source].involved, tasks[target].involved),
+                            tasks[target].initiator,
+                            trigger=f"precedes through {middle}",
+                        )
+                    )
         return sites
 
     def strongest_cue(self, *involved: Involvement) -> str | None:

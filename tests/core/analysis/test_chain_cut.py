@@ -123,3 +123,21 @@ def test_pass_through_is_written_back_as_read():
     study = read_study(chain({**NOT_DONE, "pass_through": True}))
     written = json.loads(json.dumps(study_to_json(study)))["plans"][0]["assignments"]["B"]
     assert written == {**NOT_DONE, "pass_through": True}
+
+
+def test_work_passing_across_a_task_not_done_is_a_handover():
+    # A is Pat's, C Sam's, B not done with its chain going on: the work passes from Pat
+    # to Sam across B once a day, a handover along the links A -> B -> C.
+    document = chain({**NOT_DONE, "pass_through": True})
+    document["plans"][0]["assignments"]["C"] = {"human": "sam"}
+    result = analyse_plan(read_study(document), "p")
+    (handover,) = result.handovers
+    site = handover.site
+    assert (site.from_task, site.to_task, site.from_agent, site.to_agent) == (
+        "A",
+        "C",
+        "pat",
+        "sam",
+    )
+    assert site.per_day == pytest.approx(1)
+    assert site.trigger == "precedes through B"
