@@ -103,8 +103,9 @@ def column_unit(key: str) -> str:
 def figure_heading(key: str) -> str:
     """A figure's column heading: its short label (else its label) and the column's unit."""
     unit = column_unit(key)
-    if not unit:
-        return registry.figure(key).heading
+    heading = registry.figure(key).heading
+    if not unit or heading.endswith(unit):  # "Handovers a day" says its unit already
+        return heading
     return format_html('{} <span class="unit">{}</span>', registry.figure(key).heading, unit)
 
 

@@ -31,6 +31,7 @@ def chain_cut_findings(
     through: Mapping[str, float],
     successors: Mapping[str, Sequence[tuple[str, float]]],
     person_s: Callable[[str], float],
+    tolerance: Mapping[str, float] | None = None,
 ) -> list[Finding]:
     """One ``chain_cut`` finding per task not done whose chain stops with it.
 
@@ -47,15 +48,20 @@ def chain_cut_findings(
         Task id to its ``precedes`` successors as ``(task id, link probability)``.
     person_s : callable
         A task's expected person time per occurrence under the plan (all people).
+    tolerance : mapping, optional
+        Per task, a difference in occurrences a day too small to call a cut: where a
+        chain's chances are Monte Carlo estimates, 4 standard errors of the two counts.
 
     Returns
     -------
     list of Finding
     """
+    tolerance = tolerance or {}
     lost = {
         task_id: through[task_id] - per_day.get(task_id, 0.0)
         for task_id in through
-        if through[task_id] - per_day.get(task_id, 0.0) > NEGLIGIBLE_PER_DAY
+        if through[task_id] - per_day.get(task_id, 0.0)
+        > max(NEGLIGIBLE_PER_DAY, tolerance.get(task_id, 0.0))
     }
     found = []
     for task_id in stopped:

@@ -735,6 +735,10 @@ class _Analysis:
             through.per_day,
             graph.successors,
             lambda task_id: tasks[task_id].person_s,
+            {
+                task_id: 4 * (counted.se_per_day.get(task_id, 0.0) + se)
+                for task_id, se in through.se_per_day.items()
+            },
         )
 
     def findings(self, normal: dict[str, Involvement], chains: list[ChainTiming]):

@@ -128,17 +128,22 @@ def interfaces_json(result: PlanAnalysis) -> list[dict[str, Any]]:
     for site in result.interfaces:
         key = (site.from_agent or "", site.to_agent or "")
         row = rows.setdefault(
-            key, {"from_agent": key[0], "to_agent": key[1], "per_day": 0.0, "tasks": []}
+            key, {"from_agent": key[0], "to_agent": key[1], "per_day": 0.0, "tasks": {}}
         )
         row["per_day"] += site.per_day
-        row["tasks"].append(
+        # One entry per pair of tasks (a task's mode changes add up).
+        pair = row["tasks"].setdefault(
+            (site.from_task, site.to_task),
             {
                 "source": site.source,
                 "from_task": site.from_task,
                 "to_task": site.to_task,
-                "per_day": site.per_day,
-            }
+                "per_day": 0.0,
+            },
         )
+        pair["per_day"] += site.per_day
+    for row in rows.values():
+        row["tasks"] = list(row["tasks"].values())
     return sorted(rows.values(), key=lambda row: -row["per_day"])
 
 
