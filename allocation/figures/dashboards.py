@@ -210,6 +210,10 @@ def goal_time_chart(analysis: PlanAnalysis) -> dict[str, Any]:
 # -- (c) risk matrix --------------------------------------------------------------------
 
 
+#: A band in a narrow chart's cell.
+BAND_SHORT = {"acceptable": "acc.", "review": "review", "unacceptable": "unacc."}
+
+
 def risk_matrix_counts(analysis: PlanAnalysis) -> list[list[int]]:
     """Handovers per cell: ``counts[severity - 1][frequency level - 1]`` (level 1 is
     improbable, 5 frequent)."""
@@ -256,7 +260,7 @@ def risk_matrix_chart(
             code_row.append(BAND_CODES[name])
             where = f"{ranges[level - 1]}<br>"
             if counts is None:
-                text_row.append(name)
+                text_row.append(BAND_SHORT[name] if compact else name)
                 hover_row.append(f"{where}band: {name}")
             else:
                 count = counts[severity - 1][level - 1]

@@ -20,7 +20,7 @@ from allocation.forms.base import TextForm, optional_choices
 
 #: How an accountable person keeps watch (blank: the default for the feedback).
 MONITORING_CHOICES = [
-    ("", "default"),
+    ("", "watch: default"),
     ("each", "checks each"),
     ("periodic", "looks n a day"),
     ("exception", "on flags"),
