@@ -68,8 +68,20 @@ from .vocabulary import (
     TRANSITION_CAUSES,
 )
 
+#: The keys a study's risk policy may hold.
+RISK_POLICY_KEYS = (
+    "likelihood_bands",
+    "frequency_bands",
+    "band_matrix",
+    "review",
+    "unacceptable",
+    "note",
+    "critical_severity",
+)
+
 __all__ = [
     "FORMAT_NAME",
+    "RISK_POLICY_KEYS",
     "FORMAT_VERSION",
     "FORMAT_VERSIONS",
     "StudyReader",
@@ -596,15 +608,7 @@ class StudyReader:
             value,
             path,
             (),
-            (
-                "likelihood_bands",
-                "frequency_bands",
-                "band_matrix",
-                "review",
-                "unacceptable",
-                "note",
-                "critical_severity",
-            ),
+            RISK_POLICY_KEYS,
         )
         if policy is None:
             return None

@@ -19,7 +19,7 @@ from django.core.exceptions import PermissionDenied
 from allocation import models as m
 from allocation.core import Problem, StudyInvalid
 from allocation.core.assumptions import ASSUMPTIONS, check_assumptions
-from allocation.core.reading import child_path, parse_json_text
+from allocation.core.reading import RISK_POLICY_KEYS, child_path, parse_json_text
 
 from .conflicts import version_check
 from .edits import StudyEdit, study_edit
@@ -32,15 +32,7 @@ __all__ = [
 ]
 
 ASSUMPTION_KEYS = tuple(assumption.key for assumption in ASSUMPTIONS)
-POLICY_KEYS = (
-    "likelihood_bands",
-    "frequency_bands",
-    "band_matrix",
-    "review",
-    "unacceptable",
-    "note",
-    "critical_severity",
-)
+POLICY_KEYS = RISK_POLICY_KEYS
 ASSUMPTIONS_PATH = "$.study.assumptions"
 POLICY_PATH = "$.study.risk_policy"
 

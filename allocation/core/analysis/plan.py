@@ -541,22 +541,7 @@ class _Analysis:
     def handover_sites(self, tasks, holders, link_weights) -> list[HandoverSite]:
         sites = []
         for (source, target, weight), link in zip(link_weights, self.study.links, strict=True):
-            before, after = holders.get(source), holders.get(target)
-            if before is None or after is None or before == after:
-                continue
-            sites.append(
-                HandoverSite(
-                    "link",
-                    source,
-                    target,
-                    before,
-                    after,
-                    weight,
-                    self.strongest_cue(tasks[source].involved, tasks[target].involved),
-                    tasks[target].initiator,
-                    trigger=link.kind,
-                )
-            )
+            sites += self.link_site(tasks, holders, source, target, weight, link.kind)
         sites += self.sites_through(tasks, holders, link_weights)
         for task_id, figures in tasks.items():
             involved = figures.involved
@@ -623,23 +608,31 @@ class _Analysis:
         for middle in sorted(passed):
             for source, weight_in in into[middle]:
                 for target, weight_out in out_of[middle]:
-                    before, after = holders.get(source), holders.get(target)
-                    if before is None or after is None or before == after:
-                        continue
-                    sites.append(
-                        HandoverSite(
-                            "link",
-                            source,
-                            target,
-                            before,
-                            after,
-                            min(weight_in, weight_out),
-                            self.strongest_cue(tasks[source].involved, tasks[target].involved),
-                            tasks[target].initiator,
-                            trigger=f"precedes through {middle}",
-                        )
-                    )
+                    weight = min(weight_in, weight_out)
+                    trigger = f"precedes through {middle}"
+                    sites += self.link_site(tasks, holders, source, target, weight, trigger)
         return sites
+
+    def link_site(self, tasks, holders, source, target, weight, trigger) -> list[HandoverSite]:
+        """The handover point of work passing from ``source`` to ``target``, if their
+        holders differ (none where either is held by nobody)."""
+        before, after = holders.get(source), holders.get(target)
+        if before is None or after is None or before == after:
+            return []
+        cue = self.strongest_cue(tasks[source].involved, tasks[target].involved)
+        return [
+            HandoverSite(
+                "link",
+                source,
+                target,
+                before,
+                after,
+                weight,
+                cue,
+                tasks[target].initiator,
+                trigger=trigger,
+            )
+        ]
 
     def strongest_cue(self, *involved: Involvement) -> str | None:
         """The best cue either side of a link gives: the sender's alarm or the receiver's
