@@ -354,6 +354,15 @@ class _Checker:
             mode_path = self.locate(mode, f"{path}.states[{index}]")
             if mode.overrides:
                 self.assignments(mode.overrides, child_path(mode_path, "overrides"))
+                for task_id, override in mode.overrides.items():
+                    if override.pass_through:
+                        # Chains are the plan's; a mode changes who does a task, not
+                        # whether its chain goes on.
+                        self.error(
+                            child_path(child_path(mode_path, "overrides"), task_id)
+                            + ".pass_through",
+                            "goes on the plan's own assignment, not on a mode's override",
+                        )
         for index, transition in enumerate(modes.transitions):
             item_path = self.locate(transition, f"{path}.transitions[{index}]")
             for key, mode_id in (("from", transition.source), ("to", transition.target)):

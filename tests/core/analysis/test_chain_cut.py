@@ -141,3 +141,16 @@ def test_work_passing_across_a_task_not_done_is_a_handover():
     )
     assert site.per_day == pytest.approx(1)
     assert site.trigger == "precedes through B"
+
+
+def test_a_mode_cannot_let_a_chain_go_on():
+    document = chain({"human": "pat"})
+    document["plans"][0]["modes"] = {
+        "initial": "m",
+        "states": [
+            {"id": "m", "name": "M", "overrides": {"B": {**NOT_DONE, "pass_through": True}}}
+        ],
+        "transitions": [],
+    }
+    problems = load_study(document).errors
+    assert [p.path for p in problems] == ["$.plans[0].modes.states[0].overrides.B.pass_through"]
