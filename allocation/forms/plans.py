@@ -134,10 +134,10 @@ class AssignmentForm(TextForm):
             self.add_error("human", "Choose the person who does it.")
         if who in ("device", "shared") and not data.get("automation"):
             self.add_error("automation", "Choose the device that does it.")
-        if data.get("pass_through") and who != "not_applicable":
-            self.add_error(
-                "pass_through", "Only a task not done in this plan can let its chain go on."
-            )
+        if who != "not_applicable":
+            # The box shows only on a row not done; a row just moved to someone still
+            # posts it, and a task that is done has no chain to let go on.
+            data["pass_through"] = False
         self._clean_monitoring(data)
         return data
 

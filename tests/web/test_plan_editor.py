@@ -209,15 +209,19 @@ def test_a_task_not_done_may_let_its_chain_go_on(client, study, owner):
     assert 'name="pass_through" form="f-T2" checked' in response.content.decode()
 
 
-def test_only_a_task_not_done_can_let_its_chain_go_on(client, study, owner):
+def test_a_task_moved_to_someone_drops_its_chain_goes_on_mark(client, study, owner):
+    """The box shows on a row not done only; moving the row to a person still posts it."""
     client.force_login(owner)
-    before = selectors.study_document(study)
+    client.post(
+        row_url(study.pk, "manual", "T2"),
+        {"who": "not_applicable", "pass_through": "on"},
+        headers={"HX-Request": "true"},
+    )
     response = client.post(
         row_url(study.pk, "manual", "T2"),
         {"who": "person", "human": "resident", "pass_through": "on"},
         headers={"HX-Request": "true"},
     )
-    assert "Only a task not done in this plan can let its chain go on." in (
-        response.content.decode()
-    )
-    assert selectors.study_document(study) == before
+    assert 'class="row-problems"' not in response.content.decode()
+    stored = selectors.study_document(study)["plans"][0]["assignments"]["T2"]
+    assert stored == {"human": "resident"}
