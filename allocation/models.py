@@ -316,6 +316,17 @@ class AssignmentFields(models.Model):
     monitoring = models.JSONField(null=True, blank=True)
     # On a task not done under the plan: its chain goes on without it.
     pass_through = models.BooleanField(default=False)
+    # How often the automation fails, as the study file writes it but for the fallback
+    # person (the field below, so that an agent's new id is followed); null: never.
+    reliability = models.JSONField(null=True, blank=True)
+    fallback = models.ForeignKey(
+        Agent, on_delete=models.RESTRICT, null=True, blank=True, related_name="+"
+    )
+    # The people asked after ``human`` when they do not answer in time (agent ids, in
+    # order; a service that renames or deletes an agent rewrites them), and how long each
+    # has: the study file's ``human`` as a list and its ``escalate_after_s``.
+    escalation = models.JSONField(null=True, blank=True)
+    escalate_after_s = models.JSONField(null=True, blank=True)
     position = models.PositiveIntegerField(default=0)
     # Optimistic versioning: every service write adds one; a save names the
     # version it started from and is refused when the row has moved on since.

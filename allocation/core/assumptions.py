@@ -446,6 +446,21 @@ METHOD_NOTES = (
         "factor of the index is the time budget ratio capped at 1.",
     ),
     (
+        "failures",
+        TOOL,
+        "Occurrences fail independently with the assignment's stated chance; a failed "
+        "occurrence is done whole by the fallback person at the task's own duration and "
+        "interrupts them; chain timing and windows follow the normal holders, a failure's "
+        "delay being judged by its handover's time budget.",
+    ),
+    (
+        "escalation",
+        TOOL,
+        "People asked in turn answer independently of each other; one who answers within "
+        "escalate_after_s takes the task, one off duty is passed over, and the last keeps "
+        "it whatever; chain timing follows the first person asked.",
+    ),
+    (
         "duty",
         TOOL,
         "On duty a person answers with their awake latency; work reaching them off duty "
@@ -455,8 +470,9 @@ METHOD_NOTES = (
         "simulation",
         TOOL,
         "The day simulation draws durations and latencies from their triangular "
-        "distributions, lags uniformly, rates as Poisson processes and periodic looks "
-        "as a Poisson process over the person's awake day; each day starts in the "
+        "distributions, lags uniformly, rates as Poisson processes, periodic looks "
+        "as a Poisson process over the person's awake day and false alerts over the "
+        "whole day, each occurrence's failure with its chance; each day starts in the "
         "initial mode at midnight; runs are cut into chunks of days drawn from one seed.",
     ),
 )

@@ -14,6 +14,7 @@ from collections.abc import Callable, Iterable
 from typing import Any
 
 from .analysis.modecheck import mode_search_size
+from .analysis.reliability import fallback_person
 from .assumptions import resolve_assumptions
 from .errors import Problem
 from .graph import chain_entries, hierarchy_cycle, never_occurring, precedence_cycle, triggers
@@ -305,24 +306,26 @@ class _Checker:
 
     def assignment(self, assignment: Assignment, path: str) -> None:
         agents = self.study.agents_by_id
-        for key, kind in (("human", "human"), ("automation", "automation")):
-            agent_id = getattr(assignment, key)
-            if agent_id is None:
-                continue
+        named = [
+            (child_path(path, "human") + (f"[{index}]" if assignment.escalation else ""), who)
+            for index, who in enumerate(assignment.people_asked)
+        ]
+        if assignment.automation is not None:
+            named.append((child_path(path, "automation"), assignment.automation))
+        for agent_path, agent_id in named:
+            kind = "automation" if agent_path.endswith("automation") else "human"
             if agent_id not in agents:
                 self.error(
-                    child_path(path, key),
-                    f"names the agent {agent_id!r}, which the study does not have",
+                    agent_path, f"names the agent {agent_id!r}, which the study does not have"
                 )
             elif agents[agent_id].kind != kind:
-                self.error(
-                    child_path(path, key), f"{agent_id} is {agents[agent_id].kind}, not {kind}"
-                )
+                self.error(agent_path, f"{agent_id} is {agents[agent_id].kind}, not {kind}")
         if assignment.accountable is not None and assignment.accountable not in agents:
             self.error(
                 child_path(path, "accountable"),
                 f"names the agent {assignment.accountable!r}, which the study does not have",
             )
+        self.reliability(assignment, path)
         levels_path = child_path(path, "levels")
         if assignment.is_shared and assignment.levels is None:
             self.error(
@@ -340,6 +343,34 @@ class _Checker:
             self.error(
                 levels_path,
                 f"the {self.study.scale} scale takes one level per assignment, not one per stage",
+            )
+
+    def reliability(self, assignment: Assignment, path: str) -> None:
+        """A failure falls back to a person: the one named, else the assignment's human,
+        else the accountable one (methods document, ``#reliability``)."""
+        reliability = assignment.reliability
+        if reliability is None or not reliability.fails_per_1000:
+            return
+        agents = self.study.agents_by_id
+        path = child_path(path, "reliability")
+        if reliability.fallback is not None:
+            agent = agents.get(reliability.fallback)
+            if agent is None:
+                self.error(
+                    child_path(path, "fallback"),
+                    f"names the agent {reliability.fallback!r}, which the study does not have",
+                )
+            elif not agent.is_human:
+                self.error(
+                    child_path(path, "fallback"),
+                    f"{agent.id} is {agent.kind}: a failure falls back to a person",
+                )
+            return
+        if fallback_person(self.study, assignment) is None:
+            self.error(
+                path,
+                "a failure falls back to a person, and this assignment names none: give "
+                "a fallback, a human or an accountable person",
             )
 
     def mode_map(self, modes: ModeMap, path: str) -> None:

@@ -21,6 +21,8 @@ __all__ = [
     "Limit",
     "MAX_PER_DAY",
     "MONITORING_LOOKS_MAX",
+    "ESCALATION_PEOPLE_MAX",
+    "ESCALATE_AFTER_MAX_S",
     "MODE_STATES_MAX",
     "MODE_STEPS_MAX",
     "NOTE_LENGTH",
@@ -89,9 +91,16 @@ SPREADSHEET_MAX_COLUMNS = 60
 INTEGER_DIGITS = 4300
 #: The most often anything may happen: a million times a day (about twelve a second).
 MAX_PER_DAY = 1_000_000
-#: The most periodic looks a day at one task's work (once a minute): each is drawn in the
-#: day simulation, so the bound keeps a run's memory with its estimate.
+#: The most periodic looks, or false alerts, a day at one task's work (once a minute):
+#: each is drawn in the day simulation, so the bound keeps a run's memory with its
+#: estimate.
 MONITORING_LOOKS_MAX = 1440
+#: The most people one assignment asks in turn (its ``human`` as a list): each is a
+#: handover and a variant of the task in the simulation. A household or a care team
+#: rarely has more than a handful to call on.
+ESCALATION_PEOPLE_MAX = 10
+#: The longest one person asked may take before the next is asked (seconds): a day.
+ESCALATE_AFTER_MAX_S = 86_400
 
 # --- Text ----------------------------------------------------------------------------
 
@@ -279,7 +288,22 @@ LIMITS: tuple[Limit, ...] = (
         "MONITORING_LOOKS_MAX",
         MONITORING_LOOKS_MAX,
         "per day",
-        "periodic looks at one task's work (an assignment's monitoring per_day)",
+        "periodic looks at, or false alerts of, one task's work (an assignment's monitoring "
+        "per_day, its reliability's false_alerts_per_day)",
+        "study reader, forms",
+    ),
+    Limit(
+        "ESCALATION_PEOPLE_MAX",
+        ESCALATION_PEOPLE_MAX,
+        "people",
+        "people one assignment asks in turn (its human as a list)",
+        "study reader, forms",
+    ),
+    Limit(
+        "ESCALATE_AFTER_MAX_S",
+        ESCALATE_AFTER_MAX_S,
+        "s",
+        "how long one person asked may take before the next is asked (escalate_after_s)",
         "study reader, forms",
     ),
     Limit(

@@ -30,6 +30,8 @@ __all__ = [
     "Occurs",
     "Plan",
     "Range",
+    "Reliability",
+    "DETECTION",
     "Study",
     "Task",
     "Transition",
@@ -217,6 +219,37 @@ class Monitoring:
     share: float | None = None
 
 
+#: How the person learns that the automation failed (a failure's cue).
+DETECTION = ("alert", "display", "none")
+
+
+@dataclass(frozen=True)
+class Reliability:
+    """How often an assignment's automation fails, and what follows (methods document,
+    ``#reliability``).
+
+    Each occurrence fails with probability ``fails_per_1000 / 1000``; a failure hands the
+    whole task to ``fallback`` (default: the assignment's human, else the accountable
+    person), who learns of it by ``detected_by``. ``false_alerts_per_day`` are alerts
+    with nothing wrong, each a check for the accountable person.
+    """
+
+    fails_per_1000: float
+    detected_by: str | None = None
+    fallback: str | None = None
+    false_alerts_per_day: float | None = None
+
+    @property
+    def chance(self) -> float:
+        """The chance that one occurrence fails."""
+        return float(self.fails_per_1000) / 1000
+
+    @property
+    def detected(self) -> bool:
+        """Whether the person is told of a failure (by an alert or on a display)."""
+        return self.detected_by in ("alert", "display")
+
+
 @dataclass(frozen=True)
 class Assignment:
     """A plan's decision for one task."""
@@ -237,6 +270,19 @@ class Assignment:
     monitoring: Monitoring | None = None
     # ``True`` on a task not done under the plan: its chain goes on without it.
     pass_through: bool | None = None
+    # How often the automation fails and who takes over (``None``: it never fails).
+    reliability: Reliability | None = None
+    # The people asked after ``human``, in order, when the one asked does not answer
+    # within ``escalate_after_s`` (the file's ``human`` as a list).
+    escalation: tuple[str, ...] | None = None
+    escalate_after_s: Number | None = None
+
+    @property
+    def people_asked(self) -> tuple[str, ...]:
+        """The people asked in turn: the human, then those escalated to."""
+        if self.human is None:
+            return ()
+        return (self.human, *(self.escalation or ()))
 
     @property
     def is_applicable(self) -> bool:

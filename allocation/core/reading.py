@@ -22,6 +22,8 @@ from typing import Any
 from .assumptions import check_assumptions
 from .errors import Problem
 from .limits import (
+    ESCALATE_AFTER_MAX_S,
+    ESCALATION_PEOPLE_MAX,
     INTEGER_DIGITS,
     LABEL_LENGTH,
     MAX_PER_DAY,
@@ -36,6 +38,7 @@ from .limits import (
 )
 from .model import (
     ANY_MODE,
+    DETECTION,
     MONITORING_STYLES,
     Agent,
     Assignment,
@@ -48,6 +51,7 @@ from .model import (
     Occurs,
     Plan,
     Range,
+    Reliability,
     Study,
     Task,
     Transition,
@@ -953,6 +957,8 @@ class StudyReader:
                 "applies",
                 "monitoring",
                 "pass_through",
+                "reliability",
+                "escalate_after_s",
             ),
         )
         if data is None:
@@ -976,8 +982,27 @@ class StudyReader:
                 "must name a human, an automation, or both (or say "
                 '"applies": false for a task not done under this plan)',
             )
-        return Assignment(
-            human=self.optional(data, "human", path, self.identifier),
+        people = self.optional(data, "human", path, self.people_asked) or ()
+        if len(people) > 1 and "escalate_after_s" not in data:
+            self.error(
+                child_path(path, "human"),
+                "lists people to ask in turn, so the assignment needs escalate_after_s: how "
+                "long the one asked has to answer before the next is asked",
+            )
+        if "escalate_after_s" in data and not isinstance(data.get("human"), list):
+            self.error(
+                child_path(path, "escalate_after_s"),
+                "goes only with a human given as a list of at least two people, asked in turn",
+            )
+        assignment = Assignment(
+            human=people[0] if people else None,
+            escalation=tuple(people[1:]) or None,
+            escalate_after_s=self.optional(
+                data,
+                "escalate_after_s",
+                path,
+                lambda v, p: self.number(v, p, positive=True, maximum=ESCALATE_AFTER_MAX_S),
+            ),
             automation=self.optional(data, "automation", path, self.identifier),
             # An unreadable level is kept as given, so the checks do not add "needs levels".
             levels=self.optional(data, "levels", path, self.levels) or data.get("levels"),
@@ -994,6 +1019,75 @@ class StudyReader:
             applies=applies,
             monitoring=self.optional(data, "monitoring", path, self.monitoring),
             pass_through=self.optional(data, "pass_through", path, self.pass_through),
+            reliability=self.optional(data, "reliability", path, self.reliability),
+        )
+        if assignment.reliability is not None and assignment.automation is None:
+            self.error(
+                child_path(path, "reliability"),
+                "goes only with an assignment that names an automation (it is how often "
+                "the automation fails)",
+            )
+        return assignment
+
+    def people_asked(self, value: Any, path: str) -> tuple[str, ...] | None:
+        """A human's id, or a list of ids asked in turn (at least two, each once, at most
+        ``ESCALATION_PEOPLE_MAX``)."""
+        if not isinstance(value, list):
+            one = self.identifier(value, path)
+            return None if one is None else (one,)
+        if not 2 <= len(value) <= ESCALATION_PEOPLE_MAX:
+            self.error(
+                path,
+                f"as a list names from 2 to {ESCALATION_PEOPLE_MAX} people asked in turn, not "
+                f"{len(value)} (one person is written as an id alone)",
+            )
+            return None
+        ids = [self.identifier(item, f"{path}[{index}]") for index, item in enumerate(value)]
+        if any(item is None for item in ids):
+            return None
+        for index, item in enumerate(ids):
+            if item in ids[:index]:
+                self.error(f"{path}[{index}]", f"names {item} a second time")
+                return None
+        return tuple(item for item in ids if item is not None)
+
+    def reliability(self, value: Any, path: str) -> Reliability | None:
+        """How often the automation fails: ``fails_per_1000`` (0 to 1,000), how a failure
+        is noticed (``detected_by``, needed when it can fail), who takes over
+        (``fallback``) and ``false_alerts_per_day``."""
+        data = self.obj(
+            value,
+            path,
+            ("fails_per_1000",),
+            ("detected_by", "fallback", "false_alerts_per_day"),
+        )
+        if data is None or "fails_per_1000" not in data:
+            return None
+        fails = self.number(
+            data["fails_per_1000"], child_path(path, "fails_per_1000"), maximum=1000
+        )
+        detected = self.optional(
+            data, "detected_by", path, lambda v, p: self.choice(v, p, DETECTION)
+        )
+        if fails and "detected_by" not in data:
+            self.error(
+                path,
+                'needs detected_by ("alert", "display" or "none"): how the person learns '
+                "that the automation failed",
+            )
+        false_alerts = self.optional(
+            data,
+            "false_alerts_per_day",
+            path,
+            lambda v, p: self.number(v, p, maximum=MONITORING_LOOKS_MAX),
+        )
+        if fails is None:
+            return None
+        return Reliability(
+            fails_per_1000=fails,
+            detected_by=detected,
+            fallback=self.optional(data, "fallback", path, self.identifier),
+            false_alerts_per_day=false_alerts,
         )
 
     def pass_through(self, value: Any, path: str) -> bool | None:

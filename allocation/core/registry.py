@@ -159,6 +159,8 @@ FIGURES: dict[str, Figure] = _figures(
         LOWER,
         "night-interruptions",
     ),
+    F("failures_per_day", "Failures taken over", "a day", 3, LOWER, "reliability"),
+    F("escalations_per_day", "Escalations reaching them", "a day", 3, LOWER, "escalation"),
     F(
         "awake_share_used",
         "Share of the waking day",
@@ -219,7 +221,7 @@ FIGURES: dict[str, Figure] = _figures(
     ),
     F("monitoring_s", "Seconds per check", "s", 1, LOWER, "monitoring", seconds=True),
     F("watch_s", "Monitoring per occurrence", "s", 1, LOWER, "monitoring", seconds=True),
-    F("looks_per_day", "Looks or flags", "a day", 2, NONE, "monitoring"),
+    F("looks_per_day", "Periodic looks", "a day", 2, NONE, "monitoring"),
     F(
         "person_s_per_day",
         "Person time on the task",
@@ -335,6 +337,8 @@ SIMULATED = {
     "interactions": "interactions_per_day",
     "interruptions": "interruptions_per_day",
     "night_interruptions": "night_interruptions_per_day",
+    "failures": "failures_per_day",
+    "escalations": "escalations_per_day",
 }
 
 #: The factors of the mode-awareness index (analysis file ``awareness_factors``).
@@ -366,6 +370,8 @@ PERSON_FIGURES = (
     "interactions_per_day",
     "interruptions_per_day",
     "night_interruptions_per_day",
+    "failures_per_day",
+    "escalations_per_day",
     "awake_share_used",
 )
 
@@ -514,6 +520,14 @@ FINDING_KINDS: dict[str, FindingKind] = _kinds(
         "that goes with them.",
         "the highest severity among the tasks cut",
         "finding-chain-cut",
+    ),
+    K(
+        "silent_failure",
+        "Failure nobody is told of",
+        "The automation of a task at or above the critical severity can fail with nothing "
+        "to tell the person who is to take it over.",
+        "the task's severity",
+        "finding-silent-failure",
     ),
     K(
         "uncued_change",
@@ -689,11 +703,19 @@ RISK_BANDS: dict[str, Term] = _terms(
 
 #: Where a handover is.
 HANDOVER_SOURCES: dict[str, Term] = _terms(
-    ("link", "shared", "mode"),
+    ("link", "shared", "mode", "failure", "escalation"),
     {
         "link": ("Along a link", "A link whose two tasks different agents hold."),
         "shared": ("Within a shared task", "The stages of a shared task pass between agents."),
         "mode": ("Mode change", "A transition of the mode map changes who holds a task."),
+        "failure": (
+            "Failure",
+            "The automation fails at an occurrence and a person takes the whole task over.",
+        ),
+        "escalation": (
+            "Escalation",
+            "The person asked does not answer in time and the next person is asked.",
+        ),
     },
     "handover-sites",
 )

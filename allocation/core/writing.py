@@ -18,6 +18,7 @@ from .model import (
     Monitoring,
     Occurs,
     Plan,
+    Reliability,
     Study,
     Task,
     Transition,
@@ -141,7 +142,7 @@ def link_to_json(link: Link) -> dict[str, Any]:
 def assignment_to_json(assignment: Assignment) -> dict[str, Any]:
     return _compact(
         {
-            "human": assignment.human,
+            "human": list(assignment.people_asked) if assignment.escalation else assignment.human,
             "automation": assignment.automation,
             "levels": dict(assignment.levels)
             if isinstance(assignment.levels, dict)
@@ -155,6 +156,22 @@ def assignment_to_json(assignment: Assignment) -> dict[str, Any]:
             "applies": assignment.applies,
             "monitoring": monitoring_to_json(assignment.monitoring),
             "pass_through": assignment.pass_through,
+            "reliability": reliability_to_json(assignment.reliability),
+            "escalate_after_s": assignment.escalate_after_s,
+        }
+    )
+
+
+def reliability_to_json(reliability: Reliability | None) -> dict[str, Any] | None:
+    """An assignment's reliability as the file writes it (keys left out stay out)."""
+    if reliability is None:
+        return None
+    return _compact(
+        {
+            "fails_per_1000": reliability.fails_per_1000,
+            "detected_by": reliability.detected_by,
+            "fallback": reliability.fallback,
+            "false_alerts_per_day": reliability.false_alerts_per_day,
         }
     )
 

@@ -31,6 +31,7 @@ from allocation.core.registry import (
     Figure,
     finding_kind,
 )
+from allocation.core.reliability_cell import people_cell, reliability_cell
 from allocation.core.scales import level_text
 from allocation.core.spreadsheets.layout import (
     ALLOCATION_COLUMNS,
@@ -40,7 +41,7 @@ from allocation.core.spreadsheets.layout import (
     TASK_COLUMNS,
 )
 from allocation.core.vocabulary import STAGES
-from allocation.core.writing import monitoring_to_json
+from allocation.core.writing import monitoring_to_json, reliability_to_json
 
 from .source import ExportSource
 
@@ -203,7 +204,11 @@ def allocation_rows(source: ExportSource) -> list[dict[str, Any]]:
             "goal": task.parent or "",
             "title": task.title,
             "category": _category(figures),
-            "human": (assignment and assignment.human) or "",
+            "human": people_cell(
+                list(assignment.people_asked)
+                if assignment is not None and assignment.escalation
+                else assignment and assignment.human
+            ),
             "automation": (assignment and assignment.automation) or "",
             "levels": levels,
             "level_words": words,
@@ -214,6 +219,10 @@ def allocation_rows(source: ExportSource) -> list[dict[str, Any]]:
             "monitoring": monitoring_cell(
                 None if assignment is None else monitoring_to_json(assignment.monitoring)
             ),
+            "reliability": reliability_cell(
+                None if assignment is None else reliability_to_json(assignment.reliability)
+            ),
+            "escalate_after_s": None if assignment is None else assignment.escalate_after_s,
             "rationale": (assignment and assignment.rationale) or "",
             "status": (assignment and assignment.status) or "",
             "applies": _applies_words(assignment),
@@ -236,8 +245,9 @@ def _frame(rows: list[dict[str, Any]], columns: tuple[str, ...]) -> pd.DataFrame
 def allocation_table(source: ExportSource) -> pd.DataFrame:
     """The allocation table: the ``allocation`` sheet and the CSV export."""
     frame = _frame(allocation_rows(source), ALLOCATION_COLUMNS)
-    # Awareness stays a number column even when no task has one (empty cells).
-    frame["awareness"] = frame["awareness"].astype("float64")
+    # Number columns stay numbers even when no task has one (empty cells).
+    for column in ("awareness", "escalate_after_s"):
+        frame[column] = frame[column].astype("float64")
     return frame
 
 

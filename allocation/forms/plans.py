@@ -9,7 +9,11 @@ from typing import Any
 from django import forms
 
 from allocation.core import Study
-from allocation.core.limits import MONITORING_LOOKS_MAX
+from allocation.core.limits import (
+    ESCALATE_AFTER_MAX_S,
+    ESCALATION_PEOPLE_MAX,
+    MONITORING_LOOKS_MAX,
+)
 from allocation.core.registry import ASSIGNMENT_STATUS_WORDS, CUE_WORDS, INITIATOR_WORDS
 from allocation.core.scales import EK10_LEVELS, SV10_LEVELS
 from allocation.core.vocabulary import (
@@ -25,6 +29,14 @@ MONITORING_CHOICES = [
     ("periodic", "looks n a day"),
     ("exception", "on flags"),
     ("continuous", "watches a share"),
+]
+
+#: How the person learns that the automation failed (blank: no failures stated).
+DETECTION_CHOICES = [
+    ("", "told by: —"),
+    ("alert", "told by an alert"),
+    ("display", "seen on the display"),
+    ("none", "not told"),
 ]
 
 WHO_CHOICES = [
@@ -61,6 +73,12 @@ class AssignmentForm(TextForm):
     pass_through = forms.BooleanField(required=False)
     monitoring = forms.ChoiceField(required=False, choices=MONITORING_CHOICES)
     monitoring_amount = forms.CharField(required=False, max_length=32)
+    fails_per_1000 = forms.CharField(required=False, max_length=32)
+    detected_by = forms.ChoiceField(required=False, choices=DETECTION_CHOICES)
+    fallback = forms.ChoiceField(required=False)
+    false_alerts_per_day = forms.CharField(required=False, max_length=32)
+    escalate_to = forms.CharField(required=False, max_length=700)
+    escalate_after_s = forms.CharField(required=False, max_length=32)
 
     def __init__(
         self, *args: Any, study: Study, existing: dict[str, Any] | None = None, **kwargs: Any
@@ -72,6 +90,7 @@ class AssignmentForm(TextForm):
         machines = [("", "—")] + [(a.id, a.name) for a in study.agents if not a.is_human]
         self.fields["human"].choices = humans
         self.fields["automation"].choices = machines
+        self.fields["fallback"].choices = [("", "takes over: default")] + humans[1:]
         self.fields["accountable"].choices = [("", "default (the person doing it)")] + [
             (a.id, a.name) for a in study.agents
         ]
@@ -111,6 +130,12 @@ class AssignmentForm(TextForm):
         }
         if item.get("pass_through"):
             initial["pass_through"] = True
+        people = item.get("human")
+        if isinstance(people, list) and people:
+            initial["human"] = people[0]
+            initial["escalate_to"] = ", ".join(people[1:])
+            after = item.get("escalate_after_s")
+            initial["escalate_after_s"] = "" if after is None else f"{after:g}"
         monitoring = item.get("monitoring")
         if isinstance(monitoring, str):
             initial["monitoring"] = monitoring
@@ -118,6 +143,13 @@ class AssignmentForm(TextForm):
             initial["monitoring"] = monitoring.get("style", "")
             amount = monitoring.get("per_day", monitoring.get("share"))
             initial["monitoring_amount"] = "" if amount is None else f"{amount:g}"
+        reliability = item.get("reliability")
+        if isinstance(reliability, dict):
+            for key in ("fails_per_1000", "false_alerts_per_day"):
+                value = reliability.get(key)
+                initial[key] = "" if value is None else f"{value:g}"
+            initial["detected_by"] = reliability.get("detected_by", "")
+            initial["fallback"] = reliability.get("fallback", "")
         levels = item.get("levels")
         if isinstance(levels, dict):
             initial["per_stage"] = True
@@ -139,7 +171,99 @@ class AssignmentForm(TextForm):
             # posts it, and a task that is done has no chain to let go on.
             data["pass_through"] = False
         self._clean_monitoring(data)
+        self._clean_reliability(data)
+        self._clean_escalation(data)
         return data
+
+    def _clean_escalation(self, data: dict[str, Any]) -> None:
+        """The people asked after the person, in order (ids separated by commas, each a
+        person of the study, at most ESCALATION_PEOPLE_MAX in all), and the seconds each
+        has to answer; a row without a person drops them (the fields show on every row)."""
+        data["escalation_value"] = None
+        if data.get("who") not in ("person", "shared") or not data.get("human"):
+            return
+        text = (data.get("escalate_to") or "").strip()
+        after_text = (data.get("escalate_after_s") or "").strip()
+        if not text:
+            if after_text:
+                self.add_error("escalate_to", "Name who is asked next, or leave the time empty.")
+            return
+        humans = {agent.id for agent in self.study.agents if agent.is_human}
+        people = [part.strip() for part in text.split(",") if part.strip()]
+        unknown = [person for person in people if person not in humans]
+        if unknown:
+            self.add_error(
+                "escalate_to", f"{', '.join(unknown)}: not a person of this study (give ids)."
+            )
+            return
+        asked = [data["human"], *people]
+        if len(set(asked)) < len(asked):
+            self.add_error("escalate_to", "Name each person once (the first one included).")
+            return
+        if len(asked) > ESCALATION_PEOPLE_MAX:
+            self.add_error(
+                "escalate_to", f"At most {ESCALATION_PEOPLE_MAX} people in all are asked in turn."
+            )
+            return
+        try:
+            after = float(after_text)
+        except ValueError:
+            self.add_error("escalate_after_s", "Give the seconds each has to answer, like 300.")
+            return
+        if not (math.isfinite(after) and 0 < after <= ESCALATE_AFTER_MAX_S):
+            self.add_error(
+                "escalate_after_s",
+                f"Give the seconds each has to answer (more than 0, at most "
+                f"{ESCALATE_AFTER_MAX_S:,}).",
+            )
+            return
+        data["escalation_value"] = (asked, int(after) if after.is_integer() else after)
+
+    def _clean_reliability(self, data: dict[str, Any]) -> None:
+        """Failures in 1,000 occurrences (0 to 1,000), how the person is told, who takes
+        over, false alerts a day (0 to MONITORING_LOOKS_MAX); only a device's work can
+        fail, so a row without a device drops them (the fields show on every row)."""
+        data["reliability_value"] = None
+        if data.get("who") not in ("device", "shared"):
+            return
+        numbers: dict[str, float] = {}
+        for key, top, words in (
+            ("fails_per_1000", 1000, "failures in 1,000 occurrences, like 5"),
+            ("false_alerts_per_day", MONITORING_LOOKS_MAX, "false alerts a day, like 0.5"),
+        ):
+            text = (data.get(key) or "").strip()
+            if not text:
+                continue
+            try:
+                number = float(text)
+            except ValueError:
+                self.add_error(key, f"Give {words}.")
+                continue
+            if not (math.isfinite(number) and 0 <= number <= top):
+                self.add_error(key, f"Give {words} (from 0 to {top:g}).")
+                continue
+            numbers[key] = int(number) if number.is_integer() else number
+        detected, fallback = data.get("detected_by") or "", data.get("fallback") or ""
+        if "fails_per_1000" not in numbers:
+            if (detected or fallback or numbers) and "fails_per_1000" not in self.errors:
+                self.add_error(
+                    "fails_per_1000",
+                    "Give the failures in 1,000 occurrences (0 for none) first.",
+                )
+            return
+        if numbers["fails_per_1000"] > 0 and not detected:
+            self.add_error(
+                "detected_by", "Say how the person learns of a failure: alert, display or none."
+            )
+            return
+        value: dict[str, Any] = {"fails_per_1000": numbers["fails_per_1000"]}
+        if detected:
+            value["detected_by"] = detected
+        if fallback:
+            value["fallback"] = fallback
+        if "false_alerts_per_day" in numbers:
+            value["false_alerts_per_day"] = numbers["false_alerts_per_day"]
+        data["reliability_value"] = value
 
     def _clean_monitoring(self, data: dict[str, Any]) -> None:
         """The style with its amount: looks a day for periodic (more than 0, at most
@@ -189,6 +313,8 @@ class AssignmentForm(TextForm):
         else:
             if who in ("person", "shared") and data["human"]:
                 item["human"] = data["human"]
+                if data.get("escalation_value") is not None:
+                    item["human"], item["escalate_after_s"] = data["escalation_value"]
             if who in ("device", "shared") and data["automation"]:
                 item["automation"] = data["automation"]
             levels = self._levels() if who == "shared" else None
@@ -201,6 +327,8 @@ class AssignmentForm(TextForm):
                     item[key] = data[key]
             if data.get("monitoring_value") is not None:
                 item["monitoring"] = data["monitoring_value"]
+            if data.get("reliability_value") is not None:
+                item["reliability"] = data["reliability_value"]
         for key in ("status", "rationale"):
             if data[key].strip():
                 item[key] = data[key].strip()

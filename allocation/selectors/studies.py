@@ -75,7 +75,7 @@ def study_for_user(
 
 def study_rows(study: m.Study) -> m.Study:
     """The study with everything needed for its document prefetched (a fixed few queries)."""
-    assignment_related = ("task", "human", "automation", "accountable")
+    assignment_related = ("task", "human", "automation", "accountable", "fallback")
     return (
         m.Study.objects.filter(pk=study.pk)
         .prefetch_related(
@@ -285,7 +285,7 @@ def _link(link: m.Link) -> dict[str, Any]:
 def _assignment(row: m.AssignmentFields) -> dict[str, Any]:
     return _compact(
         {
-            "human": row.human.key if row.human else None,
+            "human": _people(row),
             "automation": row.automation.key if row.automation else None,
             "levels": row.levels,
             "duration_s": row.duration_s,
@@ -297,8 +297,25 @@ def _assignment(row: m.AssignmentFields) -> dict[str, Any]:
             "applies": None if row.applies else False,
             "monitoring": row.monitoring,
             "pass_through": True if row.pass_through else None,
+            "reliability": _reliability(row),
+            "escalate_after_s": row.escalate_after_s,
         }
     )
+
+
+def _people(row: m.AssignmentFields) -> str | list[str] | None:
+    """The file's ``human``: one id, or the ids asked in turn."""
+    if row.human is None:
+        return None
+    return [row.human.key, *row.escalation] if row.escalation else row.human.key
+
+
+def _reliability(row: m.AssignmentFields) -> dict[str, Any] | None:
+    """The reliability as the study file writes it, the fallback person put back."""
+    if row.reliability is None:
+        return None
+    fallback = {"fallback": row.fallback.key} if row.fallback is not None else {}
+    return {**row.reliability, **fallback}
 
 
 def _plan(plan: m.Plan) -> dict[str, Any]:

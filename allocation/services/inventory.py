@@ -173,9 +173,19 @@ def agent_save(
                         for role in ("human", "automation", "accountable"):
                             if assignment.get(role) == key:
                                 assignment[role] = item["id"]
+                        if isinstance(assignment.get("human"), list):
+                            assignment["human"] = [
+                                item["id"] if person == key else person
+                                for person in assignment["human"]
+                            ]
+                        reliability = assignment.get("reliability") or {}
+                        if reliability.get("fallback") == key:
+                            reliability["fallback"] = item["id"]
 
         mutate(edit.document)
         edit.check()
+        if key is not None and item["id"] != key:
+            _rename_in_escalations(edit.study, key, item["id"])
         agent: m.Agent = row_upsert(
             edit.study.agents, key, rows.agent_values(item), study=edit.study
         )
@@ -185,6 +195,43 @@ def agent_save(
     return agent
 
 
+def _escalating_rows(study: m.Study) -> Iterator[m.Assignment | m.ModeOverride]:
+    """The assignment and override rows that ask people in turn."""
+    yield from m.Assignment.objects.filter(
+        plan__study=study, escalation__isnull=False
+    ).select_related("task", "human")
+    yield from m.ModeOverride.objects.filter(
+        state__plan__study=study, escalation__isnull=False
+    ).select_related("task", "human")
+
+
+def _rename_in_escalations(study: m.Study, key: str, new_key: str) -> None:
+    """Follow an agent's new id in the people asked in turn (kept as ids)."""
+    for row in _escalating_rows(study):
+        people = list(row.escalation or [])
+        if key in people:
+            row.escalation = [new_key if person == key else person for person in people]
+            row_bump(row)
+            row.save(update_fields=["escalation", "version"])
+
+
+def _drop_from_escalations(study: m.Study, agent: m.Agent) -> None:
+    """Take a deleted person out of the people asked in turn; where one is left, the
+    assignment names them alone."""
+    for row in _escalating_rows(study):
+        people = [row.human.key if row.human else None, *(row.escalation or [])]
+        if agent.key not in people:
+            continue
+        kept = [person for person in people if person not in (None, agent.key)]
+        if kept:
+            row.human = study.agents.get(key=kept[0])
+        row.escalation = kept[1:] or None
+        if row.escalation is None:
+            row.escalate_after_s = None
+        row_bump(row)
+        row.save(update_fields=["human", "escalation", "escalate_after_s", "version"])
+
+
 def agent_delete_consequences(*, study: m.Study, key: str) -> list[Consequence]:
     """What deleting an agent takes with it."""
     agent = study.agents.get(key=key)
@@ -192,9 +239,10 @@ def agent_delete_consequences(*, study: m.Study, key: str) -> list[Consequence]:
         "accountable": "is no longer named accountable for",
         "human": "no longer does",
         "automation": "no longer does",
+        "fallback": "no longer takes over after a failure of",
     }
     result = []
-    for field in ("human", "automation", "accountable"):
+    for field in what:
         for assignment in m.Assignment.objects.filter(
             plan__study=study, **{field: agent}
         ).select_related("task", "plan"):
@@ -204,7 +252,7 @@ def agent_delete_consequences(*, study: m.Study, key: str) -> list[Consequence]:
                     f"{agent.name} {what[field]} {assignment.task.key} in {assignment.plan.key}",
                 )
             )
-    for field in ("human", "automation", "accountable"):
+    for field in what:
         for override in m.ModeOverride.objects.filter(
             state__plan__study=study, **{field: agent}
         ).select_related("task", "state"):
@@ -212,6 +260,13 @@ def agent_delete_consequences(*, study: m.Study, key: str) -> list[Consequence]:
                 Consequence(
                     "assignment",
                     f"{agent.name} {what[field]} {override.task.key} in mode {override.state.key}",
+                )
+            )
+    for row in _escalating_rows(study):
+        if key in (row.escalation or []):
+            result.append(
+                Consequence(
+                    "assignment", f"{agent.name} is no longer asked in turn for {row.task.key}"
                 )
             )
     return result
@@ -229,10 +284,21 @@ def agent_delete(*, study: m.Study, key: str) -> None:
                     assignment = assignments[task_id]
                     if assignment.get("accountable") == key:
                         del assignment["accountable"]
+                    if (assignment.get("reliability") or {}).get("fallback") == key:
+                        del assignment["reliability"]["fallback"]
+                    people = assignment.get("human")
+                    if isinstance(people, list) and key in people:
+                        people = [person for person in people if person != key]
+                        assignment["human"] = people if len(people) > 1 else people[0]
+                        if len(people) == 1:
+                            assignment.pop("escalate_after_s", None)
                     for role in ("human", "automation"):
                         if assignment.get(role) == key:
                             del assignment[role]
                             assignment.pop("levels", None)
+                            if role == "automation":
+                                # How often an automation fails goes with it.
+                                assignment.pop("reliability", None)
                     if (
                         "human" not in assignment
                         and "automation" not in assignment
@@ -243,12 +309,15 @@ def agent_delete(*, study: m.Study, key: str) -> None:
         mutate(edit.document)
         edit.check()
         agent = edit.study.agents.get(key=key)
+        _drop_from_escalations(edit.study, agent)
         scopes: list[models.QuerySet[Any]] = [
             m.Assignment.objects.filter(plan__study=edit.study),
             m.ModeOverride.objects.filter(state__plan__study=edit.study),
         ]
         for scope in scopes:
             scope.filter(accountable=agent).update(accountable=None, version=BUMPED)
+            scope.filter(fallback=agent).update(fallback=None, version=BUMPED)
+            scope.filter(automation=agent).update(reliability=None, fallback=None)
             scope.filter(human=agent, automation__isnull=True).delete()
             scope.filter(automation=agent, human__isnull=True).delete()
             scope.filter(human=agent).update(human=None, levels=None, version=BUMPED)

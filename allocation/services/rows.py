@@ -86,8 +86,12 @@ def link_values(item: dict[str, Any], tasks: dict[str, m.Task]) -> dict[str, Any
 
 def assignment_values(item: dict[str, Any], agents: dict[str, m.Agent]) -> dict[str, Any]:
     """Values of a plan assignment or a mode override (the fields they share)."""
+    people = item.get("human")
+    first, later = (people[0], list(people[1:])) if isinstance(people, list) else (people, None)
     return {
-        "human": agents[item["human"]] if "human" in item else None,
+        "human": agents[first] if first is not None else None,
+        "escalation": later or None,
+        "escalate_after_s": item.get("escalate_after_s"),
         "automation": agents[item["automation"]] if "automation" in item else None,
         "levels": item.get("levels"),
         "duration_s": item.get("duration_s"),
@@ -99,7 +103,19 @@ def assignment_values(item: dict[str, Any], agents: dict[str, m.Agent]) -> dict[
         "applies": item.get("applies", True),
         "monitoring": item.get("monitoring"),
         "pass_through": bool(item.get("pass_through", False)),
+        **reliability_values(item.get("reliability"), agents),
     }
+
+
+def reliability_values(
+    reliability: dict[str, Any] | None, agents: dict[str, m.Agent]
+) -> dict[str, Any]:
+    """An assignment's reliability: the fallback person as a row, the rest as written."""
+    if reliability is None:
+        return {"reliability": None, "fallback": None}
+    rest = {key: value for key, value in reliability.items() if key != "fallback"}
+    fallback = reliability.get("fallback")
+    return {"reliability": rest, "fallback": agents[fallback] if fallback else None}
 
 
 def plan_values(item: dict[str, Any]) -> dict[str, Any]:

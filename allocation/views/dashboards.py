@@ -37,6 +37,8 @@ HEADLINE_FIGURES = (
     "burden_s_per_day",
     "interruptions_per_day",
     "night_interruptions_per_day",
+    "failures_per_day",
+    "escalations_per_day",
     "handovers",
     "handovers_to_review",
     "findings",

@@ -27,6 +27,7 @@ from allocation.core.scales import level_text
 from allocation.core.vocabulary import ASSIGNMENT_STATUSES, CUES, INITIATORS, STAGES
 from allocation.core.writing import assignment_to_json
 from allocation.forms.plans import (
+    DETECTION_CHOICES,
     MONITORING_CHOICES,
     WHO_CHOICES,
     AssignmentForm,
@@ -62,6 +63,7 @@ def _choices(study: Study) -> dict[str, Any]:
         "levels": level_choices(study.scale),
         "feedback": CUES,
         "monitoring": MONITORING_CHOICES,
+        "detection": DETECTION_CHOICES,
         "initiators": INITIATORS,
         "statuses": [(key, ASSIGNMENT_STATUS_WORDS[key].label) for key in ASSIGNMENT_STATUSES],
         "stages": STAGES,
@@ -132,7 +134,7 @@ def _row(
             "person_s_per_day": sum(figures.person_s_per_day.values()),
             "awareness": None if figures.awareness is None else figures.awareness.index,
             "handovers": (handovers or _handover_counts(analysis))[task_id],
-            "watch": watch_text(study, involved),
+            "watch": watch_text(study, involved, figures.per_day),
         }
     return row
 

@@ -135,5 +135,5 @@ def test_finer_bins_and_more_days_cost_more_and_a_small_run_is_accepted():
     coarse = simulation_memory_estimate(build(2, 1, 900), "p", days=400)
     assert (fine.bins, coarse.bins) == (200 * 1_440, 200 * 96)
     assert fine.bytes > coarse.bytes
-    assert fine.figures == 400 * 2 * 15  # days x people x the 15 daily figures
+    assert fine.figures == 400 * 2 * 17  # days x people x the 17 daily figures
     assert simulate(build(1, 2, 900), "p", days=10, seed=1).days == 10

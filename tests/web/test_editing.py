@@ -224,3 +224,50 @@ def test_the_remembered_document_is_what_the_rows_say(study):
     same()
     services.task_delete(study=study, key="T3")
     same()
+
+
+def test_a_failure_s_fallback_follows_a_new_id_and_goes_with_its_device(study):
+    item = {
+        "automation": "thermostat",
+        "reliability": {"fails_per_1000": 5, "detected_by": "alert", "fallback": "resident"},
+    }
+    services.assignment_set(study=study, plan_key="manual", task_key="T2", item=item)
+    assert document(study)["plans"][0]["assignments"]["T2"] == item
+    occupant = {"id": "occupant", "name": "Occupant", "kind": "human"}
+    services.agent_save(study=study, key="resident", item=occupant)
+    reliability = document(study)["plans"][0]["assignments"]["T2"]["reliability"]
+    assert reliability["fallback"] == "occupant"
+    consequences = services.agent_delete_consequences(study=study, key="occupant")
+    assert any("takes over after a failure of T2" in c.text for c in consequences)
+    # The device goes, and with it how often it fails.
+    services.assignment_set(
+        study=study,
+        plan_key="manual",
+        task_key="T2",
+        item={
+            "human": "occupant",
+            "automation": "thermostat",
+            "levels": 5,
+            "reliability": {**item["reliability"], "fallback": "occupant"},
+        },
+    )
+    services.agent_delete(study=study, key="thermostat")
+    assert document(study)["plans"][0]["assignments"]["T2"] == {"human": "occupant"}
+    assert m.Assignment.objects.filter(reliability__isnull=False).count() == 0
+
+
+def test_people_asked_in_turn_follow_a_new_id_and_lose_a_deleted_person(study):
+    services.agent_save(
+        study=study, key=None, item={"id": "partner", "name": "Partner", "kind": "human"}
+    )
+    item = {"human": ["resident", "partner"], "escalate_after_s": 300}
+    services.assignment_set(study=study, plan_key="manual", task_key="T2", item=item)
+    assert document(study)["plans"][0]["assignments"]["T2"] == item
+    services.agent_save(
+        study=study, key="partner", item={"id": "carer", "name": "Carer", "kind": "human"}
+    )
+    assert document(study)["plans"][0]["assignments"]["T2"]["human"] == ["resident", "carer"]
+    consequences = services.agent_delete_consequences(study=study, key="carer")
+    assert any("no longer asked in turn for T2" in c.text for c in consequences)
+    services.agent_delete(study=study, key="carer")
+    assert document(study)["plans"][0]["assignments"]["T2"] == {"human": "resident"}

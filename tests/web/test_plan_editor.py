@@ -5,7 +5,7 @@ from __future__ import annotations
 from django.urls import reverse
 
 from allocation import models as m
-from allocation import selectors
+from allocation import selectors, services
 from allocation.core.analysis import analyse_plan
 from allocation.core.registry import figure_text
 
@@ -225,3 +225,107 @@ def test_a_task_moved_to_someone_drops_its_chain_goes_on_mark(client, study, own
     assert 'class="row-problems"' not in response.content.decode()
     stored = selectors.study_document(study)["plans"][0]["assignments"]["T2"]
     assert stored == {"human": "resident"}
+
+
+def test_a_device_s_failures_are_saved_and_counted(client, study, owner):
+    # The thermostat does T2 (once a day) and fails 100 times in 1,000: 0.1 failures a
+    # day, each taken over by the resident (the accountable person, the default
+    # fallback) with an alert. Stored as the file writes it; the row shows the fields
+    # open with the values, and the analysis counts the failures.
+    client.force_login(owner)
+    response = client.post(
+        row_url(study.pk, "manual", "T2"),
+        {
+            "who": "device",
+            "automation": "thermostat",
+            "accountable": "resident",
+            "fails_per_1000": "100",
+            "detected_by": "alert",
+            "false_alerts_per_day": "0.5",
+        },
+        headers={"HX-Request": "true"},
+    )
+    fragment = response.content.decode()
+    assert 'class="row-problems"' not in fragment
+    stored = selectors.study_document(study)["plans"][0]["assignments"]["T2"]
+    assert stored["reliability"] == {
+        "fails_per_1000": 100,
+        "detected_by": "alert",
+        "false_alerts_per_day": 0.5,
+    }
+    assert "failures: 100 in 1,000" in fragment
+    assert '<option value="alert" selected>told by an alert</option>' in fragment
+    result = analyse_plan(selectors.study_load(study).study, "manual")
+    assert result.people["resident"].failures_per_day == 0.1
+
+
+def test_a_bad_reliability_is_refused_beside_its_field(client, study, owner):
+    client.force_login(owner)
+    before = selectors.study_document(study)
+    for fields, words in (
+        ({"fails_per_1000": "often"}, "Give failures in 1,000 occurrences, like 5."),
+        ({"fails_per_1000": "1200", "detected_by": "alert"}, "from 0 to 1000"),
+        ({"fails_per_1000": "5"}, "Say how the person learns of a failure"),
+        ({"detected_by": "alert"}, "Give the failures in 1,000 occurrences (0 for none) first."),
+        ({"fails_per_1000": "0", "false_alerts_per_day": "-1"}, "from 0 to 1440"),
+    ):
+        response = client.post(
+            row_url(study.pk, "manual", "T2"),
+            {"who": "device", "automation": "thermostat", "accountable": "resident", **fields},
+            headers={"HX-Request": "true"},
+        )
+        assert words in response.content.decode(), fields
+    assert selectors.study_document(study) == before
+
+
+def test_a_task_moved_to_a_person_drops_the_device_s_failures(client, study, owner):
+    client.force_login(owner)
+    fields = {"fails_per_1000": "5", "detected_by": "display"}
+    client.post(
+        row_url(study.pk, "manual", "T2"),
+        {"who": "device", "automation": "thermostat", "accountable": "resident", **fields},
+        headers={"HX-Request": "true"},
+    )
+    client.post(
+        row_url(study.pk, "manual", "T2"),
+        {"who": "person", "human": "resident", **fields},
+        headers={"HX-Request": "true"},
+    )
+    stored = selectors.study_document(study)["plans"][0]["assignments"]["T2"]
+    assert stored == {"human": "resident"}
+
+
+def test_people_asked_in_turn_are_saved_and_refused_beside_their_field(client, study, owner):
+    # The resident is asked first, the neighbour after 300 s (an agent added here).
+    services.agent_save(
+        study=study, key=None, item={"id": "neighbour", "name": "Neighbour", "kind": "human"}
+    )
+    client.force_login(owner)
+    before = selectors.study_document(study)
+    for fields, words in (
+        ({"escalate_to": "neighbour"}, "Give the seconds each has to answer, like 300."),
+        ({"escalate_to": "nobody", "escalate_after_s": "60"}, "nobody: not a person"),
+        ({"escalate_to": "resident", "escalate_after_s": "60"}, "Name each person once"),
+        ({"escalate_after_s": "60"}, "Name who is asked next"),
+        ({"escalate_to": "neighbour", "escalate_after_s": "0"}, "more than 0"),
+    ):
+        response = client.post(
+            row_url(study.pk, "manual", "T2"),
+            {"who": "person", "human": "resident", **fields},
+            headers={"HX-Request": "true"},
+        )
+        assert words in response.content.decode(), fields
+    assert selectors.study_document(study) == before
+    response = client.post(
+        row_url(study.pk, "manual", "T2"),
+        {
+            "who": "person",
+            "human": "resident",
+            "escalate_to": "neighbour",
+            "escalate_after_s": "300",
+        },
+        headers={"HX-Request": "true"},
+    )
+    assert "asked in turn: then neighbour" in response.content.decode()
+    stored = selectors.study_document(study)["plans"][0]["assignments"]["T2"]
+    assert stored == {"human": ["resident", "neighbour"], "escalate_after_s": 300}

@@ -88,6 +88,8 @@ HEADLINE_FIGURES = (
     "burden_s_per_day",
     "interruptions_per_day",
     "night_interruptions_per_day",
+    "failures_per_day",
+    "escalations_per_day",
     "handovers",
     "handovers_per_day",
     "handovers_to_review",
@@ -104,7 +106,13 @@ FIGURES: dict[str, tuple[str, str, bool]] = {
 }
 
 #: A person's figures compared plan by plan.
-PERSON_FIGURES = ("burden_s_per_day", "interruptions_per_day", "night_interruptions_per_day")
+PERSON_FIGURES = (
+    "burden_s_per_day",
+    "interruptions_per_day",
+    "night_interruptions_per_day",
+    "failures_per_day",
+    "escalations_per_day",
+)
 
 #: Differences smaller than this (relative to the larger value) count as none.
 _SAME = 1e-9

@@ -156,9 +156,10 @@ def accountability_findings(
 
 
 def capability_findings(
-    study: Study, involved: Involvement, mode: str | None = None
+    study: Study, involved: Involvement, mode: str | None = None, *, after_failure: bool = False
 ) -> list[Finding]:
-    """Agents doing a stage of the task without a capability it needs."""
+    """Agents doing a stage of the task without a capability it needs (``after_failure``:
+    the fallback person doing the whole task after the automation failed)."""
     task = study.task(involved.task_id)
     if not involved.applies or not task.needs:
         return []
@@ -171,6 +172,8 @@ def capability_findings(
     if involved.automation is not None:
         doers.append((involved.automation, [s for s in STAGES if involved.degrees[s] > 0]))
     where = f" in mode {mode}" if mode else ""
+    if after_failure:
+        where += " after the automation fails"
     needed = task.needs_by_stage
     for agent_id, stages in doers:
         agent = study.agents_by_id.get(agent_id)

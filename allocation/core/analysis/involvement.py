@@ -84,6 +84,14 @@ class Involvement:
     typical_duration_s: float = 0.0
     active_typical_s: float = 0.0
     monitoring: Monitoring | None = None
+    #: A failed occurrence, taken over by the fallback person (methods document,
+    #: ``#reliability``).
+    failed: bool = False
+    #: Kept by a person asked after the first (methods document, ``#escalation``).
+    escalated: bool = False
+    #: Kept by one of people asked in turn: the share of those occurrences that reached
+    #: them on duty, and on duty while asleep; ``None`` otherwise.
+    kept_shares: tuple[float, float] | None = None
 
     @property
     def watch_s(self) -> float:
@@ -106,15 +114,12 @@ class Involvement:
 
     @property
     def looks_per_day(self) -> float:
-        """Checks a day the monitor makes whatever the task's occurrences: periodic looks,
-        or flags of the automation (exception monitoring; see :func:`flags_per_day`)."""
-        if self.monitoring is None:
+        """Periodic looks a day the monitor makes whatever the task's occurrences (flags
+        under exception monitoring come with the automation's failures and false alerts,
+        see :mod:`.reliability`)."""
+        if self.monitoring is None or self.monitoring.style != "periodic":
             return 0.0
-        if self.monitoring.style == "periodic":
-            return float(self.monitoring.per_day or 0.0)
-        if self.monitoring.style == "exception":
-            return flags_per_day(self.assignment)
-        return 0.0
+        return float(self.monitoring.per_day or 0.0)
 
     @property
     def checks_each(self) -> bool:
@@ -288,12 +293,16 @@ def monitoring_style(assignment: Assignment) -> Monitoring:
     return Monitoring("periodic", per_day=1)
 
 
-def flags_per_day(assignment: Assignment | None) -> float:
-    """Flags a day the automation raises to the accountable person: its false alerts
-    and its failures detected by alert or display. No assignment states its automation's
-    reliability yet, so there are none: exception monitoring costs nothing until it does
-    (methods document, ``#monitoring``)."""
-    return 0.0
+def flags_per_day(assignment: Assignment | None, occurrences_per_day: float) -> float:
+    """Flags a day the automation raises: its false alerts, and its failures detected by
+    an alert or a display (methods document, ``#monitoring``)."""
+    reliability = None if assignment is None else assignment.reliability
+    if reliability is None or assignment is None or assignment.automation is None:
+        return 0.0
+    flags = float(reliability.false_alerts_per_day or 0.0)
+    if reliability.detected:
+        flags += occurrences_per_day * reliability.chance
+    return flags
 
 
 def expected_duration(duration: Range) -> float:
@@ -302,9 +311,10 @@ def expected_duration(duration: Range) -> float:
     return (float(duration.low) + float(duration.typical) + float(duration.high)) / 3
 
 
-def watch_text(study: Study, involved: Involvement) -> str | None:
+def watch_text(study: Study, involved: Involvement, per_day: float = 0.0) -> str | None:
     """How the monitor keeps watch and what it costs, in words (``None``: nobody
-    monitors): "Pat checks each (10 s)", "Pat looks 2 a day (10 s each)"."""
+    monitors): "Pat checks each (10 s)", "Pat looks 2 a day (10 s each)"; ``per_day``
+    is the task's occurrences a day (for the flags of its failures)."""
     watch, monitor = involved.monitoring, involved.monitor
     if watch is None or monitor is None:
         return None
@@ -317,4 +327,5 @@ def watch_text(study: Study, involved: Involvement) -> str | None:
         return f"{name} looks {watch.per_day:g} a day ({check} each)"
     if watch.style == "continuous":
         return f"{name} watches {watch.share:.0%} of the run ({involved.watch_s:.3g} s)"
-    return f"{name} acts on flags ({check} each; {flags_per_day(involved.assignment):g} a day)"
+    flags = flags_per_day(involved.assignment, per_day)
+    return f"{name} acts on flags ({check} each; {flags:.3g} a day)"

@@ -21,19 +21,32 @@ from typing import Any
 from ..assumptions import resolve_assumptions
 from ..describe import seconds_text
 from ..graph import precedence_order
-from ..model import Lag, Plan, Study
+from ..model import Assignment, Lag, Plan, Study
 from ..vocabulary import STAGES
 from .awareness import Awareness, awareness
 from .chaincut import chain_cut_findings
 from .chains import ChainTiming, Span, TaskTiming, chain_timings, response_latency
 from .coherence import Coherence, coherence
 from .duty import on_duty_pieces
+from .escalation import (
+    Escalation,
+    Segment,
+    escalation_shares,
+    keeper_involvement,
+    with_escalation,
+)
 from .findings import Finding, accountability_findings, capability_findings
 from .handovers import Handover, HandoverSite, assess_handover, time_budget_ratio
 from .involvement import Involvement, involvement
 from .modecheck import error_state_tasks, verify_mode_map
 from .modes import assignment_in_mode, mode_occupancy
 from .occurrences import Occurrences, occurrences
+from .reliability import (
+    failed_involvement,
+    false_alert_receiver,
+    silent_failure_findings,
+    with_failures,
+)
 from .risk import resolve_policy
 from .timeofday import DAY_S, DayShare, asleep_intervals, wrap_interval
 
@@ -47,11 +60,12 @@ def is_interruption(involved: Involvement, initiator: str, person: str) -> bool:
     did not start (methods document, ``#interruptions``).
 
     The one doing their part is interrupted when the automation or an event starts the
-    occurrence; a monitor who checks each occurrence is told of it, which interrupts
-    them. Periodic looks and continuous attention never interrupt.
+    occurrence, or when a failure of the automation hands it to them; a monitor who
+    checks each occurrence is told of it, which interrupts them. Periodic looks and
+    continuous attention never interrupt.
     """
     if person == involved.human:
-        return initiator in INTERRUPTING
+        return involved.failed or involved.escalated or initiator in INTERRUPTING
     return person == involved.monitor and involved.checks_each
 
 
@@ -101,6 +115,8 @@ class PersonFigures:
     interruptions_per_day: float = 0.0
     night_interruptions_per_day: float = 0.0
     monitoring_s_per_day: float = 0.0
+    failures_per_day: float = 0.0
+    escalations_per_day: float = 0.0
     awake_s: float = DAY_S
 
     @property
@@ -115,6 +131,8 @@ class PersonFigures:
             "interruptions_per_day": self.interruptions_per_day,
             "night_interruptions_per_day": self.night_interruptions_per_day,
             "monitoring_s_per_day": self.monitoring_s_per_day,
+            "failures_per_day": self.failures_per_day,
+            "escalations_per_day": self.escalations_per_day,
             "awake_share_used": self.load,
         }
 
@@ -130,6 +148,9 @@ class TaskFigures:
     asleep_share: dict[str, float]
     awareness: Awareness | None = None
     ready_s: float = 0.0
+    #: The stretches of the day in which each person asked in turn is asleep or on duty,
+    #: with the share of the task's work ready in each (methods document, #escalation).
+    segments: list[Segment] = field(default_factory=list)
     #: People with duty hours: the share of the task's work that reaches them on duty,
     #: and on duty inside their asleep window (methods document, #duty-hours).
     duty_share: dict[str, tuple[float, float]] = field(default_factory=dict)
@@ -176,6 +197,8 @@ class PlanAnalysis:
             "burden_s_per_day": sum(p.burden_s_per_day for p in people),
             "interruptions_per_day": sum(p.interruptions_per_day for p in people),
             "night_interruptions_per_day": sum(p.night_interruptions_per_day for p in people),
+            "failures_per_day": sum(p.failures_per_day for p in people),
+            "escalations_per_day": sum(p.escalations_per_day for p in people),
             "handovers": len(self.handovers),
             "handovers_per_day": sum(h.site.per_day for h in self.handovers),
             "handovers_to_review": sum(h.band != "acceptable" for h in self.handovers),
@@ -259,7 +282,7 @@ class _Analysis:
         study, plan, graph = self.study, self.plan, self.graph
         leaves = [task.id for task in study.leaves]
         normal = {task_id: self.involved(task_id, self.initial) for task_id in leaves}
-        mixes = self.mode_mixes(leaves, normal)
+        mixes = self.mixes = self.mode_mixes(leaves, normal)
         holders = {task_id: normal[task_id].principal for task_id in leaves}
 
         def applies(task_id: str) -> bool:
@@ -289,6 +312,7 @@ class _Analysis:
             self.assumptions,
         )
         tasks = self.task_figures(leaves, normal, holders, counted, chains)
+        mixes = self.mixes = self.escalate(tasks, mixes)
         people = self.people_figures(tasks, mixes)
         mode_cues = self.mode_cues(leaves, normal)
         in_question = error_state_tasks(self.mode_findings)
@@ -333,22 +357,22 @@ class _Analysis:
     ) -> dict[str, list[tuple[float, Involvement]]]:
         """Each task's assignments in force over the day, weighted by mode occupancy."""
         mixes = {task_id: [(1.0, normal[task_id])] for task_id in leaves}
-        if not self.plan.modes:
-            return mixes
-        for task_id in leaves:
-            parts = []
-            for mode in self.plan.modes.states:
-                share = self.mode_share.get(mode.id, 0.0)
-                if share > 0:
-                    parts.append((share, mode.id))
-            overridden = [
-                (share, m)
-                for share, m in parts
-                if task_id in (self.plan.modes.by_id[m].overrides or {})
+        modes = self.plan.modes
+        if modes is not None:
+            parts = [
+                (self.mode_share[mode.id], mode.id)
+                for mode in modes.states
+                if self.mode_share.get(mode.id, 0.0) > 0
             ]
-            if overridden:
-                mixes[task_id] = [(share, self.involved(task_id, m)) for share, m in parts]
-        return mixes
+            for task_id in leaves:
+                if any(task_id in (modes.by_id[m].overrides or {}) for _share, m in parts):
+                    mixes[task_id] = [(share, self.involved(task_id, m)) for share, m in parts]
+        # Each assignment that can fail: its normal and its failed occurrences.
+        study = self.study
+        return {
+            task_id: with_failures(study, study.task(task_id), mix, self.assumptions)
+            for task_id, mix in mixes.items()
+        }
 
     def mode_holder_changes(self, leaves: list[str]):
         """Transitions that change a task's holder: (transition, task, from, to)."""
@@ -439,8 +463,81 @@ class _Analysis:
                 asleep_share=asleep_share,
                 ready_s=ready,
                 duty_share=self.duty_shares(starts[task_id], total, holders[task_id]),
+                segments=self.reach_shares(task_id, starts[task_id], total),
             )
         return tasks
+
+    def reach_shares(self, task_id: str, starts, total: float) -> list[Segment]:
+        """The stretches of the day in which each person the task's assignments ask in
+        turn is asleep or not, on duty or not, each with the share of the task's
+        occurrences whose work is ready in it (methods document, #escalation)."""
+        people: set[str] = set()
+        for _share, involved in self.mixes[task_id]:
+            assignment = involved.assignment
+            if assignment is not None and assignment.escalation and not involved.failed:
+                people.update(assignment.people_asked)
+        if not people or not total:
+            return []
+        windows = {}
+        for person in sorted(people):
+            agent = self.study.agents_by_id[person]
+            on = on_duty_pieces(agent.on_duty) if agent.on_duty is not None else [(0.0, DAY_S)]
+            windows[person] = (asleep_intervals(agent), on)
+        edges = sorted(
+            {0.0, float(DAY_S)}
+            | {
+                float(edge)
+                for pieces in windows.values()
+                for part in pieces
+                for piece in part
+                for edge in piece
+            }
+        )
+        moved = [(weight, day.shifted(timing.ready.mean)) for weight, timing, day in starts]
+        segments: list[Segment] = []
+        for low, high in zip(edges, edges[1:], strict=False):
+            if high <= low:
+                continue
+            middle = (low + high) / 2
+            weight = sum(w * day.share_within([(low, high)]) for w, day in moved) / total
+            if weight <= 0:
+                continue
+            state = {
+                person: (
+                    any(a <= middle < b for a, b in asleep),
+                    any(a <= middle < b for a, b in on),
+                )
+                for person, (asleep, on) in windows.items()
+            }
+            segments.append((weight, state))
+        return segments
+
+    def escalate(self, tasks: dict[str, TaskFigures], mixes):
+        """Each task's involvements with those that ask people in turn split by who
+        keeps it; the escalations kept for the people who did not answer."""
+        study, default = self.study, self.assumptions["default_response_s"]
+        self.escalations: dict[str, list[tuple[float, Escalation]]] = {}
+        self.escalation_waits: dict[tuple[str, str], float] = {}
+        self.escalation_keepers: dict[tuple[str, str], Involvement] = {}
+        result = {}
+        for task_id, mix in mixes.items():
+
+            def shares_of(assignment: Assignment, segments=tasks[task_id].segments) -> Escalation:
+                return escalation_shares(
+                    study,
+                    assignment.people_asked,
+                    float(assignment.escalate_after_s or 0.0),
+                    segments,
+                    default,
+                    assignment.feedback,
+                )
+
+            result[task_id], asked = with_escalation(
+                study, study.task(task_id), mix, shares_of, self.assumptions
+            )
+            if asked:
+                self.escalations[task_id] = asked
+        return result
 
     def duty_shares(self, starts, total: float, holder: str | None):
         """For each person with duty hours, the share of the task's work that reaches
@@ -480,47 +577,75 @@ class _Analysis:
                     )
                     if human == involved.monitor:
                         people[human].monitoring_s_per_day += rate * involved.watch_s
+                if involved.failed and involved.human in people:
+                    people[involved.human].failures_per_day += rate
                 for human in involved.interacting():
                     if human not in people:
                         continue
                     person = people[human]
                     person.interactions_per_day += rate
                     if is_interruption(involved, figures.initiator, human):
-                        # Work reaching a person off duty waits: not an interruption.
+                        # Work reaching a person off duty waits: not an interruption; one
+                        # who answered a call in time was on duty.
                         on, night = figures.duty_share.get(
                             human, (1.0, figures.asleep_share.get(human, 0.0))
                         )
+                        if involved.kept_shares is not None and human == involved.human:
+                            on, night = involved.kept_shares
                         person.interruptions_per_day += rate * on
                         person.night_interruptions_per_day += rate * night
+            self.add_unanswered(task_id, figures, people)
             self.add_looks(task_id, figures, people)
         return people
+
+    def add_unanswered(
+        self, task_id: str, figures: TaskFigures, people: dict[str, PersonFigures]
+    ) -> None:
+        """The people asked in turn who did not answer in time: each call an interaction
+        and an interruption (at night while they sleep), costing no time; and every call
+        after the first an escalation of the person it goes to."""
+        for share, shares in self.escalations.get(task_id, ()):
+            rate = figures.per_day * share
+            for index, person in enumerate(shares.people):
+                if person not in people:
+                    continue
+                figures_of = people[person]
+                figures_of.interactions_per_day += rate * shares.unanswered[index]
+                figures_of.interruptions_per_day += rate * shares.unanswered[index]
+                figures_of.night_interruptions_per_day += rate * shares.unanswered_asleep[index]
+                if index > 0:
+                    # Reached: a call not answered in time, or the task kept.
+                    reached = shares.unanswered[index] + shares.keep[index]
+                    figures_of.escalations_per_day += rate * reached
 
     def add_looks(
         self, task_id: str, figures: TaskFigures, people: dict[str, PersonFigures]
     ) -> None:
-        """A monitor's checks a day whatever the task's occurrences (methods document,
-        ``#monitoring``): periodic looks, started by the person, spread over their awake
-        time (interactions, never interruptions), and flags of the automation under
-        exception monitoring (each an interruption, at any time of the day).
-        Looks go with a task that occurs under the plan."""
+        """Checks a day whatever the task's occurrences (methods document,
+        ``#monitoring``): a monitor's periodic looks, started by the person, spread over
+        their awake time (interactions, never interruptions), and the automation's false
+        alerts to its accountable person (each an interruption, at any time of the day).
+        Both go with a task that occurs under the plan."""
         if figures.per_day <= 0:
             return
         own = figures.involved if self.initial is None else self.involved(task_id, None)
-        looks = own.looks_per_day
-        if own.monitor not in people or looks <= 0:
-            return
-        person = people[own.monitor]
-        seconds = looks * own.monitoring_s
-        person.burden_s_per_day += seconds
-        person.monitoring_s_per_day += seconds
-        figures.person_s_per_day[own.monitor] = (
-            figures.person_s_per_day.get(own.monitor, 0.0) + seconds
-        )
-        person.interactions_per_day += looks
-        if own.monitoring is not None and own.monitoring.style == "exception":
-            person.interruptions_per_day += looks
-            asleep = sum(b - a for a, b in asleep_intervals(self.study.agents_by_id[own.monitor]))
-            person.night_interruptions_per_day += looks * asleep / DAY_S
+        checks = []
+        if own.monitor in people and own.looks_per_day > 0:
+            checks.append((own.monitor, own.looks_per_day, False))
+        alerted = false_alert_receiver(self.study, own)
+        if alerted is not None and alerted[0] in people:
+            checks.append((*alerted, True))
+        for who, per_day, interrupts in checks:
+            person = people[who]
+            seconds = per_day * float(self.assumptions["monitoring_s"])
+            person.burden_s_per_day += seconds
+            person.monitoring_s_per_day += seconds
+            figures.person_s_per_day[who] = figures.person_s_per_day.get(who, 0.0) + seconds
+            person.interactions_per_day += per_day
+            if interrupts:
+                person.interruptions_per_day += per_day
+                asleep = sum(b - a for a, b in asleep_intervals(self.study.agents_by_id[who]))
+                person.night_interruptions_per_day += per_day * asleep / DAY_S
 
     def link_weights(self, counted: Occurrences) -> list[tuple[str, str, float]]:
         """Each link with the occurrences per day it carries."""
@@ -563,6 +688,8 @@ class _Analysis:
                             stage=STAGES[index],
                         )
                     )
+        sites += self.failure_sites(tasks)
+        sites += self.escalation_sites(tasks)
         for transition, task_id, before, after in self.mode_holder_changes(list(tasks)):
             if before is None or after is None:
                 continue
@@ -583,6 +710,68 @@ class _Analysis:
                 )
             )
         return sites
+
+    def failure_sites(self, tasks: dict[str, TaskFigures]) -> list[HandoverSite]:
+        """A failure of the automation hands the whole task to the fallback person, as
+        often as it fails, with the cue that tells them (methods document,
+        ``#reliability``); one site per task and fallback (the modes' failures add up)."""
+        found: dict[tuple[str, str | None, str | None], HandoverSite] = {}
+        for task_id, figures in tasks.items():
+            mix = self.mixes[task_id]
+            # A failed involvement follows the normal one it is the failure of.
+            for (_share, normal), (share, involved) in zip(mix, mix[1:], strict=False):
+                if not involved.failed:
+                    continue
+                key = (task_id, normal.automation, involved.human)
+                site = found.get(key)
+                per_day = figures.per_day * share + (site.per_day if site else 0.0)
+                found[key] = HandoverSite(
+                    "failure",
+                    task_id,
+                    task_id,
+                    normal.automation,
+                    involved.human,
+                    per_day,
+                    involved.assignment.feedback if involved.assignment else None,
+                    "automation",
+                    trigger="failure",
+                )
+        return list(found.values())
+
+    def escalation_sites(self, tasks: dict[str, TaskFigures]) -> list[HandoverSite]:
+        """Each call that moves on from one person asked to the next, as often as it
+        does, cued as the assignment tells its people (methods document,
+        ``#escalation``); one site per task and pair of people."""
+        found: dict[tuple[str, str, str], HandoverSite] = {}
+        for task_id, entries in self.escalations.items():
+            per_day = tasks[task_id].per_day
+            for share, shares in entries:
+                for index in range(1, len(shares.people)):
+                    before, after = shares.people[index - 1], shares.people[index]
+                    key = (task_id, before, after)
+                    site = found.get(key)
+                    found[key] = HandoverSite(
+                        "escalation",
+                        task_id,
+                        task_id,
+                        before,
+                        after,
+                        per_day * share * shares.asked[index] + (site.per_day if site else 0.0),
+                        shares.cue,
+                        "automation",
+                        trigger=f"no answer within {seconds_text(shares.after_s)}",
+                    )
+                    self.escalation_waits[(task_id, after)] = index * shares.after_s
+                    if shares.base is not None:
+                        self.escalation_keepers[(task_id, after)] = keeper_involvement(
+                            self.study,
+                            self.study.task(task_id),
+                            shares.base,
+                            index,
+                            None,
+                            self.assumptions,
+                        )
+        return list(found.values())
 
     def sites_through(self, tasks, holders, link_weights) -> list[HandoverSite]:
         """Work passing across a task not done whose chain goes on (``pass_through``):
@@ -663,6 +852,16 @@ class _Analysis:
             target = tasks[site.to_task]
             mode = site.modes[1] if site.modes else self.initial
             involved = self.involved(site.to_task, mode) if site.modes else target.involved
+            if site.source == "failure":
+                # The fallback person does the whole task.
+                involved = next(
+                    item
+                    for _share, item in self.mixes[site.to_task]
+                    if item.failed and item.human == site.to_agent
+                )
+            elif site.source == "escalation":
+                # The person the call reached does the task.
+                involved = self.escalation_keepers[(site.to_task, site.to_agent or "")]
             # The budget of a typical occurrence: typical work, latency and ready time
             # (methods document, #time-budget-ratio).
             if receiver is not None and receiver.is_human:
@@ -677,6 +876,8 @@ class _Analysis:
             ).typical
             window = study.task(site.to_task).window_s
             ready = 0.0 if site.source == "mode" else target.ready_s
+            # The calls before this one count in its time budget.
+            ready += self.escalation_waits.get((site.to_task, site.to_agent or ""), 0.0)
             ratio = time_budget_ratio(
                 latency,
                 work,
@@ -734,12 +935,28 @@ class _Analysis:
             },
         )
 
+    def failure_findings(
+        self, involved: Involvement, critical: int, mode: str | None = None
+    ) -> list[Finding]:
+        """A failure nobody is told of, and a fallback person without what the task
+        needs (methods document, ``#reliability``)."""
+        study = self.study
+        found = silent_failure_findings(study, involved, critical, mode)
+        failed = failed_involvement(
+            study, study.task(involved.task_id), involved, self.assumptions
+        )
+        if failed is not None:
+            found += capability_findings(study, failed, mode, after_failure=True)
+        return found
+
     def findings(self, normal: dict[str, Involvement], chains: list[ChainTiming]):
         study = self.study
         found: list[Finding] = []
+        critical = int(self.policy["critical_severity"])
         for involved in normal.values():
             found += accountability_findings(study, involved)
             found += capability_findings(study, involved)
+            found += self.failure_findings(involved, critical)
         if self.plan.modes:
             for mode in self.plan.modes.states:
                 if mode.id == self.initial:
@@ -750,6 +967,7 @@ class _Analysis:
                     involved = self.involved(task_id, mode.id)
                     found += accountability_findings(study, involved, mode.id)
                     found += capability_findings(study, involved, mode.id)
+                    found += self.failure_findings(involved, critical, mode.id)
         found += _window_findings(study, chains)
         found += self.mode_findings
         found.sort(key=lambda f: (-f.severity, f.kind, f.tasks))

@@ -20,9 +20,10 @@ from ..model import Study
 from ..registry import CATEGORIES, FIGURES, HANDOVER_SOURCES, RISK_BANDS, figure_text, finding_kind
 from ..scales import level_text, shared_levels, single_level
 from ..vocabulary import STAGES
-from ..writing import monitoring_to_json
+from ..writing import monitoring_to_json, reliability_to_json
 from .involvement import Involvement
 from .plan import PlanAnalysis
+from .reliability import failure_chance
 
 __all__ = ["METHODS", "METHOD_ANCHORS", "analysis_json", "levels_with_words", "text_report"]
 
@@ -93,6 +94,10 @@ def _task_json(result: PlanAnalysis, task_id: str) -> dict[str, Any]:
         "monitoring": monitoring_to_json(involved.monitoring),
         "watch_s": involved.watch_s,
         "looks_per_day": involved.looks_per_day,
+        "reliability": reliability_to_json(
+            None if involved.assignment is None else involved.assignment.reliability
+        ),
+        "failures_per_day": figures.per_day * failure_chance(involved.assignment),
         "person_s_per_day": figures.person_s_per_day,
         "asleep_share": figures.asleep_share,
         "awareness_factors": None if aware is None else aware.factors,
@@ -200,6 +205,7 @@ def text_report(result: PlanAnalysis, *, top: int = 10) -> str:
         "interruptions_per_day",
         "night_interruptions_per_day",
         "monitoring_s_per_day",
+        "failures_per_day",
     )
     rows = [["Person", *(FIGURES[key].heading for key in people)]]
     for agent_id, person in result.people.items():

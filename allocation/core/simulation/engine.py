@@ -108,6 +108,8 @@ class Looks:
     start: np.ndarray  # absolute
     seconds: np.ndarray
     interrupts: np.ndarray
+    #: A call that escalated to the person (asked after the first).
+    escalation: np.ndarray | None = None
 
     @classmethod
     def none(cls) -> Looks:
@@ -119,6 +121,24 @@ class Looks:
             empty,
             empty,
             empty.astype(bool),
+            empty.astype(bool),
+        )
+
+    @classmethod
+    def joined(cls, parts: list[Looks]) -> Looks:
+        """The rows of several, in order."""
+        return cls(
+            **{
+                name: np.concatenate(
+                    [
+                        getattr(part, name)
+                        if getattr(part, name) is not None
+                        else np.zeros(part.task.size, bool)
+                        for part in parts
+                    ]
+                )
+                for name in cls.__dataclass_fields__
+            }
         )
 
 
@@ -161,7 +181,7 @@ def _looks(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -> Lo
         parts["start"].append(at)
         parts["seconds"].append(np.full(total, seconds))
         parts["interrupts"].append(np.full(total, interrupts))
-    joined = {key: np.concatenate(values) for key, values in parts.items()}
+    joined = {key: np.concatenate(values) for key, values in parts.items() if values}
     return Looks(
         task=joined["task"].astype(int),
         person=joined["person"].astype(int),
@@ -169,6 +189,7 @@ def _looks(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -> Lo
         start=joined["start"].astype(float),
         seconds=joined["seconds"].astype(float),
         interrupts=joined["interrupts"].astype(bool),
+        escalation=np.zeros(joined["task"].size, bool),
     )
 
 
@@ -268,6 +289,83 @@ def _latency(
     return wait
 
 
+def _off_duty(sim: SimPlan, agent: int, moment: np.ndarray) -> np.ndarray:
+    """Whether the agent is off duty at each moment."""
+    pieces = sim.off_duty[agent] if sim.off_duty else []
+    if not pieces:
+        return np.zeros(moment.size, bool)
+    return in_intervals(moment % DAY_S, [(low, high) for low, high, _next in pieces])
+
+
+def _escalate(
+    sim: SimPlan,
+    rng: np.random.Generator,
+    variant: np.ndarray,
+    at: np.ndarray,
+    calls: list[tuple[int, int, np.ndarray, bool]],
+    task: int,
+) -> tuple[np.ndarray, np.ndarray | None]:
+    """People asked in turn (methods document, #escalation): the variant of whoever keeps
+    each occurrence, and how long after ``at`` they start it (NaN where no one is asked).
+
+    The j-th person is asked ``j x escalate_after_s`` after the work is ready; on duty
+    they answer with their latency drawn for that moment and keep the task when it is
+    within ``escalate_after_s``; the last keeps it whatever (an off-duty wait included).
+    Calls not answered in time by a person on duty are added to ``calls`` as (task,
+    human, moments, after the first).
+    """
+    asked = np.isin(variant, list(sim.escalation)) if sim.escalation else None
+    if asked is None or not asked.any():
+        return variant, None
+    kept = variant.copy()
+    wait = np.full(variant.size, np.nan)
+    for v in np.unique(variant[asked]):
+        people, after, keepers = sim.escalation[int(v)]
+        pending = np.flatnonzero(variant == v)
+        for j, agent in enumerate(people):
+            moment = at[pending] + j * after
+            latency = _latency(sim, rng, np.full(pending.size, agent), moment)
+            if j == len(people) - 1:
+                answers = np.ones(pending.size, bool)
+            else:
+                on = ~_off_duty(sim, int(agent), moment)
+                answers = on & (latency <= after)
+                missed = on & ~answers
+                if missed.any():
+                    human = sim.humans.index(sim.agents[int(agent)])
+                    calls.append((task, human, moment[missed], j > 0))
+            chosen = pending[answers]
+            kept[chosen] = keepers[j]
+            wait[chosen] = j * after + latency[answers]
+            pending = pending[~answers]
+            if not pending.size:
+                break
+    return kept, wait
+
+
+def _calls(calls: list[tuple[int, int, np.ndarray, bool]], first_day: int, days: int) -> Looks:
+    """The calls nobody answered in time, inside the chunk: an interruption each, costing
+    no time (rows of :class:`Looks`)."""
+    opens, closes = first_day * DAY_S, (first_day + days) * DAY_S
+    rows = [
+        (task, human, moment[(moment >= opens) & (moment < closes)], later)
+        for task, human, moment, later in calls
+    ]
+    sizes = [moment.size for _t, _h, moment, _l in rows]
+    if not sum(sizes):
+        return Looks.none()
+    start = np.concatenate([moment for _t, _h, moment, _l in rows])
+    return Looks(
+        task=np.repeat([task for task, _h, _m, _l in rows], sizes).astype(int),
+        person=np.repeat([human for _t, human, _m, _l in rows], sizes).astype(int),
+        day=(np.floor(start / DAY_S) - first_day).astype(int),
+        start=start,
+        seconds=np.zeros(start.size),
+        interrupts=np.ones(start.size, bool),
+        escalation=np.repeat([later for _t, _h, _m, later in rows], sizes).astype(bool),
+    )
+
+
 def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -> ChunkDraw:
     """Simulate days ``first_day .. first_day + days - 1`` as chunk ``chunk`` of a run."""
     rng = run_generator(seed, 1 + chunk)
@@ -282,6 +380,7 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
     }
     happenings_count, missed_count = [], []
     window_counts: dict[tuple[int, int], tuple[int, int]] = {}
+    calls: list[tuple[int, int, np.ndarray, bool]] = []
     for c, chain in enumerate(sim.chains):
         begin = _happenings(rng, chain, phases[c], first_day - lead, days + lead)
         count = begin.size
@@ -330,10 +429,24 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
             else:
                 mode = mode_index[np.searchsorted(mode_times, at, side="right") - 1]
                 variant = sim.variant_of[task, mode]
+            failed = None
+            if sim.fail_chance.size and sim.fail_chance[variant].any():
+                # A failure hands the whole occurrence to the fallback person (drawn only
+                # where the automation can fail, so other plans keep their draws).
+                failed = rng.random(size) < sim.fail_chance[variant]
+                variant = np.where(failed, sim.fail_variant[variant], variant)
+            variant, called = _escalate(sim, rng, variant, at, calls, task)
             receiver = sim.holder[variant]
             if not arrivals:
-                # An event hands the work to its holder; a schedule's holder starts it.
-                start = at + _latency(sim, rng, receiver, at) if chain.from_event else at
+                # An event hands the work to its holder; a schedule's holder starts it;
+                # a failure hands it to the fallback.
+                if chain.from_event:
+                    start = at + _latency(sim, rng, receiver, at)
+                elif failed is not None and failed.any():
+                    start = at.copy()
+                    start[failed] += _latency(sim, rng, receiver[failed], at[failed])
+                else:
+                    start = at
             else:
                 # Each predecessor's work arrives, plus the receiver's latency where the
                 # work changes hands (drawn only there).
@@ -342,12 +455,18 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
                     for _arrival, given_by in arrivals
                 ]
                 handed = np.logical_or.reduce(changes) if len(changes) > 1 else changes[0]
+                if failed is not None:
+                    changes = [changed | failed for changed in changes]
+                    handed = handed | failed
                 wait = np.zeros(size)
                 if handed.any():
                     wait[handed] = _latency(sim, rng, receiver[handed], at[handed])
                 start = np.full(size, -np.inf)
                 for (arrival, _given_by), changed in zip(arrivals, changes, strict=True):
                     start = np.maximum(start, arrival[rows] + wait * changed)
+            if called is not None:
+                # Whoever kept the task starts it when they answered.
+                start = np.where(np.isnan(called), start, at + called)
             if np.all(variant == variant[0]):
                 low, typical, high = sim.duration[variant[0]]
             else:
@@ -400,7 +519,9 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
         task_window_counts=window_counts,
         mode_times=mode_times,
         mode_index=mode_index,
-        looks=_looks(sim, seed, chunk, first_day, days),
+        looks=Looks.joined(
+            [_looks(sim, seed, chunk, first_day, days), _calls(calls, first_day, days)]
+        ),
     )
 
 
@@ -458,7 +579,7 @@ def person_segments(
     looks = draw.looks
     if looks is not None and looks.task.size:
         # Periodic looks and exception flags, each a check of monitoring_s.
-        at = np.flatnonzero(looks.person == person)
+        at = np.flatnonzero((looks.person == person) & (looks.seconds > 0))
         starts.append(looks.start[at])
         ends.append(looks.start[at] + looks.seconds[at])
         tasks.append(looks.task[at])

@@ -41,6 +41,8 @@ FIGURES = (
     "interactions",
     "interruptions",
     "night_interruptions",
+    "failures",
+    "escalations",
     "peak_occupancy",
     "overload_min",
     *(f"peak_{channel}" for channel in CHANNELS),
@@ -107,6 +109,10 @@ def chunk_figures(sim: SimPlan, draw: ChunkDraw) -> dict[str, dict[str, np.ndarr
             "interactions": _per_day(draw.day, involved.astype(float), days),
             "interruptions": _per_day(draw.day, interrupting.astype(float), days),
             "night_interruptions": _per_day(draw.day, night.astype(float), days),
+            "failures": _per_day(draw.day, (doing & sim.is_failure[variant]).astype(float), days),
+            "escalations": _per_day(
+                draw.day, (doing & sim.is_escalated[variant]).astype(float), days
+            ),
         }
         if looks is not None and looks.task.size:
             # Periodic looks (interactions) and exception flags (interruptions).
@@ -119,6 +125,9 @@ def chunk_figures(sim: SimPlan, draw: ChunkDraw) -> dict[str, dict[str, np.ndarr
             figures["interactions"] += _per_day(day, np.ones(day.size), days)
             figures["interruptions"] += _per_day(day, flags.astype(float), days)
             figures["night_interruptions"] += _per_day(day, (flags & asleep).astype(float), days)
+            if looks.escalation is not None:
+                later = looks.escalation[mine].astype(float)
+                figures["escalations"] += _per_day(day, later, days)
         _segments, sweep = person_sweep(sim, draw, p)
         bins = np.diff(sweep.integral(0, edges))[: days * per_day].reshape(days, per_day)
         bins = bins / lengths

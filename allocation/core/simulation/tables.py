@@ -17,10 +17,12 @@ import numpy as np
 
 from ..analysis.chains import Span
 from ..analysis.duty import off_duty_pieces
+from ..analysis.escalation import keeper_involvement
 from ..analysis.involvement import Involvement, involvement
 from ..analysis.modes import assignment_in_mode
 from ..analysis.occurrences import TriggerTiming
 from ..analysis.plan import PlanAnalysis, StudyGraph, is_interruption, own_involvement
+from ..analysis.reliability import failed_involvement, failure_chance, false_alert_receiver
 from ..analysis.timeofday import DAY_S, asleep_intervals, awake_intervals, rule_sleeper
 from ..graph import trigger_rule
 from ..model import Study, seconds_of_day
@@ -97,6 +99,17 @@ class SimPlan:
     latency_asleep: np.ndarray
     asleep: list[list[tuple[float, float]]]  # per agent (empty for automations)
     window_s: np.ndarray  # tasks, nan without
+    #: Variants: the chance an occurrence fails, the variant a failure turns it into
+    #: (-1: none), and whether the variant is such a failure (methods document,
+    #: #reliability).
+    fail_chance: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    fail_variant: np.ndarray = field(default_factory=lambda: np.zeros(0, int))
+    is_failure: np.ndarray = field(default_factory=lambda: np.zeros(0, bool))
+    #: Variants whose people are asked in turn: (the agents asked, seconds each has,
+    #: the variant of each keeping the task); and whether a variant is kept by a person
+    #: asked after the first (methods document, #escalation).
+    escalation: dict[int, tuple[np.ndarray, float, np.ndarray]] = field(default_factory=dict)
+    is_escalated: np.ndarray = field(default_factory=lambda: np.zeros(0, bool))
     chains: list[ChainPlan] = field(default_factory=list)
     #: Periodic looks and exception flags: (task, human, per day, seconds each, interrupts).
     looks: list[tuple[int, int, float, float, bool]] = field(default_factory=list)
@@ -204,6 +217,39 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
                 )
             else:
                 variant_of[i, m] = base_variant
+    # Each variant that can fail gets the variant of its failed occurrences.
+    fail_variant = np.full(len(variants), -1)
+    fail_chance = np.zeros(len(variants))
+    for v in range(len(variants)):
+        involved = variants[v]
+        failed = failed_involvement(study, study.task(involved.task_id), involved, assumptions)
+        if failed is not None:
+            fail_variant[v] = len(variants)
+            fail_chance[v] = failure_chance(involved.assignment)
+            variants.append(failed)
+    # Each variant whose people are asked in turn gets one variant per later person
+    # keeping it (the first keeps the variant itself); a failed occurrence asks no one.
+    escalation: dict[int, tuple[np.ndarray, float, np.ndarray]] = {}
+    for v in range(len(variants)):
+        involved = variants[v]
+        assignment = involved.assignment
+        if involved.failed or assignment is None or not assignment.escalation:
+            continue
+        task = study.task(involved.task_id)
+        keepers = [v]
+        for k in range(1, len(assignment.people_asked)):
+            keepers.append(len(variants))
+            kept = keeper_involvement(study, task, involved, k, None, assumptions)
+            variants.append(kept)
+        escalation[v] = (
+            np.array([agent_index[person] for person in assignment.people_asked]),
+            float(assignment.escalate_after_s or 0.0),
+            np.array(keepers),
+        )
+    fail_variant = np.concatenate([fail_variant, np.full(len(variants) - fail_variant.size, -1)])
+    fail_chance = np.concatenate([fail_chance, np.zeros(len(variants) - fail_chance.size)])
+    is_failure = np.array([involved.failed for involved in variants], bool)
+    is_escalated = np.array([involved.escalated for involved in variants], bool)
     count = len(variants)
     duration = np.zeros((count, 3))
     stage_share = np.zeros((count, len(STAGES)))
@@ -246,20 +292,16 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
                 interacts[v, human_index[person]] = True
                 interrupts[v, human_index[person]] = is_interruption(involved, initiator, person)
     looks = []
+    check_s = float(assumptions["monitoring_s"])
     for i, task_id in enumerate(task_ids):
         if analysis.tasks[task_id].per_day <= 0:
             continue  # looks go with a task that occurs (methods document, #monitoring)
         own = own_involvement(study, plan, task_id, assumptions)
         if own.monitor in human_index and own.looks_per_day > 0:
-            looks.append(
-                (
-                    i,
-                    human_index[own.monitor],
-                    own.looks_per_day,
-                    own.monitoring_s,
-                    own.monitoring is not None and own.monitoring.style == "exception",
-                )
-            )
+            looks.append((i, human_index[own.monitor], own.looks_per_day, check_s, False))
+        alerted = false_alert_receiver(study, own)
+        if alerted is not None and alerted[0] in human_index:
+            looks.append((i, human_index[alerted[0]], alerted[1], check_s, True))
 
     initiators = [analysis.tasks[task_id].initiator for task_id in task_ids]
     demands = np.array(
@@ -323,6 +365,11 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
                 for t in task_ids
             ]
         ),
+        fail_chance=fail_chance,
+        fail_variant=fail_variant,
+        is_failure=is_failure,
+        escalation=escalation,
+        is_escalated=is_escalated,
         bin_s=float(study.bin_seconds),
         occupancy_limit=float(assumptions["occupancy_limit"]),
         channel_limit=float(assumptions["channel_limit"]),

@@ -41,6 +41,8 @@ ALLOCATION_COLUMNS = (
     "feedback",
     "initiator",
     "monitoring",
+    "reliability",
+    "escalate_after_s",
     "rationale",
     "status",
     "applies",

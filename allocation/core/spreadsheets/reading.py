@@ -38,6 +38,7 @@ from allocation.core import limits, load_study
 from allocation.core.monitoring import parse_monitoring_cell
 from allocation.core.needs import parse_needs
 from allocation.core.reading import parse_json_text
+from allocation.core.reliability_cell import parse_people_cell, parse_reliability_cell
 from allocation.core.spreadsheets.layout import (
     ALLOCATION_COLUMNS,
     LINK_COLUMNS,
@@ -88,6 +89,8 @@ ASSIGNMENT_COLUMNS = (
     "feedback",
     "initiator",
     "monitoring",
+    "reliability",
+    "escalate_after_s",
     "rationale",
     "status",
     "applies",
@@ -123,6 +126,9 @@ _ASSIGNMENT_FIELDS = (
     "status",
     "rationale",
     "applies",
+    "pass_through",
+    "reliability",
+    "escalate_after_s",
 )
 _ZIP_MAGIC = b"PK\x03\x04"
 
@@ -753,6 +759,23 @@ def _needs(value: Any) -> list[str] | dict[str, list[str]] | None:
         raise _CellError(str(problem)) from None
 
 
+def _reliability(value: Any) -> dict[str, Any] | None:
+    """How often the automation fails: ``5 in 1000; detected by alert; …``."""
+    text = _text(value)
+    if text is None:
+        return None
+    try:
+        return parse_reliability_cell(text)
+    except ValueError as problem:
+        raise _CellError(str(problem)) from None
+
+
+def _people(value: Any) -> str | list[str] | None:
+    """A person's id, or the ids of people asked in turn, separated by commas."""
+    text = _text(value)
+    return None if text is None else parse_people_cell(text)
+
+
 def _monitoring(value: Any) -> str | dict[str, Any] | None:
     """A monitoring style: each, exception, periodic N or continuous S."""
     text = _text(value)
@@ -843,13 +866,15 @@ _LINK_CELLS = {
 }
 _ASSIGNMENT_CELLS = {
     "task": _text,
-    "human": _text,
+    "human": _people,
     "automation": _text,
     "levels": _levels,
     "accountable": _text,
     "feedback": _text,
     "initiator": _text,
     "monitoring": _monitoring,
+    "reliability": _reliability,
+    "escalate_after_s": _number,
     "rationale": _text,
     "status": _text,
     "applies": _applies,

@@ -398,6 +398,8 @@ def test_home_heating_objective_by_hand():
         "burden_s_per_day",
         "interruptions_per_day",
         "night_interruptions_per_day",
+        "failures_per_day",
+        "escalations_per_day",
     ]
 
 

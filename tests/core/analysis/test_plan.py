@@ -47,6 +47,8 @@ PERSON_KEYS = {
     "interruptions_per_day",
     "night_interruptions_per_day",
     "monitoring_s_per_day",
+    "failures_per_day",
+    "escalations_per_day",
 }
 TASK_KEYS = {
     "category",
@@ -132,7 +134,7 @@ def test_every_example_plan_gives_the_design_analysis_file(name, plan_id):
         assert all(0 <= d <= 1 for d in task["degrees"].values())
     for handover in output["handovers"]:
         assert HANDOVER_KEYS - set(handover) == set()
-        assert handover["source"] in {"link", "shared", "mode"}
+        assert handover["source"] in {"link", "shared", "mode", "failure", "escalation"}
         assert handover["band"] in {"acceptable", "review", "unacceptable"}
         assert 0 <= handover["likelihood"] <= 1
     assert COHERENCE_KEYS - set(output["coherence"]) == set()
