@@ -403,6 +403,12 @@ class ModeTransition(models.Model):
     by = models.CharField(max_length=16, choices=_words(CAUSE_WORDS))
     cue = models.CharField(max_length=16, choices=_words(CUE_WORDS))
     per_day = models.FloatField(null=True, blank=True)
+    # Or it happens with each occurrence of an event (deleting the event leaves it to be
+    # made by someone), or at fixed times of day ("HH:MM", as the study file writes them).
+    event = models.ForeignKey(
+        Event, on_delete=models.SET_NULL, null=True, blank=True, related_name="+"
+    )
+    times = models.JSONField(null=True, blank=True)
     notes = models.TextField(blank=True)
     position = models.PositiveIntegerField(default=0)
     # Optimistic versioning: every service write adds one; a save names the

@@ -472,8 +472,9 @@ METHOD_NOTES = (
         "The day simulation draws durations and latencies from their triangular "
         "distributions, lags uniformly, rates as Poisson processes, periodic looks "
         "as a Poisson process over the person's awake day and false alerts over the "
-        "whole day, each occurrence's failure with its chance; each day starts in the "
-        "initial mode at midnight; runs are cut into chunks of days drawn from one seed.",
+        "whole day, each occurrence's failure with its chance; the mode is carried across "
+        "midnight, a chunk's first midnight drawn from the long-run distribution; runs "
+        "are cut into chunks of days drawn from one seed.",
     ),
 )
 

@@ -18,7 +18,7 @@ from .analysis.reliability import fallback_person
 from .assumptions import resolve_assumptions
 from .errors import Problem
 from .graph import chain_entries, hierarchy_cycle, never_occurring, precedence_cycle, triggers
-from .limits import CHAIN_ENTRIES_MAX
+from .limits import CHAIN_ENTRIES_MAX, MODE_TIMES_MAX
 from .model import ANY_MODE, Assignment, Event, ModeMap, Occurs, Plan, Study
 from .reading import child_path
 
@@ -394,8 +394,27 @@ class _Checker:
                             + ".pass_through",
                             "goes on the plan's own assignment, not on a mode's override",
                         )
+        clocks: set[str] = set()
         for index, transition in enumerate(modes.transitions):
             item_path = self.locate(transition, f"{path}.transitions[{index}]")
+            clocks.update(transition.times or ())
+            if transition.event is not None:
+                event = self.study.events_by_id.get(transition.event)
+                if event is None:
+                    self.error(
+                        child_path(item_path, "event"),
+                        f"names the event {transition.event!r}, which the study does not have",
+                    )
+                else:
+                    clocks.update(event.times or ())
+            if len(clocks) > MODE_TIMES_MAX:
+                self.error(
+                    path,
+                    f"changes mode at more than {MODE_TIMES_MAX:,} times of day (its "
+                    "transitions' times and the times of the events that move it; "
+                    "MODE_TIMES_MAX)",
+                )
+                clocks.clear()
             for key, mode_id in (("from", transition.source), ("to", transition.target)):
                 if mode_id not in mode_ids and not (key == "from" and mode_id == ANY_MODE):
                     self.error(

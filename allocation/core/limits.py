@@ -21,6 +21,7 @@ __all__ = [
     "Limit",
     "MAX_PER_DAY",
     "MONITORING_LOOKS_MAX",
+    "MODE_TIMES_MAX",
     "ESCALATION_PEOPLE_MAX",
     "ESCALATE_AFTER_MAX_S",
     "MODE_STATES_MAX",
@@ -95,6 +96,10 @@ MAX_PER_DAY = 1_000_000
 #: each is drawn in the day simulation, so the bound keeps a run's memory with its
 #: estimate.
 MONITORING_LOOKS_MAX = 1440
+#: The most times of day one mode map changes mode at (its transitions' ``times`` and the
+#: fixed times of the events that move it): each cuts the day for the time-in-mode
+#: computation, which solves one matrix exponential per stretch.
+MODE_TIMES_MAX = 1440
 #: The most people one assignment asks in turn (its ``human`` as a list): each is a
 #: handover and a variant of the task in the simulation. A household or a care team
 #: rarely has more than a handful to call on.
@@ -291,6 +296,13 @@ LIMITS: tuple[Limit, ...] = (
         "periodic looks at, or false alerts of, one task's work (an assignment's monitoring "
         "per_day, its reliability's false_alerts_per_day)",
         "study reader, forms",
+    ),
+    Limit(
+        "MODE_TIMES_MAX",
+        MODE_TIMES_MAX,
+        "times",
+        "times of day one mode map changes mode at (transitions' times, events' times)",
+        "study reader, checks, forms",
     ),
     Limit(
         "ESCALATION_PEOPLE_MAX",

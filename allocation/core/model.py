@@ -310,7 +310,11 @@ ANY_MODE = "*"
 
 @dataclass(frozen=True)
 class Transition:
-    """A change from one mode to another; ``source`` may be :data:`ANY_MODE`."""
+    """A change from one mode to another; ``source`` may be :data:`ANY_MODE`.
+
+    It happens at a rate (``per_day`` while in the source mode), with each occurrence
+    of an event (``event``), at fixed times of day (``times``), or only when someone
+    makes it (none of them)."""
 
     source: str
     target: str
@@ -319,6 +323,19 @@ class Transition:
     cue: str
     per_day: Number | None = None
     notes: str | None = None
+    event: str | None = None
+    times: tuple[str, ...] | None = None
+
+    @property
+    def driven(self) -> str | None:
+        """How it happens by itself: ``"rate"``, ``"event"``, ``"times"`` or ``None``."""
+        if self.per_day:
+            return "rate"
+        if self.event is not None:
+            return "event"
+        if self.times:
+            return "times"
+        return None
 
 
 @dataclass(frozen=True)

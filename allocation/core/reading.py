@@ -27,6 +27,7 @@ from .limits import (
     INTEGER_DIGITS,
     LABEL_LENGTH,
     MAX_PER_DAY,
+    MODE_TIMES_MAX,
     MONITORING_LOOKS_MAX,
     NOTE_LENGTH,
     PHRASE_LENGTH,
@@ -1223,9 +1224,26 @@ class StudyReader:
         return self.identifier(value, path)
 
     def transition(self, value: Any, path: str) -> Transition | None:
-        data = self.obj(value, path, ("from", "to", "trigger", "by", "cue"), ("per_day", "notes"))
+        data = self.obj(
+            value,
+            path,
+            ("from", "to", "trigger", "by", "cue"),
+            ("per_day", "notes", "event", "times"),
+        )
         if data is None or "from" not in data or "to" not in data:
             return None
+        given = [way for way in ("per_day", "event", "times") if way in data]
+        if len(given) > 1:
+            self.error(path, f"happens in one way only, but gives {' and '.join(given)}")
+        times = None
+        if "times" in data:
+            times_path = child_path(path, "times")
+            items = self.listing(data["times"], times_path)
+            if isinstance(data["times"], list) and not 1 <= len(items) <= MODE_TIMES_MAX:
+                self.error(times_path, f"must list from 1 to {MODE_TIMES_MAX:,} times of day")
+                items = []
+            clocks = [self.clock(item, child_path(times_path, i)) for i, item in enumerate(items)]
+            times = tuple(clock for clock in clocks if clock is not None) or None
         # "from": "*" is a transition from every mode (overridden where a mode has its
         # own transition with the same trigger).
         source = self.mode_source(data["from"], child_path(path, "from"))
@@ -1252,4 +1270,6 @@ class StudyReader:
                 lambda v, p: self.number(v, p, positive=True, maximum=MAX_PER_DAY),
             ),
             notes=self.optional(data, "notes", path, self.note),
+            event=self.optional(data, "event", path, self.identifier),
+            times=times,
         )

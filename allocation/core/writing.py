@@ -211,6 +211,8 @@ def transition_to_json(transition: Transition) -> dict[str, Any]:
             "by": transition.by,
             "cue": transition.cue,
             "per_day": transition.per_day,
+            "event": transition.event,
+            "times": _listed(transition.times),
             "notes": transition.notes,
         }
     )

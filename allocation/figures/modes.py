@@ -13,9 +13,10 @@ from __future__ import annotations
 
 import html
 import math
+from dataclasses import replace
 from typing import Any
 
-from allocation.core.model import ModeMap
+from allocation.core.model import ANY_MODE, ModeMap
 from allocation.core.registry import CAUSE_WORDS as REGISTRY_CAUSES
 from allocation.core.registry import CUE_WORDS
 from allocation.figures.base import ACCENT, INK, INK_SOFT, PAPER
@@ -128,7 +129,20 @@ def mode_map_figure(
     data: list[dict[str, Any]] = []
     seen_pairs: dict[tuple[str, str], int] = {}
     labels_x, labels_y, labels, label_hover, label_colours = [], [], [], [], []
+    # A transition from every mode ("*") is drawn from each mode it leaves, numbered as
+    # its row of the transitions table.
+    own = {(x.source, x.trigger) for x in modes.transitions if x.source != ANY_MODE}
+    numbered = []
     for number, t in enumerate(modes.transitions, start=1):
+        if t.source == ANY_MODE:
+            numbered += [
+                (number, replace(t, source=mode.id))
+                for mode in modes.states
+                if (mode.id, t.trigger) not in own
+            ]
+        else:
+            numbered.append((number, t))
+    for number, t in numbered:
         if t.source not in at or t.target not in at:
             continue
         if t.source == t.target:
@@ -144,6 +158,8 @@ def mode_map_figure(
             f"{html.escape(names[t.target])}<br>caused by {CAUSE_WORDS.get(t.by, t.by)}; "
             f"cue: {cue_words}"
             + (f"<br>{t.per_day:g} a day while in the first mode" if t.per_day else "")
+            + (f"<br>with each {html.escape(t.event)}" if t.event else "")
+            + (f"<br>at {html.escape(', '.join(t.times))}" if t.times else "")
         )
         data.append(
             {

@@ -61,8 +61,19 @@ class TransitionForm(ItemForm):
     per_day = forms.FloatField(
         required=False,
         label="rate per day",
-        help_text="while in the 'from' mode; blank: not counted in the day's mode shares",
+        help_text="while in the 'from' mode",
         widget=forms.NumberInput(attrs={"step": "any"}),
+    )
+    event = forms.ChoiceField(
+        required=False,
+        label="with the event",
+        help_text="each time the event happens (the work it starts follows in the new mode)",
+    )
+    times = forms.CharField(
+        required=False,
+        max_length=2000,
+        label="at times of day",
+        help_text='"HH:MM", separated by commas, like 22:00, 07:00',
     )
     notes = forms.CharField(required=False, widget=forms.Textarea(attrs={"rows": 2}))
 
@@ -73,11 +84,20 @@ class TransitionForm(ItemForm):
         ("Caused by", "by", ("by",)),
         ("Cue", "cue", ("cue",)),
         ("Rate per day", "per_day", ("per_day",)),
+        ("With the event", "event", ("event",)),
+        ("At times of day", "times", ("times",)),
         ("Notes", "notes", ("notes",)),
     )
 
-    def __init__(self, *args: Any, modes: list[tuple[str, str]], **kwargs: Any):
+    def __init__(
+        self,
+        *args: Any,
+        modes: list[tuple[str, str]],
+        events: list[tuple[str, str]] | None = None,
+        **kwargs: Any,
+    ):
         super().__init__(*args, **kwargs)
+        self.fields["event"].choices = [("", "—"), *(events or [])]
         # "from" may also be every mode: a mode's own transition with the same trigger
         # overrides it there.
         self.fields["source"].choices = [(ANY_MODE, "any mode (*)"), *modes]
@@ -92,8 +112,23 @@ class TransitionForm(ItemForm):
             "by": item["by"],
             "cue": item["cue"],
             "per_day": item.get("per_day", ""),
+            "event": item.get("event", ""),
+            "times": ", ".join(item.get("times") or ()),
             "notes": item.get("notes", ""),
         }
+
+    def clean(self) -> dict[str, Any]:
+        data = super().clean()
+        given = [
+            label
+            for key, label in (("per_day", "a rate"), ("event", "an event"), ("times", "times"))
+            if data.get(key) not in (None, "")
+        ]
+        if len(given) > 1:
+            self.add_error(
+                "per_day", f"A change happens in one way: give {' or '.join(given)}, not both."
+            )
+        return data
 
     def item(self) -> dict[str, Any]:
         data = self.cleaned_data
@@ -106,5 +141,11 @@ class TransitionForm(ItemForm):
         }
         if data["per_day"] is not None:
             item["per_day"] = file_number(data["per_day"])
+        if data.get("event"):
+            item["event"] = data["event"]
+        times = [part.strip() for part in (data.get("times") or "").split(",") if part.strip()]
+        if times:
+            # The study reader judges each time, with its path.
+            item["times"] = times
         self._text("notes", "notes", item)
         return item

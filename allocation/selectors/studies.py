@@ -93,7 +93,7 @@ def study_rows(study: m.Study) -> m.Study:
             ),
             Prefetch(
                 "plans__mode_transitions",
-                queryset=m.ModeTransition.objects.select_related("source", "target"),
+                queryset=m.ModeTransition.objects.select_related("source", "target", "event"),
             ),
         )
         .get()
@@ -359,6 +359,8 @@ def _transition(item: m.ModeTransition) -> dict[str, Any]:
             "by": item.by,
             "cue": item.cue,
             "per_day": _number(item.per_day),
+            "event": item.event.key if item.event is not None else None,
+            "times": item.times,
             "notes": item.notes,
         }
     )

@@ -349,6 +349,8 @@ def event_save(
             for task in document["tasks"]:
                 if (task.get("occurs") or {}).get("event") == key:
                     task["occurs"]["event"] = item["id"]
+            for transition in _transitions_on(document, key):
+                transition["event"] = item["id"]
 
         mutate(edit.document)
         edit.check()
@@ -364,6 +366,16 @@ def event_save(
         event.save()
         edit.target = item_named("event", key, item["id"])
     return event
+
+
+def _transitions_on(document: Document, key: str) -> list[dict[str, Any]]:
+    """The mode-map transitions that happen with event ``key``."""
+    return [
+        transition
+        for plan in document.get("plans", [])
+        for transition in (plan.get("modes") or {}).get("transitions", [])
+        if transition.get("event") == key
+    ]
 
 
 def event_delete_consequences(*, study: m.Study, key: str) -> list[Consequence]:
@@ -387,6 +399,8 @@ def event_delete(*, study: m.Study, key: str) -> None:
             for task in document["tasks"]:
                 if (task.get("occurs") or {}).get("event") == key:
                     del task["occurs"]
+            for transition in _transitions_on(document, key):
+                del transition["event"]  # made by someone from now on
 
         mutate(edit.document)
         edit.check()

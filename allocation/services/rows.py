@@ -138,8 +138,12 @@ def mode_values(item: dict[str, Any]) -> dict[str, Any]:
     }
 
 
-def transition_values(item: dict[str, Any], states: dict[str, m.ModeState]) -> dict[str, Any]:
+def transition_values(
+    item: dict[str, Any], states: dict[str, m.ModeState], events: dict[str, m.Event]
+) -> dict[str, Any]:
     return {
+        "event": events[item["event"]] if "event" in item else None,
+        "times": item.get("times"),
         "source": None if item["from"] == ANY_MODE else states[item["from"]],
         "target": states[item["to"]],
         "trigger": item["trigger"],

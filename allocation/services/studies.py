@@ -150,10 +150,17 @@ def modes_create(
                 for order, (task_id, assignment) in enumerate(mode.get("overrides", {}).items())
             ]
         )
+    events = (
+        {event.key: event for event in plan_row.study.events.all()}
+        if any("event" in transition for transition in modes["transitions"])
+        else {}
+    )
     m.ModeTransition.objects.bulk_create(
         [
             m.ModeTransition(
-                plan=plan_row, position=index, **rows.transition_values(transition, states)
+                plan=plan_row,
+                position=index,
+                **rows.transition_values(transition, states, events),
             )
             for index, transition in enumerate(modes["transitions"])
         ]

@@ -5,6 +5,7 @@ modes, holder overrides and transitions, and the step-through of each finding's 
 from __future__ import annotations
 
 import re
+from dataclasses import replace
 from typing import Any
 
 from django.contrib import messages
@@ -118,6 +119,8 @@ def _region_context(page: StudyPage, plan: Plan) -> dict[str, Any]:
                 {
                     "index": index,
                     "transition": t,
+                    "when": _when_text(study, t),
+                    "fires": _fires(analysis, modes, t),
                     "source": modes.by_id[t.source].name
                     if t.source in modes.by_id
                     else ("any mode" if t.source == ANY_MODE else t.source),
@@ -190,6 +193,31 @@ def _uncued_transitions(modes, findings: list[Finding]) -> frozenset[tuple[str, 
         for f in findings
         if f.kind in ("uncued_change", "unforeseen_transition") and f.events
     )
+
+
+def _when_text(study: Study, transition) -> str:
+    """How a transition happens, in words."""
+    if transition.per_day:
+        return f"at {transition.per_day:g} a day"
+    if transition.event is not None:
+        event = study.events_by_id.get(transition.event)
+        return f"with each {event.name if event else transition.event}"
+    if transition.times:
+        return "at " + ", ".join(transition.times)
+    return "when made"
+
+
+def _fires(analysis: PlanAnalysis | None, modes, transition) -> float | None:
+    """How often a transition happens a day in the long run (its copies from every mode
+    added up); ``None`` before the plan is analysed."""
+    if analysis is None or analysis.mode_time is None:
+        return None
+    total = 0.0
+    for expanded, fires in zip(modes.expanded, analysis.mode_time.fires, strict=True):
+        same_source = transition.source == ANY_MODE or expanded.source == transition.source
+        if same_source and replace(expanded, source=transition.source) == transition:
+            total += fires
+    return total
 
 
 def _confirm_text(name: str, consequences) -> str:
@@ -566,9 +594,10 @@ def _transition_target(plan: Plan, transition: str) -> int | None:
     return index
 
 
-def _transition_form(plan: Plan, data=None, initial=None) -> TransitionForm:
+def _transition_form(study: Study, plan: Plan, data=None, initial=None) -> TransitionForm:
     choices = [(mode.id, f"{mode.name} ({mode.id})") for mode in plan.modes.states]
-    return TransitionForm(data, initial=initial, modes=choices)
+    events = [(event.id, f"{event.name} ({event.id})") for event in study.events]
+    return TransitionForm(data, initial=initial, modes=choices, events=events)
 
 
 def _expected(request: HttpRequest) -> dict[str, str] | None:
@@ -596,7 +625,9 @@ def transition_edit(request: HttpRequest, pk: int, plan: str, transition: str) -
         chosen,
         what="transition",
         key=transition,
-        make_form=lambda data=None, initial=None: _transition_form(chosen, data, initial),
+        make_form=lambda data=None, initial=None: _transition_form(
+            page.study, chosen, data, initial
+        ),
         initial={} if item is None else TransitionForm.initial_for(item),
         save=lambda new, version: services.transition_save(
             study=page.row,

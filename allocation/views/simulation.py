@@ -93,6 +93,26 @@ def _statistics_rows(summary: dict[str, Any], names: dict[str, str]) -> list[dic
     return rows
 
 
+def _mode_rows(page: StudyPage, plan: Plan, summary: dict[str, Any]) -> list[dict[str, str]]:
+    """The simulated share of the days in each mode beside the analysis's long-run share
+    (a run stored before modes kept time has none)."""
+    simulated = summary.get("time_in_mode") or {}
+    if not simulated or plan.modes is None:
+        return []
+    analysis = page.analysis(plan.id) if page.result.ok else None
+    expected = analysis.mode_share if analysis is not None else {}
+    return [
+        {
+            "mode": mode.name,
+            "simulated": figure_number("mode_share", simulated.get(mode.id, 0.0)),
+            "expected": figure_number("mode_share", expected[mode.id])
+            if mode.id in expected
+            else "—",
+        }
+        for mode in plan.modes.states
+    ]
+
+
 def _statistics(figure: str, stats: dict[str, float]) -> dict[str, str]:
     """Mean, P50 and P95 of a simulated figure at the registry's precision."""
     return {key: figure_number(figure, stats[key]) for key in ("mean", "p50", "p95")}
@@ -130,6 +150,7 @@ def _result_context(
         "day_number": day["day"],
         "rows": _statistics_rows(summary, names),
         "chains": chains,
+        "modes": _mode_rows(page, plan, summary),
         "charts": {
             "day": day_chart(day, names, titles),
             "occupancy": occupancy_chart(day, names),

@@ -481,7 +481,9 @@ def test_modes_hand_work_over_in_the_share_of_the_day_the_analysis_gives():
     assert expected == pytest.approx(4 * 0.5, rel=0.05)  # the Markov chain's day average
     assert abs(values.mean() - expected) <= 4 * error
     day = day_timeline(study, "p", seed=4, day=0, days=1).to_json()
-    assert day["modes"][0] == [0.0, "auto"] and len(day["modes"]) > 1
+    # The day opens in the mode carried over from the night before (long-run 50/50).
+    assert day["modes"][0][0] == 0.0 and day["modes"][0][1] in ("auto", "manual")
+    assert len(day["modes"]) > 1
 
 
 def window_miss_probability() -> float:

@@ -21,7 +21,7 @@ from ..model import Event, Occurs, Study, seconds_of_day
 from .chance import chain_chances
 from .timeofday import DayShare, asleep_intervals, awake_intervals, rule_sleeper
 
-__all__ = ["Occurrences", "TriggerTiming", "occurrences", "trigger_timings"]
+__all__ = ["Occurrences", "TriggerTiming", "occurrences", "rate_and_timing", "trigger_timings"]
 
 
 @dataclass(frozen=True)
@@ -37,7 +37,7 @@ class TriggerTiming:
         return self.trigger.kind == "event"
 
 
-def _rate_and_timing(
+def rate_and_timing(
     rule: Event | Occurs, study: Study, every_days_when: str
 ) -> tuple[float, DayShare]:
     person = rule_sleeper(study, rule)
@@ -60,7 +60,7 @@ def trigger_timings(study: Study, every_days_when: str = "awake") -> list[Trigge
     """Every trigger of the study with its rate per day and its time-of-day spread."""
     result = []
     for trigger in triggers(study):
-        per_day, timing = _rate_and_timing(trigger_rule(study, trigger), study, every_days_when)
+        per_day, timing = rate_and_timing(trigger_rule(study, trigger), study, every_days_when)
         result.append(TriggerTiming(trigger, per_day, timing))
     return result
 

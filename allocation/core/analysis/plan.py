@@ -18,6 +18,8 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 from typing import Any
 
+import numpy as np
+
 from ..assumptions import resolve_assumptions
 from ..describe import seconds_text
 from ..graph import precedence_order
@@ -39,7 +41,8 @@ from .findings import Finding, accountability_findings, capability_findings
 from .handovers import Handover, HandoverSite, assess_handover, time_budget_ratio
 from .involvement import Involvement, involvement
 from .modecheck import error_state_tasks, verify_mode_map
-from .modes import assignment_in_mode, mode_occupancy
+from .modes import assignment_in_mode
+from .modetime import ModeTime, mode_time
 from .occurrences import Occurrences, occurrences
 from .reliability import (
     failed_involvement,
@@ -188,6 +191,8 @@ class PlanAnalysis:
     #: Work passing between two automations: not handovers (methods document,
     #: #automation-interfaces).
     interfaces: list[HandoverSite] = field(default_factory=list)
+    #: The modes' long-run time (methods document, #mode-share); ``None`` without modes.
+    mode_time: ModeTime | None = None
 
     def headline(self) -> dict[str, float]:
         """The plan's headline figures, for overviews and comparison."""
@@ -268,7 +273,12 @@ class _Analysis:
         self.graph = graph
         self.assumptions = resolve_assumptions(study.assumptions, study.scale)
         self.policy = resolve_policy(study.risk_policy)
-        self.mode_share = mode_occupancy(plan.modes) if plan.modes else {}
+        self.mode_time = (
+            mode_time(study, plan.modes, self.assumptions["every_days_when"])
+            if plan.modes
+            else None
+        )
+        self.mode_share = self.mode_time.share_dict() if self.mode_time else {}
         self.initial = plan.modes.initial if plan.modes else None
         self.mode_findings = verify_mode_map(study, plan, self.assumptions) if plan.modes else []
 
@@ -282,7 +292,6 @@ class _Analysis:
         study, plan, graph = self.study, self.plan, self.graph
         leaves = [task.id for task in study.leaves]
         normal = {task_id: self.involved(task_id, self.initial) for task_id in leaves}
-        mixes = self.mixes = self.mode_mixes(leaves, normal)
         holders = {task_id: normal[task_id].principal for task_id in leaves}
 
         def applies(task_id: str) -> bool:
@@ -311,6 +320,8 @@ class _Analysis:
             duration,
             self.assumptions,
         )
+        self.starts = _chain_starts(chains, counted)
+        mixes = self.mixes = self.mode_mixes(leaves, normal)
         tasks = self.task_figures(leaves, normal, holders, counted, chains)
         mixes = self.mixes = self.escalate(tasks, mixes)
         people = self.people_figures(tasks, mixes)
@@ -348,6 +359,7 @@ class _Analysis:
             findings=findings,
             mode_share=self.mode_share,
             interfaces=interfaces,
+            mode_time=self.mode_time,
         )
 
     # -- modes ----------------------------------------------------------------------
@@ -355,18 +367,20 @@ class _Analysis:
     def mode_mixes(
         self, leaves: list[str], normal: dict[str, Involvement]
     ) -> dict[str, list[tuple[float, Involvement]]]:
-        """Each task's assignments in force over the day, weighted by mode occupancy."""
+        """Each task's assignments in force, weighted by the chance that its work is
+        ready in each mode (methods document, #mode-share)."""
         mixes = {task_id: [(1.0, normal[task_id])] for task_id in leaves}
-        modes = self.plan.modes
-        if modes is not None:
-            parts = [
-                (self.mode_share[mode.id], mode.id)
-                for mode in modes.states
-                if self.mode_share.get(mode.id, 0.0) > 0
-            ]
+        modes, timed = self.plan.modes, self.mode_time
+        if modes is not None and timed is not None:
             for task_id in leaves:
-                if any(task_id in (modes.by_id[m].overrides or {}) for _share, m in parts):
-                    mixes[task_id] = [(share, self.involved(task_id, m)) for share, m in parts]
+                if not any(task_id in (mode.overrides or {}) for mode in modes.states):
+                    continue
+                shares = task_modes(timed, self.starts[task_id])
+                mixes[task_id] = [
+                    (float(share), self.involved(task_id, mode))
+                    for mode, share in zip(timed.modes, shares, strict=True)
+                    if share > 0
+                ]
         # Each assignment that can fail: its normal and its failed occurrences.
         study = self.study
         return {
@@ -394,6 +408,15 @@ class _Analysis:
                     changes.append((transition, task_id, before, after))
         return changes
 
+    def fires_per_day(self, transition) -> float:
+        """How often a transition of the map happens a day in the long run."""
+        if self.plan.modes is None or self.mode_time is None:
+            return 0.0
+        if not hasattr(self, "fire_index"):
+            # By identity: the map's expanded transitions are made once (cached).
+            self.fire_index = {id(t): i for i, t in enumerate(self.plan.modes.expanded)}
+        return self.mode_time.fires[self.fire_index[id(transition)]]
+
     def mode_cues(self, leaves: list[str], normal: dict[str, Involvement]) -> dict[str, str]:
         """The weakest cue among the transitions that change each task's holder."""
         weakness = self.assumptions["cue_weakness"]
@@ -413,12 +436,7 @@ class _Analysis:
         # chain, and the chain's time-of-day spread. The expected times place its
         # occurrences in the day (asleep shares, night interruptions); the typical ready
         # time is the time budget's.
-        starts: dict[str, list[tuple[float, TaskTiming, DayShare]]] = defaultdict(list)
-        for chain in chains:
-            chain_spread = counted.timings[chain.trigger.id].timing
-            for timing in chain.tasks:
-                weight = chain.per_day * timing.probability
-                starts[timing.task_id].append((weight, timing, chain_spread))
+        starts = self.starts
         default = self.assumptions["default_response_s"]
         latency_means = {
             human: (
@@ -438,7 +456,7 @@ class _Analysis:
             )
             total = sum(item[0] for item in starts[task_id])
             asleep_share = dict.fromkeys(sleep, 0.0)
-            for weight, timing, day in starts[task_id] if total else ():
+            for weight, timing, day, _trigger in starts[task_id] if total else ():
                 moved = None  # the chain's day shifted by the expected start, made once
                 for human, pieces in sleep.items():
                     if not pieces:
@@ -450,7 +468,7 @@ class _Analysis:
                         share = moved.share_within(pieces)
                     asleep_share[human] += weight * share / total
             ready = (
-                sum(weight * timing.ready.typical for weight, timing, _d in starts[task_id])
+                sum(weight * timing.ready.typical for weight, timing, _d, _t in starts[task_id])
                 / total
                 if total
                 else 0.0
@@ -493,7 +511,7 @@ class _Analysis:
                 for edge in piece
             }
         )
-        moved = [(weight, day.shifted(timing.ready.mean)) for weight, timing, day in starts]
+        moved = [(weight, day.shifted(timing.ready.mean)) for weight, timing, day, _t in starts]
         segments: list[Segment] = []
         for low, high in zip(edges, edges[1:], strict=False):
             if high <= low:
@@ -550,7 +568,7 @@ class _Analysis:
             on = on_duty_pieces(agent.on_duty)
             night = _overlap(on, asleep_intervals(agent))
             reached = on_share = night_share = 0.0
-            for weight, timing, day in starts:
+            for weight, timing, day, _trigger in starts:
                 moment = timing.ready.mean if agent.id == holder else timing.start.mean
                 moved = day.shifted(moment)
                 on_share += weight * moved.share_within(on)
@@ -693,7 +711,7 @@ class _Analysis:
         for transition, task_id, before, after in self.mode_holder_changes(list(tasks)):
             if before is None or after is None:
                 continue
-            rate = float(transition.per_day or 0.0) * self.mode_share.get(transition.source, 0)
+            rate = self.fires_per_day(transition)
             initiator = {"environment": "event"}.get(transition.by, transition.by)
             sites.append(
                 HandoverSite(
@@ -972,6 +990,42 @@ class _Analysis:
         found += self.mode_findings
         found.sort(key=lambda f: (-f.severity, f.kind, f.tasks))
         return found
+
+
+def _chain_starts(chains: list[ChainTiming], counted: Occurrences):
+    """Per task, from each chain: its weight (occurrences per day), its timing in the
+    chain, the chain's time-of-day spread and its trigger. The expected times place its
+    occurrences in the day (asleep shares, night interruptions, modes); the typical ready
+    time is the time budget's."""
+    starts: dict[str, list[tuple[float, TaskTiming, DayShare, Any]]] = defaultdict(list)
+    for chain in chains:
+        chain_spread = counted.timings[chain.trigger.id].timing
+        for timing in chain.tasks:
+            weight = chain.per_day * timing.probability
+            starts[timing.task_id].append((weight, timing, chain_spread, chain.trigger))
+    return starts
+
+
+def task_modes(timed: ModeTime, starts) -> np.ndarray:
+    """The chance that a task's work is ready in each mode: per chain, the distribution
+    over the modes when its trigger happens (after the jump its event makes, where the
+    event moves the mode: the mode changes first) carried over the time to the task's
+    ready time at the day's average rates; or, for a chain whose trigger does not move
+    the mode, the distribution at the task's ready times of the day (methods document,
+    #mode-share)."""
+    if len(timed.stretches) == 1 and not timed.event_jumps:
+        return timed.shares  # the same in every moment of the day
+    total = sum(weight for weight, _timing, _day, _trigger in starts)
+    if not total:
+        return timed.shares
+    result = np.zeros(len(timed.modes))
+    for weight, timing, day, trigger in starts:
+        jump = timed.event_jumps.get(trigger.id) if trigger.kind == "event" else None
+        if jump is None:
+            result += weight * timed.over(day.shifted(timing.ready.mean))
+        else:
+            result += weight * timed.after(timed.over(day) @ jump, timing.ready.mean)
+    return result / total
 
 
 def _shift(pieces: list[tuple[float, float]], seconds: float) -> list[tuple[float, float]]:

@@ -173,6 +173,7 @@ def analysis_json(result: PlanAnalysis) -> dict[str, Any]:
         "findings": [finding.to_json() for finding in result.findings],
         "headline": result.headline(),
         "mode_share": result.mode_share,
+        "time_in_mode": result.mode_share,
         "chains": [_chain_json(chain) for chain in result.chains],
         "risk_policy": result.policy,
         "assumptions": assumption_table(study.assumptions, study.scale),

@@ -34,6 +34,7 @@ from .results import (
     chain_counts,
     chunk_figures,
     day_figures,
+    mode_seconds,
 )
 from .tables import KINDS, SimPlan, build_sim_plan
 
@@ -107,7 +108,14 @@ def _chunk(sim: SimPlan, seed: int, chunk: int, days: int) -> SimulationChunk:
     first = chunk * CHUNK_DAYS
     length = min(CHUNK_DAYS, days - first)
     draw = draw_chunk(sim, seed, chunk, first, length)
-    return SimulationChunk(chunk, first, length, chunk_figures(sim, draw), chain_counts(sim, draw))
+    return SimulationChunk(
+        chunk,
+        first,
+        length,
+        chunk_figures(sim, draw),
+        chain_counts(sim, draw),
+        mode_seconds(sim, draw),
+    )
 
 
 def simulate_chunk(
@@ -173,6 +181,10 @@ def combine(
                 total["tasks"][task_id][0] += occurred
                 total["tasks"][task_id][1] += missed
     assumptions = resolve_assumptions(study.assumptions, study.scale)
+    modes = {
+        mode: np.concatenate([part.modes.get(mode, np.zeros(part.days)) for part in ordered])
+        for mode in (ordered[0].modes if ordered else {})
+    }
     return Simulation(
         plan_id=plan_id,
         days=days,
@@ -185,6 +197,7 @@ def combine(
             "occupancy": float(assumptions["occupancy_limit"]),
             "channel": float(assumptions["channel_limit"]),
         },
+        modes=modes,
     )
 
 

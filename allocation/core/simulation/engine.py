@@ -23,10 +23,12 @@ The rules (methods document, ``#simulation-rules``; tool assumptions marked):
   on after midnight); a chunk also draws the chains started in the days before it, as
   many as the longest chain can last (at most :data:`MAX_LEAD_DAYS`), so that its first
   days get the work those chains carry into them;
-- each day starts in the mode map's initial mode at midnight (as the analytic mode shares
-  do) and moves by its transition rates, the time in a mode exponential (a continuous-time
-  Markov chain); an occurrence takes the assignment in force in the mode it becomes ready
-  in;
+- the mode at a chunk's first midnight is drawn from the long-run distribution at
+  midnight; the mode then moves by its transition rates (the time in a mode exponential:
+  a continuous-time Markov chain), at its transitions' fixed times and with the
+  happenings of the events that move it (the same happenings that start their chains,
+  the mode changing first), carried across midnight; an occurrence takes the assignment
+  in force in the mode it becomes ready in;
 - a person's active time on an occurrence (each stage's share of the duration times the
   share the automation leaves them, added up) runs from the task's start, the stages in
   order (tool assumption); supervision follows the task's end, then monitoring by the
@@ -194,12 +196,11 @@ def _looks(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -> Lo
 
 
 def _phases(sim: SimPlan, seed: int) -> list[float]:
-    """Each every-N-days trigger's phase in days, drawn once per run."""
+    """Each every-N-days trigger's phase in days, drawn once per run: the chains', then
+    those of the events that move the mode but start no chain."""
     rng = run_generator(seed, 0)
-    return [
-        float(rng.random() * chain.rule.every_days) if chain.rule.every_days else 0.0
-        for chain in sim.chains
-    ]
+    rules = [chain.rule for chain in sim.chains] + list(sim.mode_event_rules.values())
+    return [float(rng.random() * rule.every_days) if rule.every_days else 0.0 for rule in rules]
 
 
 def _happenings(
@@ -228,20 +229,52 @@ def _happenings(
     return np.sort(day * DAY_S + uniform_in_pieces(rng, total, rule.pieces))
 
 
-def _mode_path(sim: SimPlan, rng: np.random.Generator, first_day: int, days: int):
-    """Each day's path through the modes from midnight: change times and modes."""
-    times, modes = [], []
+def _mode_path(
+    sim: SimPlan,
+    rng: np.random.Generator,
+    first_day: int,
+    days: int,
+    happenings: dict[str, np.ndarray],
+):
+    """The path through the modes over the chunk's days: change times and modes.
+
+    The first midnight's mode is drawn from the long-run distribution at midnight (what
+    carrying the mode over from the days before gives); then the mode moves at its
+    transitions' rates (exponential times in a mode), at their fixed times, and at each
+    happening of an event that moves it (the same happenings that start its chain).
+    """
+    opens, closes = first_day * DAY_S, (first_day + days) * DAY_S
+    size = len(sim.modes)
+    mode = int(rng.choice(size, p=sim.at_midnight)) if size > 1 else 0
+    times, modes = [opens], [mode]
+    if size == 1:
+        return np.array(times), np.array(modes, int)
+    scheduled: list[tuple[float, np.ndarray | None]] = [
+        (day * DAY_S + at, jump)
+        for day in range(first_day, first_day + days)
+        for at, jump in sim.mode_impulses
+    ]
+    for event_id, jump in sim.mode_moves.items():
+        moments = happenings.get(event_id, np.zeros(0))
+        scheduled += [(float(at), jump) for at in moments if opens <= at < closes]
+    scheduled.sort(key=lambda item: item[0])
+    scheduled.append((closes, None))
     out = sim.rates.sum(axis=1)
-    for day in range(first_day, first_day + days):
-        mode, clock = sim.initial_mode, 0.0
-        times.append(day * DAY_S)
-        modes.append(mode)
+    clock = opens
+    for when, move in scheduled:
+        # Exponential times in a mode until the next fixed move (memoryless).
         while out[mode] > 0:
-            clock += rng.exponential(1.0 / out[mode]) * DAY_S
-            if clock >= DAY_S:
+            wait = rng.exponential(1.0 / out[mode]) * DAY_S
+            if clock + wait >= when:
                 break
-            mode = int(rng.choice(len(out), p=sim.rates[mode] / out[mode]))
-            times.append(day * DAY_S + clock)
+            clock += wait
+            mode = int(rng.choice(size, p=sim.rates[mode] / out[mode]))
+            times.append(clock)
+            modes.append(mode)
+        clock = when
+        if move is not None and int(move[mode]) != mode:
+            mode = int(move[mode])
+            times.append(when)
             modes.append(mode)
     return np.array(times), np.array(modes, int)
 
@@ -374,7 +407,20 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
     # the chunk's own stream), so that its first days carry their share of them.
     lead = sim.lead_days
     opens, closes = first_day * DAY_S, (first_day + days) * DAY_S
-    mode_times, mode_index = _mode_path(sim, rng, first_day - lead, days + lead)
+    # Every trigger's happenings first: an event that moves the mode moves it with the
+    # same happenings that start its chain.
+    begins = [
+        _happenings(rng, chain, phases[c], first_day - lead, days + lead)
+        for c, chain in enumerate(sim.chains)
+    ]
+    happenings = {
+        chain.trigger_id: begins[c] for c, chain in enumerate(sim.chains) if chain.from_event
+    }
+    for k, (event_id, rule) in enumerate(sim.mode_event_rules.items()):
+        alone = ChainPlan(event_id, event_id, True, rule, [], {}, {}, [])
+        phase = phases[len(sim.chains) + k]
+        happenings[event_id] = _happenings(rng, alone, phase, first_day - lead, days + lead)
+    mode_times, mode_index = _mode_path(sim, rng, first_day - lead, days + lead, happenings)
     parts: dict[str, list[np.ndarray]] = {
         key: [] for key in ("task", "variant", "begin", "reached", "start", "finish", "duration")
     }
@@ -382,7 +428,7 @@ def draw_chunk(sim: SimPlan, seed: int, chunk: int, first_day: int, days: int) -
     window_counts: dict[tuple[int, int], tuple[int, int]] = {}
     calls: list[tuple[int, int, np.ndarray, bool]] = []
     for c, chain in enumerate(sim.chains):
-        begin = _happenings(rng, chain, phases[c], first_day - lead, days + lead)
+        begin = begins[c]
         count = begin.size
         # The chain's own figures count the happenings that start in the chunk.
         counted = begin >= opens

@@ -32,6 +32,7 @@ __all__ = [
     "SimulationChunk",
     "chunk_figures",
     "day_figures",
+    "mode_seconds",
 ]
 
 #: Each person's daily figures, in the order the screens and reports list them.
@@ -142,15 +143,39 @@ def chunk_figures(sim: SimPlan, draw: ChunkDraw) -> dict[str, dict[str, np.ndarr
     return result
 
 
+def mode_seconds(sim: SimPlan, draw: ChunkDraw) -> dict[str, np.ndarray]:
+    """Seconds of each of the chunk's days spent in each mode (none without modes)."""
+    if len(sim.modes) < 2:
+        return {}
+    opens = draw.first_day * DAY_S
+    closes = opens + draw.days * DAY_S
+    # Each stretch in one mode, clipped to the chunk's days.
+    starts = np.clip(draw.mode_times, opens, closes)
+    ends = np.clip(np.append(draw.mode_times[1:], closes), opens, closes)
+    edges = opens + np.arange(draw.days + 1) * DAY_S
+    # The stretch each day's edge falls in (the last that starts at or before it).
+    at = np.maximum(np.searchsorted(starts, edges, side="right") - 1, 0)
+    result = {}
+    for m, mode in enumerate(sim.modes):
+        inside = draw.mode_index == m
+        # Time in the mode before each stretch, then up to each edge.
+        before = np.concatenate([[0.0], np.cumsum(np.where(inside, ends - starts, 0.0))])
+        upto = before[at] + np.where(inside[at], np.minimum(edges, ends[at]) - starts[at], 0.0)
+        result[mode] = np.diff(upto)
+    return result
+
+
 @dataclass
 class SimulationChunk:
-    """One chunk's results: daily figures per person and the chains' counts."""
+    """One chunk's results: daily figures per person, the chains' counts and the seconds
+    of each day in each mode."""
 
     chunk: int
     first_day: int
     days: int
     figures: dict[str, dict[str, np.ndarray]]
     chains: list[dict[str, Any]]
+    modes: dict[str, np.ndarray] = field(default_factory=dict)
 
     def to_json(self) -> dict[str, Any]:
         return {
@@ -162,6 +187,7 @@ class SimulationChunk:
                 for human, figures in self.figures.items()
             },
             "chains": self.chains,
+            "modes": {mode: values.tolist() for mode, values in self.modes.items()},
         }
 
     @classmethod
@@ -175,6 +201,9 @@ class SimulationChunk:
                 for human, figures in data["figures"].items()
             },
             chains=data["chains"],
+            modes={
+                mode: np.asarray(values, float) for mode, values in data.get("modes", {}).items()
+            },
         )
 
 
@@ -225,6 +254,8 @@ class Simulation:
     chains: list[dict[str, Any]]
     bin_s: float
     limits: dict[str, float] = field(default_factory=dict)
+    #: Seconds of each day in each mode (none without modes).
+    modes: dict[str, np.ndarray] = field(default_factory=dict)
 
     @property
     def total_burden(self) -> np.ndarray:
@@ -256,6 +287,10 @@ class Simulation:
             "typical_day": self.typical_day,
             "worst_day": self.worst_day,
             "limits": self.limits,
+            "time_in_mode": {
+                mode: float(values.mean() / DAY_S) if values.size else 0.0
+                for mode, values in self.modes.items()
+            },
             "people": {
                 human: {name: _statistics(values) for name, values in figures.items()}
                 for human, figures in self.figures.items()
@@ -294,6 +329,7 @@ class Simulation:
                 for human, figures in self.figures.items()
             },
             "chains": self.chains,
+            "modes": {mode: values.tolist() for mode, values in self.modes.items()},
         }
 
     @classmethod
@@ -310,6 +346,9 @@ class Simulation:
             chains=data["chains"],
             bin_s=float(data["bin_s"]),
             limits=dict(data.get("limits", {})),
+            modes={
+                mode: np.asarray(values, float) for mode, values in data.get("modes", {}).items()
+            },
         )
 
 
@@ -373,8 +412,10 @@ def day_figures(sim: SimPlan, draw: ChunkDraw, day: int, seed: int) -> DayTimeli
             "channels": channels,
             "asleep": [list(piece) for piece in sim.human_asleep[p]],
         }
-    in_day = (draw.mode_times >= midnight) & (draw.mode_times < midnight + DAY_S)
-    modes = [
+    # The mode at midnight (carried from the day before), then each change in the day.
+    at_midnight = max(int(np.searchsorted(draw.mode_times, midnight, side="right")) - 1, 0)
+    in_day = (draw.mode_times > midnight) & (draw.mode_times < midnight + DAY_S)
+    modes = [(0.0, sim.modes[int(draw.mode_index[at_midnight])])] + [
         (float(t - midnight), sim.modes[m])
         for t, m in zip(draw.mode_times[in_day], draw.mode_index[in_day], strict=True)
     ]

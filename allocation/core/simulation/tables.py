@@ -20,7 +20,7 @@ from ..analysis.duty import off_duty_pieces
 from ..analysis.escalation import keeper_involvement
 from ..analysis.involvement import Involvement, involvement
 from ..analysis.modes import assignment_in_mode
-from ..analysis.occurrences import TriggerTiming
+from ..analysis.occurrences import TriggerTiming, rate_and_timing
 from ..analysis.plan import PlanAnalysis, StudyGraph, is_interruption, own_involvement
 from ..analysis.reliability import failed_involvement, failure_chance, false_alert_receiver
 from ..analysis.timeofday import DAY_S, asleep_intervals, awake_intervals, rule_sleeper
@@ -111,6 +111,13 @@ class SimPlan:
     escalation: dict[int, tuple[np.ndarray, float, np.ndarray]] = field(default_factory=dict)
     is_escalated: np.ndarray = field(default_factory=lambda: np.zeros(0, bool))
     chains: list[ChainPlan] = field(default_factory=list)
+    #: The modes that keep time (methods document, #mode-share): the long-run
+    #: distribution at midnight, each fixed time's move (mode -> mode, -1 for none), each
+    #: event's move, and the rules of the events that move the mode but start no chain.
+    at_midnight: np.ndarray = field(default_factory=lambda: np.ones(1))
+    mode_impulses: list[tuple[float, np.ndarray]] = field(default_factory=list)
+    mode_moves: dict[str, np.ndarray] = field(default_factory=dict)
+    mode_event_rules: dict[str, TriggerRule] = field(default_factory=dict)
     #: Periodic looks and exception flags: (task, human, per day, seconds each, interrupts).
     looks: list[tuple[int, int, float, float, bool]] = field(default_factory=list)
     #: Per agent: off-duty stretches (from, to, next duty start); empty without hours.
@@ -140,9 +147,11 @@ class SimPlan:
 
 
 def _rule(study: Study, trigger_timing: TriggerTiming, every_days_when: str) -> TriggerRule:
-    trigger = trigger_timing.trigger
-    rule = trigger_rule(study, trigger)
-    pieces = trigger_timing.timing.pieces
+    rule = trigger_rule(study, trigger_timing.trigger)
+    return _rule_of(study, rule, trigger_timing.timing.pieces, every_days_when)
+
+
+def _rule_of(study: Study, rule, pieces, every_days_when: str) -> TriggerRule:
     if rule.times is not None:
         times = tuple(float(seconds_of_day(clock)) for clock in rule.times)
         return TriggerRule(times, float(rule.jitter_s or 0), None, pieces, None)
@@ -375,6 +384,8 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
         channel_limit=float(assumptions["channel_limit"]),
     )
     sim.chains = _chains(study, analysis, graph, index, assumptions["every_days_when"])
+    if plan.modes is not None and analysis.mode_time is not None:
+        _keep_time(sim, study, plan.modes, analysis.mode_time, assumptions["every_days_when"])
     sim.looks = looks
     sim.off_duty = [
         off_duty_pieces(agent.on_duty) if agent.is_human and agent.on_duty else []
@@ -386,6 +397,44 @@ def build_sim_plan(study: Study, analysis: PlanAnalysis, graph: StudyGraph) -> S
     )
     sim.lead_days = min(MAX_LEAD_DAYS, int(np.ceil(max(longest, 0.0) / DAY_S)))
     return sim
+
+
+def _moves(size: int, steps: list[tuple[int, int]]) -> np.ndarray:
+    """Moves applied one after the other (file order) as one map: mode -> mode."""
+    mapping = np.arange(size)
+    for source, target in steps:
+        mapping = np.where(mapping == source, target, mapping)
+    return mapping
+
+
+def _keep_time(sim: SimPlan, study: Study, modes, timed, every_days_when: str) -> None:
+    """The fixed-time and event-driven moves of the mode map, and the long-run
+    distribution a chunk's first midnight is drawn from."""
+    index = {mode_id: i for i, mode_id in enumerate(sim.modes)}
+    size = len(sim.modes)
+    sim.at_midnight = np.asarray(timed.at_midnight, float)
+    timed_moves: dict[float, list[tuple[int, int]]] = {}
+    event_moves: dict[str, list[tuple[int, int]]] = {}
+    for transition in modes.expanded:
+        source, target = index.get(transition.source), index.get(transition.target)
+        if source is None or target is None or source == target:
+            continue
+        if transition.driven == "times":
+            for clock in transition.times or ():
+                timed_moves.setdefault(float(seconds_of_day(clock)), []).append((source, target))
+        elif transition.driven == "event" and transition.event in study.events_by_id:
+            moves = event_moves.setdefault(str(transition.event), [])
+            if all(existing != source for existing, _t in moves):
+                moves.append((source, target))  # one move per mode: the first
+    sim.mode_impulses = sorted((at, _moves(size, steps)) for at, steps in timed_moves.items())
+    sim.mode_moves = {event_id: _moves(size, steps) for event_id, steps in event_moves.items()}
+    chained = {chain.trigger_id for chain in sim.chains if chain.from_event}
+    for event_id in sim.mode_moves:
+        if event_id in chained:
+            continue
+        event = study.events_by_id[event_id]
+        _per_day, day = rate_and_timing(event, study, every_days_when)
+        sim.mode_event_rules[event_id] = _rule_of(study, event, day.pieces, every_days_when)
 
 
 def _chains(study, analysis: PlanAnalysis, graph: StudyGraph, index, every_days_when):

@@ -178,9 +178,10 @@ def test_burden_and_mode_handovers_follow_the_share_of_the_day_in_each_mode():
     """T once a day (08:00), 60 s. Mode A (initial): the pump does it alone; mode B: pat
     does it alone. A -> B at a = 2 a day, B -> A at b = 6 a day.
 
-    share_B = closed form above; pat's burden = 1 * share_B * 60 s.
-    Mode handovers, each at its rate times the share of the day in its source mode:
-    A -> B (pump to pat) a * share_A, B -> A (pat to pump) b * share_B.
+    share_B = the long-run share a / (a + b) = 0.25 (the stationary distribution of the
+    two-mode chain; the mode is carried across midnight); pat's burden = 1 * share_B *
+    60 s. Mode handovers, each at its rate times the share of the day in its source
+    mode: A -> B (pump to pat) a * share_A, B -> A (pat to pump) b * share_B.
     """
     plan = {
         "id": "p",
@@ -214,7 +215,7 @@ def test_burden_and_mode_handovers_follow_the_share_of_the_day_in_each_mode():
     }
     task = leaf("T", occurs={"times": ["08:00"]}, duration_s=60)
     result = analyse([task], plans=[plan])
-    share_b = closed_form_share_b(2, 6)
+    share_b = 2 / (2 + 6)
     assert result.mode_share["B"] == pytest.approx(share_b)
     assert result.people["pat"].burden_s_per_day == pytest.approx(share_b * 60)
     assert result.people["pat"].interactions_per_day == pytest.approx(share_b)
