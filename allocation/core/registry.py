@@ -160,7 +160,7 @@ FIGURES: dict[str, Figure] = _figures(
         "night-interruptions",
     ),
     F("failures_per_day", "Failures taken over", "a day", 3, LOWER, "reliability"),
-    F("escalations_per_day", "Escalations reaching them", "a day", 3, LOWER, "escalation"),
+    F("escalations_per_day", "Calls passed on to them", "a day", 3, LOWER, "escalation"),
     F(
         "awake_share_used",
         "Share of the waking day",
