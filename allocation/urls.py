@@ -156,6 +156,11 @@ urlpatterns = [
         dashboards.plan_dashboard,
         name="plan-dashboard",
     ),
+    path(
+        "studies/<int:pk>/plans/<str:plan>/handovers/<int:number>/steps",
+        dashboards.handover_steps_page,
+        name="handover-steps",
+    ),
     path("studies/<int:pk>/plans/<str:plan>/ratings", ratings.plan_ratings, name="plan-ratings"),
     path(
         "studies/<int:pk>/plans/<str:plan>/ratings/record",

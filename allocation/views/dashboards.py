@@ -7,12 +7,13 @@ from collections import Counter
 from typing import Any
 
 from django.contrib.auth.decorators import login_required
-from django.http import HttpRequest, HttpResponse
+from django.http import Http404, HttpRequest, HttpResponse
 from django.shortcuts import render
 from django.urls import NoReverseMatch, reverse
 from django.views.decorators.http import require_GET
 
 from allocation.core.analysis import PlanAnalysis
+from allocation.core.analysis.handsteps import handover_steps
 from allocation.core.analysis.modecheck import MODE_FINDING_KINDS
 from allocation.core.analysis.report import interfaces_json
 from allocation.core.describe import seconds_text, severity_text
@@ -155,7 +156,18 @@ def _dashboard(
     else:
         handovers_page = None
         shown_handovers = analysis.handovers[:HANDOVERS_SHOWN]
-    handovers = [_handover_row(page, handover, plan_id) for handover in shown_handovers]
+    numbers = {id(handover): n for n, handover in enumerate(analysis.handovers)}
+    handovers = [
+        {
+            **_handover_row(page, handover, plan_id),
+            "steps_url": reverse(
+                "handover-steps", args=[page.row.pk, plan_id, numbers[id(handover)]]
+            )
+            if handover.site.source in ("failure", "escalation")
+            else None,
+        }
+        for handover in shown_handovers
+    ]
     awareness = [
         {
             **row,
@@ -278,3 +290,36 @@ def _handover_row(page: StudyPage, handover, plan_id: str) -> dict[str, Any]:
         "per_day": site.per_day,
         "severity": severity_text(handover.severity),
     }
+
+
+@require_GET
+@login_required
+def handover_steps_page(request: HttpRequest, pk: int, plan: str, number: int) -> HttpResponse:
+    """A failure or an escalation handover played step by step."""
+    page = study_page(request, pk)
+    chosen = page.plan_or_404(plan)
+    analysis = page.analysis(chosen.id) if page.result.ok else None
+    if analysis is None or not 0 <= number < len(analysis.handovers):
+        raise Http404("No such handover (the study may have changed since).")
+    handover = analysis.handovers[number]
+    steps = handover_steps(analysis, handover)
+    if not steps:
+        raise Http404("Only a failure or an escalation is played step by step.")
+    context = page.context(
+        "plan-dashboard",
+        plan=chosen,
+        handover=_handover_row(page, handover, chosen.id),
+        steps=[
+            {
+                "event": step.event,
+                "how": step.how,
+                "holder": _agent_name(page, step.holder),
+                "believed": _agent_name(page, step.believed),
+                "confused": step.confused,
+                "missed": step.missed,
+            }
+            for step in steps
+        ],
+        back_url=reverse("plan-dashboard", args=[pk, chosen.id]) + "#handovers",
+    )
+    return render(request, "dashboards/handover_steps.html", context)

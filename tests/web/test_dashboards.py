@@ -17,7 +17,7 @@ from django.conf import settings
 from django.urls import reverse
 
 from allocation import models as m
-from allocation import services
+from allocation import selectors, services
 from allocation.core.limits import PAGE_ROWS
 from allocation.examples import example_documents
 
@@ -198,3 +198,34 @@ def test_tasks_link_to_their_plan_editor_row_and_goals_to_the_study_page(client,
     assert f'href="{reverse("plan-editor", args=[study.pk, "auto"])}#row-T2"' in findings
     goals = page.split('id="goals"', 1)[1].split("</section>", 1)[0]
     assert f'href="{reverse("study-detail", args=[study.pk])}#tasks"><code>G1</code>' in goals
+
+
+def test_a_failure_and_an_escalation_are_played_step_by_step(client, owner):
+    """Hand-built: the thermostat fails at T2 and nothing tells the resident (who still
+    believes the thermostat holds it: the step is flagged); T8 asks the resident, then the
+    neighbour after 600 s (the resident's awake latency [20, 60, 300] s never takes that
+    long, the asleep one [300, 900, 3600] s mostly does)."""
+    from allocation.core.analysis import analyse_plan as analyse
+
+    document = next(d for d in example_documents() if d["study"]["id"] == "home-heating")
+    document["agents"].append({"id": "neighbour", "name": "Neighbour", "kind": "human"})
+    assignments = document["plans"][1]["assignments"]
+    assignments["T7"]["reliability"] = {"fails_per_1000": 20, "detected_by": "none"}
+    assignments["T8"] = {"human": ["resident", "neighbour"], "escalate_after_s": 600}
+    study = services.study_import(data=document, owner=owner)
+    client.force_login(owner)
+    result = analyse(selectors.study_load(study).study, "auto")
+    numbers = {h.site.source: n for n, h in enumerate(result.handovers)}
+    dashboard = client.get(reverse("plan-dashboard", args=[study.pk, "auto"]) + "?handovers=all")
+    failure_url = reverse("handover-steps", args=[study.pk, "auto", numbers["failure"]])
+    assert failure_url in dashboard.content.decode()
+    page = client.get(failure_url).content.decode()
+    assert "Thermostat fails at T7" in page and "nothing tells Resident" in page
+    assert page.count('class="flagged"') == 1
+    page = client.get(
+        reverse("handover-steps", args=[study.pk, "auto", numbers["escalation"]])
+    ).content.decode()
+    assert "no answer from Resident within 10 min" in page
+    assert "Neighbour answers and takes the task" in page
+    link = next(n for n, h in enumerate(result.handovers) if h.site.source == "link")
+    assert client.get(reverse("handover-steps", args=[study.pk, "auto", link])).status_code == 404

@@ -193,6 +193,9 @@ class PlanAnalysis:
     interfaces: list[HandoverSite] = field(default_factory=list)
     #: The modes' long-run time (methods document, #mode-share); ``None`` without modes.
     mode_time: ModeTime | None = None
+    #: Per task whose people are asked in turn: each such assignment's weight and shares
+    #: (methods document, #escalation).
+    escalations: dict[str, list[tuple[float, Escalation]]] = field(default_factory=dict)
 
     def headline(self) -> dict[str, float]:
         """The plan's headline figures, for overviews and comparison."""
@@ -360,6 +363,7 @@ class _Analysis:
             mode_share=self.mode_share,
             interfaces=interfaces,
             mode_time=self.mode_time,
+            escalations=self.escalations,
         )
 
     # -- modes ----------------------------------------------------------------------
