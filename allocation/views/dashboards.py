@@ -303,8 +303,6 @@ def handover_steps_page(request: HttpRequest, pk: int, plan: str, number: int) -
         raise Http404("No such handover (the study may have changed since).")
     handover = analysis.handovers[number]
     steps = handover_steps(analysis, handover)
-    if not steps:
-        raise Http404("Only a failure or an escalation is played step by step.")
     context = page.context(
         "plan-dashboard",
         plan=chosen,

@@ -115,6 +115,9 @@ def test_every_page_and_interaction_runs_no_refused_script(signed_in, django_use
             f"/studies/{study.pk}/",
             f"/studies/{study.pk}/plans/{plan}/modes",
             f"/studies/{study.pk}/plans/{plan}/simulation?days=5&seed=1",
+            # All the handovers: a failure's or an escalation's step-by-step page is linked
+            # from its row, which may be past the top ones.
+            f"/studies/{study.pk}/plans/{plan}/dashboard?handovers=all",
         ]
     sweep.crawl(starts, per_name=PER_NAME)
     read_only = len(sweep.pages), sweep.interactions

@@ -25,6 +25,7 @@ SAMPLE_ARGUMENTS = {
     "key": "T2",
     "transition": "0",
     "finding": 0,
+    "number": 0,
     "fmt": "csv",
 }
 

@@ -228,4 +228,7 @@ def test_a_failure_and_an_escalation_are_played_step_by_step(client, owner):
     assert "no answer from Resident within 10 min" in page
     assert "Neighbour answers and takes the task" in page
     link = next(n for n, h in enumerate(result.handovers) if h.site.source == "link")
-    assert client.get(reverse("handover-steps", args=[study.pk, "auto", link])).status_code == 404
+    page = client.get(reverse("handover-steps", args=[study.pk, "auto", link])).content.decode()
+    assert "Only a failure of the automation or a call passed on" in page
+    outside = reverse("handover-steps", args=[study.pk, "auto", len(result.handovers)])
+    assert client.get(outside).status_code == 404

@@ -169,7 +169,13 @@ def arguments(study: m.Study) -> dict[str, str]:
     model = selectors.study_load(study).study
     plan = next((p for p in model.plans if p.modes and p.modes.states), None)
     plan = plan or (model.plans[0] if model.plans else None)
-    values = {"pk": str(study.pk), "fmt": "csv", "kind": "agents", "finding": "0"}
+    values = {
+        "pk": str(study.pk),
+        "fmt": "csv",
+        "kind": "agents",
+        "finding": "0",
+        "number": "0",
+    }
     values["transition"] = "0"
     if model.agents:
         values["key"] = model.agents[0].id

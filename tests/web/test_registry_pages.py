@@ -181,6 +181,7 @@ def study_pages(client, study: m.Study) -> dict[str, str]:
         "key": leaf,
         "transition": "0",
         "finding": 0,
+        "number": 0,
         "fmt": "csv",
     }
     query = {

@@ -57,6 +57,7 @@ STUDY_RULES: dict[str, tuple[str | None, str | None]] = {
     "transition-edit": (E, E),
     "transition-delete": (None, E),
     "mode-finding": (V, None),
+    "handover-steps": (V, None),
     "plan-simulation": (V, None),
     "plan-simulation-run": (None, V),
     "plan-simulation-status": (V, None),

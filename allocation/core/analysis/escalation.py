@@ -5,9 +5,9 @@ An assignment's ``human`` may be a list with ``escalate_after_s`` = E (methods d
 who is on duty answers with their response latency L (asleep or awake, as they are at
 that moment), and keeps the task when L <= E; otherwise, or when they are off duty, the
 next is asked E seconds later. The last person asked keeps the task whatever their
-latency. With ``S_j(E)`` the chance that person j's latency exceeds E,
-the day cut into stretches in which each person asked is asleep or awake, on duty or
-off (``a_j``, ``o_j`` each 0 or 1), and in each stretch::
+latency. With ``S_j(E)`` the chance that person j's latency exceeds E, and the day cut
+into stretches in which each person asked is asleep or awake, on duty or off (``a_j``,
+``o_j`` each 0 or 1), in each stretch::
 
     S_j(E) = S_asleep(E) if a_j else S_awake(E)
     no_j   = (1 - o_j) + o_j * S_j(E)                 (the call moves on)
@@ -52,10 +52,11 @@ __all__ = [
 
 def triangular_exceedance(low: float, mode: float, high: float, x: float) -> float:
     """The chance that a triangular ``(low, mode, high)`` value is above ``x``."""
-    if x < low:
+    if x <= low:
         return 1.0
     if x >= high:
         return 0.0
+    # Here low < x < high, so the side x falls on has a width above 0.
     if x <= mode:
         return 1.0 - (x - low) ** 2 / ((high - low) * (mode - low))
     return (high - x) ** 2 / ((high - low) * (high - mode))
@@ -124,7 +125,8 @@ def escalation_shares(
     stretches of the day ``segments`` (where each person is asleep or awake, on duty or
     off); ``cue`` is how each is asked (the assignment's feedback)."""
     size = len(people)
-    totals = {name: [0.0] * size for name in Escalation.__dataclass_fields__ if name.islower()}
+    names = ("asked", "keep", "unanswered", "unanswered_asleep", "keep_on_duty", "keep_asleep")
+    totals = {name: [0.0] * size for name in names}
     ranges = [latency_ranges(study, person, default) for person in people]
     for weight, state in segments:
         chance = weight

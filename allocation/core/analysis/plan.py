@@ -282,6 +282,11 @@ class _Analysis:
             else None
         )
         self.mode_share = self.mode_time.share_dict() if self.mode_time else {}
+        # Each transition's place among the map's expanded ones, by identity (they are
+        # made once, cached), for its firings a day.
+        self.fire_index = {
+            id(t): i for i, t in enumerate(plan.modes.expanded if plan.modes else ())
+        }
         self.initial = plan.modes.initial if plan.modes else None
         self.mode_findings = verify_mode_map(study, plan, self.assumptions) if plan.modes else []
 
@@ -414,11 +419,8 @@ class _Analysis:
 
     def fires_per_day(self, transition) -> float:
         """How often a transition of the map happens a day in the long run."""
-        if self.plan.modes is None or self.mode_time is None:
+        if self.mode_time is None:
             return 0.0
-        if not hasattr(self, "fire_index"):
-            # By identity: the map's expanded transitions are made once (cached).
-            self.fire_index = {id(t): i for i, t in enumerate(self.plan.modes.expanded)}
         return self.mode_time.fires[self.fire_index[id(transition)]]
 
     def mode_cues(self, leaves: list[str], normal: dict[str, Involvement]) -> dict[str, str]:

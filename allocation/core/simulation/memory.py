@@ -88,18 +88,20 @@ def _size(value: float) -> str:
     return f"{value:,.0f} bytes"
 
 
+def _rate(rule) -> float:
+    """A trigger's happenings a day."""
+    if rule.times is not None:
+        return float(len(rule.times))
+    if rule.every_days:
+        return 1.0 / rule.every_days
+    return float(rule.per_day or 0.0)
+
+
 def _per_day(plan: SimPlan) -> float:
     """Expected task occurrences a day: each trigger's happenings times its chain."""
     total = 0.0
     for chain in plan.chains:
-        rule = chain.rule
-        if rule.times is not None:
-            rate = float(len(rule.times))
-        elif rule.every_days:
-            rate = 1.0 / rule.every_days
-        else:
-            rate = float(rule.per_day or 0.0)
-        total += rate * len(chain.members)
+        total += _rate(chain.rule) * len(chain.members)
     # Periodic looks and flags are drawn as rows of their own.
     return total + sum(per_day for _task, _person, per_day, _s, _flag in plan.looks)
 
@@ -131,7 +133,11 @@ def simulation_memory_estimate(
     occurrences = _per_day(plan) * drawn_days
     bins = chunk_days * int(np.ceil(DAY_S / plan.bin_s))
     fastest = float(plan.rates.sum(axis=1).max()) if plan.rates.size else 0.0
-    mode_changes = (fastest + 1.0) * drawn_days
+    # Fixed-time moves, and the happenings of the events that move the mode.
+    rules = [chain.rule for chain in plan.chains if chain.trigger_id in plan.mode_moves]
+    rules += list(plan.mode_event_rules.values())
+    moved = len(plan.mode_impulses) + sum(_rate(rule) for rule in rules)
+    mode_changes = (fastest + moved + 1.0) * drawn_days
     people = len(plan.humans)
     figures = int(days) * people * len(FIGURES)
     chunk_bytes = (

@@ -31,6 +31,7 @@ import json
 import math
 import re
 import zipfile
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -748,26 +749,26 @@ def _json(value: Any) -> Any:
     return data
 
 
-def _needs(value: Any) -> list[str] | dict[str, list[str]] | None:
-    """Capabilities, comma-separated, or per stage (``decision: a, b; action: c``)."""
+def _parsed(value: Any, parse: Callable[[str], Any]) -> Any:
+    """A text cell read by ``parse`` (``None`` when empty); its ValueError is the cell's
+    problem."""
     text = _text(value)
     if text is None:
         return None
     try:
-        return parse_needs(text)
+        return parse(text)
     except ValueError as problem:
         raise _CellError(str(problem)) from None
+
+
+def _needs(value: Any) -> list[str] | dict[str, list[str]] | None:
+    """Capabilities, comma-separated, or per stage (``decision: a, b; action: c``)."""
+    return _parsed(value, parse_needs)
 
 
 def _reliability(value: Any) -> dict[str, Any] | None:
     """How often the automation fails: ``5 in 1000; detected by alert; …``."""
-    text = _text(value)
-    if text is None:
-        return None
-    try:
-        return parse_reliability_cell(text)
-    except ValueError as problem:
-        raise _CellError(str(problem)) from None
+    return _parsed(value, parse_reliability_cell)
 
 
 def _people(value: Any) -> str | list[str] | None:
@@ -778,13 +779,7 @@ def _people(value: Any) -> str | list[str] | None:
 
 def _monitoring(value: Any) -> str | dict[str, Any] | None:
     """A monitoring style: each, exception, periodic N or continuous S."""
-    text = _text(value)
-    if text is None:
-        return None
-    try:
-        return parse_monitoring_cell(text)
-    except ValueError as problem:
-        raise _CellError(str(problem)) from None
+    return _parsed(value, parse_monitoring_cell)
 
 
 _STAGE_LEVEL = re.compile(r"^([A-Za-z_]+)\s*[:=]?\s*(\S+)$")

@@ -43,7 +43,15 @@ def asked_in_turn(after=30, people=("pat", "sam"), agents=AGENTS, **extra):
 
 @pytest.mark.parametrize(
     ("low", "mode", "high", "x"),
-    [(10, 20, 60, 30), (10, 20, 60, 15), (60, 600, 3600, 300), (0, 0, 10, 4), (5, 9, 9, 7)],
+    [
+        (10, 20, 60, 30),
+        (10, 20, 60, 15),
+        (60, 600, 3600, 300),
+        (0, 0, 10, 4),
+        (0, 0, 10, 0),
+        (5, 9, 9, 7),
+        (5, 9, 9, 9),
+    ],
 )
 def test_the_triangular_exceedance_is_scipy_s(low, mode, high, x):
     shape = (mode - low) / (high - low)
