@@ -18,7 +18,7 @@ from .analysis.reliability import fallback_person
 from .assumptions import resolve_assumptions
 from .errors import Problem
 from .graph import chain_entries, hierarchy_cycle, never_occurring, precedence_cycle, triggers
-from .limits import CHAIN_ENTRIES_MAX, MODE_TIMES_MAX
+from .limits import CHAIN_ENTRIES_MAX, MODE_TIME_WORK_MAX, MODE_TIMES_MAX
 from .model import ANY_MODE, Assignment, Event, ModeMap, Occurs, Plan, Study
 from .reading import child_path
 
@@ -395,6 +395,7 @@ class _Checker:
                             "goes on the plan's own assignment, not on a mode's override",
                         )
         clocks: set[str] = set()
+        edges = 0  # the edges of the parts of the day the rated events that move it use
         for index, transition in enumerate(modes.transitions):
             item_path = self.locate(transition, f"{path}.transitions[{index}]")
             clocks.update(transition.times or ())
@@ -407,6 +408,7 @@ class _Checker:
                     )
                 else:
                     clocks.update(event.times or ())
+                    edges += 0 if event.times else 4  # an awake or asleep window: 2 pieces
             if len(clocks) > MODE_TIMES_MAX:
                 self.error(
                     path,
@@ -424,6 +426,16 @@ class _Checker:
         size = mode_search_size(modes)
         if size.over:
             self.error(path, size.refusal())
+        stretches = len(clocks) + edges + 1
+        work = stretches * len(modes.states) ** 3
+        if work > MODE_TIME_WORK_MAX:
+            self.error(
+                path,
+                f"the time in each mode would take {stretches:,} stretches of the day x "
+                f"{len(modes.states):,} modes cubed = {work:,} (the limit is "
+                f"{MODE_TIME_WORK_MAX:,}, MODE_TIME_WORK_MAX): fewer modes or fewer times "
+                "of day",
+            )
 
     def occurrence_warnings(self) -> None:
         study = self.study

@@ -176,3 +176,14 @@ def test_a_bad_timed_transition_is_refused_with_its_path(transition, path, words
     problems = load_study(mapped([transition])).errors
     assert [p.path for p in problems] == ["$.plans[0].modes.transitions[0]" + path], problems
     assert words in problems[0].message
+
+
+def test_a_map_whose_time_in_mode_would_cost_too_much_is_refused_with_its_path():
+    # 60 modes and 1,000 times of day: 1,001 stretches x 60^3 = 216,216,000, over the
+    # limit of 200,000,000 (MODE_TIME_WORK_MAX); the check says where and why.
+    states = tuple(f"m{i}" for i in range(60))
+    times = [f"{minute // 60:02d}:{minute % 60:02d}" for minute in range(1000)]
+    transitions = [move("m0", "m1", times=times)]
+    problems = load_study(mapped(transitions, states=states, initial="m0")).errors
+    assert [p.path for p in problems] == ["$.plans[0].modes"]
+    assert "216,216,000" in problems[0].message and "MODE_TIME_WORK_MAX" in problems[0].message
