@@ -46,7 +46,12 @@ def mode_findings(analysis: PlanAnalysis | None) -> list[Finding]:
     """The plan's mode-map findings, numbered by their place in this list."""
     if analysis is None:
         return []
-    return [f for f in analysis.findings if f.kind in MODE_FINDING_KINDS]
+    # A failure nobody is told of is played in its mode too (it has a witness there).
+    return [
+        f
+        for f in analysis.findings
+        if f.kind in MODE_FINDING_KINDS or (f.kind == "silent_failure" and f.witness)
+    ]
 
 
 def _plan_index(study: Study, plan: Plan) -> int:
@@ -712,7 +717,7 @@ def _moment_context(study: Study, plan: Plan, moment: Moment) -> dict[str, Any]:
         # Look-alike modes are believed together: "Automatic or Exercise".
         "believed_modes": believed,
         "believed_name": " or ".join(mode.name for mode in believed),
-        "agree": [mode.id for mode in believed] == [moment.actual],
+        "agree": [mode.id for mode in believed] == [moment.actual] and not moment.confused,
         "confused": moment.confused,
         "holders": [
             {

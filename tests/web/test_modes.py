@@ -378,3 +378,29 @@ def test_step_through_of_look_alike_modes_names_the_belief_as_either(signed_in, 
     assert "Following the schedule or Holding a set point" in last
     assert "they look alike, so the person cannot tell which" in last
     assert "they disagree on who does what" in last
+
+
+def test_a_failure_nobody_is_told_of_is_played_in_the_mode_map(client, owner):
+    """The thermostat fails at T7 (severity raised to 4, the critical severity) and
+    nothing tells the resident: a finding listed with the map's, whose step-through
+    starts in the initial mode with the thermostat holding T7 and, after the unnoticed
+    failure, has the resident holding it while believed to be the thermostat's."""
+    from allocation import services
+    from allocation.examples import example_documents
+
+    document = next(d for d in example_documents() if d["study"]["id"] == "home-heating")
+    next(t for t in document["tasks"] if t["id"] == "T7")["severity"] = 4
+    plan = document["plans"][1]
+    plan["assignments"]["T7"]["reliability"] = {"fails_per_1000": 20, "detected_by": "none"}
+    study = services.study_import(data=document, owner=owner)
+    client.force_login(owner)
+    page = client.get(url("plan-modes", study)).content.decode()
+    number = finding_titles(page).index("Failure nobody is told of")
+    target = url("mode-finding", study, number)
+    start = client.get(target).content.decode()
+    assert "Step 0 of 1" in start and "(they agree)" in start
+    failed = client.get(target + "?step=1").content.decode()
+    assert "Thermostat fails at T7" in failed and "not noticed: there is no cue" in failed
+    assert "they disagree on who does what" in failed
+    row = failed.split("<code>T7</code>")[1].split("</tr>")[0]
+    assert "Resident" in row and "Thermostat" in row and "differs" in row

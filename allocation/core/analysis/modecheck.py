@@ -1133,6 +1133,8 @@ def walkthrough(
     """
     if not finding.witness or plan.modes is None:
         return []
+    if finding.kind == "silent_failure":
+        return _failure_moments(finding)
     check = _Checker(study, plan, plan.modes, assumptions)
     own = set(finding.tasks)
 
@@ -1156,6 +1158,19 @@ def walkthrough(
     moments = [moment(None, initial, (initial,))]
     moments += [moment(step, step.actual, step.believed_set) for step in finding.witness]
     return moments
+
+
+def _failure_moments(finding: Finding) -> list[Moment]:
+    """A failure nobody is told of, as moments: the device holds the task in its mode;
+    it fails, the fallback person now holds it, and the person still believes the device
+    does (methods document, #finding-silent-failure)."""
+    step = finding.witness[0]
+    task, device, fallback = finding.tasks[0], finding.agents[0], finding.agents[-1]
+    mode = step.actual
+    return [
+        Moment(None, mode, mode, ((task, device, (device,)),), (mode,)),
+        Moment(step, mode, mode, ((task, fallback, (device,)),), (mode,)),
+    ]
 
 
 def _applied(holder: tuple[str | None, bool]) -> str | None:

@@ -965,7 +965,8 @@ class _Analysis:
         """A failure nobody is told of, and a fallback person without what the task
         needs (methods document, ``#reliability``)."""
         study = self.study
-        found = silent_failure_findings(study, involved, critical, mode)
+        in_mode = mode or (self.plan.modes.initial if self.plan.modes else None)
+        found = silent_failure_findings(study, involved, critical, mode, in_mode)
         failed = failed_involvement(
             study, study.task(involved.task_id), involved, self.assumptions
         )

@@ -25,7 +25,7 @@ from dataclasses import replace
 from typing import Any
 
 from ..model import Assignment, Monitoring, Study, Task
-from .findings import Finding
+from .findings import Finding, WitnessStep
 from .involvement import Involvement, involvement
 
 __all__ = [
@@ -125,10 +125,18 @@ def false_alert_receiver(study: Study, involved: Involvement) -> tuple[str, floa
 
 
 def silent_failure_findings(
-    study: Study, involved: Involvement, critical: int, mode: str | None = None
+    study: Study,
+    involved: Involvement,
+    critical: int,
+    mode: str | None = None,
+    in_mode: str | None = None,
 ) -> list[Finding]:
     """A finding ``silent_failure`` where the automation of a task at or above the
-    critical severity can fail and nothing tells anyone (``detected_by`` none)."""
+    critical severity can fail and nothing tells anyone (``detected_by`` none).
+
+    ``in_mode`` (the mode of the override, or the map's initial mode for the plan's own
+    assignment) gives the finding its witness: the device fails there, unnoticed, so
+    the person still believes the device holds the task."""
     assignment = involved.assignment
     if assignment is None or not involved.applies or failure_chance(assignment) <= 0:
         return []
@@ -142,6 +150,18 @@ def silent_failure_findings(
     fallback = fallback_person(study, assignment)
     person = agents[fallback].name if fallback in agents else "the fallback person"
     where = f" in mode {mode}" if mode else ""
+    witness: tuple[WitnessStep, ...] = ()
+    if in_mode is not None:
+        witness = (
+            WitnessStep(
+                f"{machine} fails at {task.id}",
+                "automation",
+                reliability.detected_by or "none",
+                True,
+                in_mode,
+                in_mode,
+            ),
+        )
     return [
         Finding(
             "silent_failure",
@@ -153,5 +173,6 @@ def silent_failure_findings(
             (mode,) if mode else (),
             (),
             tuple(agent for agent in (assignment.automation, fallback) if agent),
+            witness,
         )
     ]
