@@ -5,7 +5,6 @@ modes, holder overrides and transitions, and the step-through of each finding's 
 from __future__ import annotations
 
 import re
-from dataclasses import replace
 from typing import Any
 
 from django.contrib import messages
@@ -119,13 +118,15 @@ def _region_context(page: StudyPage, plan: Plan) -> dict[str, Any]:
                     "confirm": _confirm_text(mode.name, consequences),
                 }
             )
+        timed = analysis.mode_time if analysis is not None else None
+        fires = timed.row_fires(modes) if timed is not None else None
         for index, t in enumerate(modes.transitions):
             transition_rows.append(
                 {
                     "index": index,
                     "transition": t,
                     "when": _when_text(study, t),
-                    "fires": _fires(analysis, modes, t),
+                    "fires": None if fires is None else fires[index],
                     "source": modes.by_id[t.source].name
                     if t.source in modes.by_id
                     else ("any mode" if t.source == ANY_MODE else t.source),
@@ -210,19 +211,6 @@ def _when_text(study: Study, transition) -> str:
     if transition.times:
         return "at " + ", ".join(transition.times)
     return "when made"
-
-
-def _fires(analysis: PlanAnalysis | None, modes, transition) -> float | None:
-    """How often a transition happens a day in the long run (its copies from every mode
-    added up); ``None`` before the plan is analysed."""
-    if analysis is None or analysis.mode_time is None:
-        return None
-    total = 0.0
-    for expanded, fires in zip(modes.expanded, analysis.mode_time.fires, strict=True):
-        same_source = transition.source == ANY_MODE or expanded.source == transition.source
-        if same_source and replace(expanded, source=transition.source) == transition:
-            total += fires
-    return total
 
 
 def _confirm_text(name: str, consequences) -> str:

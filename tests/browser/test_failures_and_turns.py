@@ -28,6 +28,12 @@ def saved(page, task: str, change) -> None:
     expect(page.locator(f"tr#row-{task}")).not_to_have_class(BUSY)
 
 
+def typed(page, task: str, name: str, value: str) -> None:
+    """Type into a row's text field and leave it (the change saves the row)."""
+    field = page.locator(f"tr#row-{task} [name={name}]")
+    saved(page, task, lambda: (field.fill(value), field.blur()))
+
+
 def test_failures_and_people_asked_in_turn_in_the_plan_editor(signed_in, django_user_model):
     page = signed_in
     owner = django_user_model.objects.get(username="walker")
@@ -42,14 +48,7 @@ def test_failures_and_people_asked_in_turn_in_the_plan_editor(signed_in, django_
     # resident learns of it, the save is refused beside the row, the number kept.
     row = page.locator("tr#row-T7")
     row.locator("details.reliability summary").click()
-    saved(
-        page,
-        "T7",
-        lambda: (
-            row.locator("[name=fails_per_1000]").fill("20")
-            or row.locator("[name=fails_per_1000]").blur()
-        ),
-    )
+    typed(page, "T7", "fails_per_1000", "20")
     row = page.locator("tr#row-T7")
     expect(row.locator(".row-problems")).to_contain_text("Say how the person learns of a failure")
     expect(row.locator("[name=fails_per_1000]")).to_have_value("20")
@@ -61,24 +60,10 @@ def test_failures_and_people_asked_in_turn_in_the_plan_editor(signed_in, django_
     # T8 (call for a repair): the resident, then the neighbour after 600 s.
     row = page.locator("tr#row-T8")
     row.locator("details.escalation summary").click()
-    saved(
-        page,
-        "T8",
-        lambda: (
-            row.locator("[name=escalate_after_s]").fill("600")
-            or row.locator("[name=escalate_after_s]").blur()
-        ),
-    )
+    typed(page, "T8", "escalate_after_s", "600")
     row = page.locator("tr#row-T8")
     expect(row.locator(".row-problems")).to_contain_text("Name who is asked next")
-    saved(
-        page,
-        "T8",
-        lambda: (
-            row.locator("[name=escalate_to]").fill("neighbour")
-            or row.locator("[name=escalate_to]").blur()
-        ),
-    )
+    typed(page, "T8", "escalate_to", "neighbour")
     row = page.locator("tr#row-T8")
     expect(row.locator(".row-problems")).to_have_count(0)
     expect(row.locator("details.escalation summary")).to_contain_text("then neighbour")

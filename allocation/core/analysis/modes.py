@@ -1,8 +1,11 @@
-"""The mode map in the analyses: time spent in each mode, and the assignment in each.
+"""The mode map in the analyses: the matrix exponential, the assignment in force in each
+mode, and the occupancy of one day started in the initial mode.
 
-Transitions that give a rate (``per_day``, read as the rate while the machine is in the
-transition's source mode) make a continuous-time Markov chain. The share of a day spent
-in each mode is the chain's occupancy averaged over one day from the initial mode:
+The analyses use the long-run time in each mode (:mod:`.modetime`); the one-day
+occupancy below is what revision 1 reported, kept to give the figures before and after
+(methods document, ``#revision-2-time``). Transitions that give a rate (``per_day``,
+read as the rate while the machine is in the transition's source mode) make a
+continuous-time Markov chain; its occupancy averaged over one day from the initial mode:
 
     occupancy = (1/T) * integral from 0 to T of e_initial . exp(Q t) dt,   T = 1 day
 

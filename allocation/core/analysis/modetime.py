@@ -28,12 +28,12 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import networkx as nx
 import numpy as np
 
-from ..model import ModeMap, Study, seconds_of_day
+from ..model import ANY_MODE, ModeMap, Study, seconds_of_day
 from .occurrences import rate_and_timing
 from .timeofday import DAY_S, DayShare
 
@@ -69,6 +69,19 @@ class ModeTime:
     mean_generator: np.ndarray
     #: Per event that moves the mode: the jump each of its occurrences makes.
     event_jumps: dict[str, np.ndarray]
+
+    def row_fires(self, modes: ModeMap) -> list[float]:
+        """Firings a day of each transition as the map lists it: one from every mode
+        (``"*"``) adds up its copies (the map's expanded transitions, in file order)."""
+        totals = []
+        for listed in modes.transitions:
+            total = 0.0
+            for expanded, fires in zip(modes.expanded, self.fires, strict=True):
+                from_it = listed.source == ANY_MODE or expanded.source == listed.source
+                if from_it and replace(expanded, source=listed.source) == listed:
+                    total += fires
+            totals.append(total)
+        return totals
 
     def share_dict(self) -> dict[str, float]:
         return {mode: float(share) for mode, share in zip(self.modes, self.shares, strict=True)}
