@@ -22,13 +22,18 @@ from .limits import CHAIN_ENTRIES_MAX, MODE_TIME_WORK_MAX, MODE_TIMES_MAX
 from .model import ANY_MODE, Assignment, Event, ModeMap, Occurs, Plan, Study
 from .reading import child_path
 
-__all__ = ["check_study"]
+__all__ = ["Checker", "check_study", "unallocated"]
 
 Locate = Callable[[object, str], str]
 
 
 def _no_map(_obj: object, default: str) -> str:
     return default
+
+
+def unallocated(plan_id: str, task_id: str) -> str:
+    """The warning of a leaf task a plan does not allocate."""
+    return f"plan {plan_id} does not allocate leaf task {task_id}"
 
 
 def check_study(study: Study, locate: Locate = _no_map) -> list[Problem]:
@@ -46,11 +51,14 @@ def check_study(study: Study, locate: Locate = _no_map) -> list[Problem]:
     -------
     list of Problem
     """
-    return _Checker(study, locate).run()
+    return Checker(study, locate).run()
 
 
-class _Checker:
-    def __init__(self, study: Study, locate: Locate):
+class Checker:
+    """The study checks; :meth:`run` makes them all (the plan editor's row check calls
+    :meth:`assignments` alone)."""
+
+    def __init__(self, study: Study, locate: Locate = _no_map):
         self.study = study
         self.locate = locate
         self.problems: list[Problem] = []
@@ -286,9 +294,7 @@ class _Checker:
         self.assignments(plan.assignments, assignments_path)
         for task in study.leaves:
             if task.id not in plan.assignments:
-                self.warn(
-                    assignments_path, f"plan {plan.id} does not allocate leaf task {task.id}"
-                )
+                self.warn(assignments_path, unallocated(plan.id, task.id))
         if plan.modes is not None:
             self.mode_map(plan.modes, child_path(path, "modes"))
 

@@ -23,6 +23,7 @@ __all__ = [
     "dump_study_text",
     "load_study",
     "load_study_text",
+    "ordered_problems",
     "read_study",
     "study_to_json",
     "validate_study",
@@ -71,10 +72,10 @@ def load_study(data: Any) -> LoadResult:
     problems = list(reader.problems)
     if study is not None:
         problems += check_study(study, reader.locate)
-    return LoadResult(study, _ordered(problems))
+    return LoadResult(study, ordered_problems(problems))
 
 
-def _ordered(problems: list[Problem]) -> list[Problem]:
+def ordered_problems(problems: list[Problem]) -> list[Problem]:
     """Errors first, each group in the order found, with exact repeats removed.
 
     A warning about a value that already has an error inside it is dropped: an invalid

@@ -104,7 +104,7 @@ class Agent:
     def is_human(self) -> bool:
         return self.kind == "human"
 
-    @property
+    @cached_property
     def capability_set(self) -> frozenset[str]:
         return frozenset(self.capabilities or ())
 
@@ -181,9 +181,10 @@ class Task:
             return {stage: 1 / len(STAGES) for stage in STAGES}
         return {stage: float(self.split.get(stage, 0)) for stage in STAGES}
 
-    @property
+    @cached_property
     def needs_by_stage(self) -> dict[str, frozenset[str]]:
-        """The capabilities each stage needs; a plain list applies to every stage."""
+        """The capabilities each stage needs; a plain list applies to every stage (made
+        once: read it, do not change it)."""
         if isinstance(self.needs, dict):
             return {stage: frozenset(self.needs.get(stage, ())) for stage in STAGES}
         return {stage: frozenset(self.needs or ()) for stage in STAGES}
@@ -435,6 +436,15 @@ class Study:
 
     def is_goal(self, task_id: str) -> bool:
         return bool(self.children.get(task_id))
+
+    def with_plan(self, plan: Plan) -> Study:
+        """The study with one of its plans (by id) replaced; what it has made of its
+        agents, events and tasks comes along (they are the same)."""
+        changed = replace(self, plans=tuple(plan if p.id == plan.id else p for p in self.plans))
+        for name in ("agents_by_id", "events_by_id", "tasks_by_id", "children", "leaves", "goals"):
+            if name in self.__dict__:
+                changed.__dict__[name] = self.__dict__[name]
+        return changed
 
     def agent(self, agent_id: str) -> Agent:
         try:

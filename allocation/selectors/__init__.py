@@ -8,12 +8,14 @@ callers write ``selectors.study_load(study)``; the other areas are imported by n
 from .simulation import simulation_run, simulation_run_for, simulation_runs
 from .studies import (
     plan_analysis,
+    plan_sim_tables,
     studies_by_reference,
     studies_for_user,
     study_analyses,
     study_cache_clear,
     study_document,
     study_for_user,
+    study_graph,
     study_load,
     study_remember,
     study_rows,
@@ -21,6 +23,7 @@ from .studies import (
 
 __all__ = [
     "plan_analysis",
+    "plan_sim_tables",
     "simulation_run",
     "simulation_run_for",
     "simulation_runs",
@@ -31,6 +34,7 @@ __all__ = [
     "study_document",
     "study_for_user",
     "study_load",
+    "study_graph",
     "study_remember",
     "study_rows",
 ]

@@ -18,9 +18,11 @@ from django.http import Http404
 
 from allocation import models as m
 from allocation.core import LoadResult, load_study
-from allocation.core.analysis import PlanAnalysis, StudyGraph, analyse_plan, prepare
+from allocation.core.analysis import PlanAnalysis, StudyGraph, prepare
+from allocation.core.analysis.evaluation import PlanEvaluation
 from allocation.core.model import ANY_MODE, Study
 from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
+from allocation.core.simulation import SimPlan, build_sim_plan
 
 
 class MemberRole(TypedDict):
@@ -128,13 +130,19 @@ def _document_from_rows(study: m.Study) -> dict[str, Any]:
 
 @dataclass
 class _Loaded:
-    """One study at one version: its document, what the core made of it, its analyses."""
+    """One study at one version: its document, what the core made of it, its analyses
+    and the evaluations they were read from (which follow a plan row's edit into the
+    next version)."""
 
     version: Any
     document: dict[str, Any]
     result: LoadResult
     graph: StudyGraph | None = None
     analyses: dict[str, PlanAnalysis] = field(default_factory=dict)
+    evaluations: dict[str, PlanEvaluation] = field(default_factory=dict)
+    #: Each plan's simulation tables, built from its analysis.
+    sim_plans: dict[str, SimPlan] = field(default_factory=dict)
+    lock: threading.Lock = field(default_factory=threading.Lock, repr=False)
 
 
 #: Recently read studies, by primary key, newest last. Every write through the services
@@ -170,11 +178,37 @@ def study_cache_clear() -> None:
         _LOADED.clear()
 
 
-def study_remember(study: m.Study, document: dict[str, Any], result: LoadResult) -> None:
+def study_remember(
+    study: m.Study,
+    document: dict[str, Any],
+    result: LoadResult,
+    *,
+    before: dict[str, Any] | None = None,
+    row: tuple[str, str] | None = None,
+) -> None:
     """Keep a document the services have just checked and written as the study's
-    current version (``study.updated_at``), so that reading it back costs no rebuild."""
+    current version (``study.updated_at``), so that reading it back costs no rebuild.
+
+    With ``row`` (plan, task), the edit changed that one plan row of the version whose
+    document is ``before``: the plans' evaluations of that version, if this process
+    holds them, follow the edit (the edited plan's by one incremental edit) instead of
+    being analysed again.
+    """
+    entry = _Loaded(study.updated_at, document, result)
     with _LOADED_LOCK:
-        _LOADED[study.pk] = _Loaded(study.updated_at, document, result)
+        previous = _LOADED.get(study.pk)
+    checked = result.valid_study
+    if row is not None and previous is not None and previous.document is before and checked:
+        with previous.lock:
+            carried, previous.evaluations = previous.evaluations, {}
+        plan_id, task_id = row
+        for key, evaluation in carried.items():
+            if key == plan_id:
+                evaluation.reassign(task_id, checked.plan(plan_id).assignments.get(task_id))
+            evaluation.restudy(checked)
+        entry.graph, entry.evaluations = previous.graph, carried
+    with _LOADED_LOCK:
+        _LOADED[study.pk] = entry
         _LOADED.move_to_end(study.pk)
         while len(_LOADED) > _LOADED_SIZE:
             _LOADED.popitem(last=False)
@@ -195,11 +229,44 @@ def study_load(study: m.Study) -> LoadResult:
 
 def _analysis(entry: _Loaded, checked: Study, plan_id: str) -> PlanAnalysis:
     """Plan ``plan_id`` of the entry's checked study analysed, kept with the entry."""
-    if plan_id not in entry.analyses:
+    with entry.lock:
+        if plan_id not in entry.analyses:
+            if entry.graph is None:
+                entry.graph = prepare(checked)
+            evaluation = entry.evaluations.get(plan_id)
+            if evaluation is None:
+                evaluation = entry.evaluations[plan_id] = PlanEvaluation(
+                    checked, plan_id, entry.graph
+                )
+            entry.analyses[plan_id] = evaluation.analysis()
+        return entry.analyses[plan_id]
+
+
+def plan_sim_tables(study: m.Study, plan_id: str) -> SimPlan | None:
+    """A plan's simulation tables, built once per study version from the analysis the
+    pages show, for every chunk of its runs this process simulates; ``None`` while the
+    study has errors."""
+    analysis = plan_analysis(study, plan_id)
+    if analysis is None:
+        return None
+    entry = _loaded(study)
+    with entry.lock:
+        if plan_id not in entry.sim_plans:
+            assert entry.graph is not None  # made with the analysis
+            entry.sim_plans[plan_id] = build_sim_plan(analysis.study, analysis, entry.graph)
+        return entry.sim_plans[plan_id]
+
+
+def study_graph(study: m.Study) -> StudyGraph | None:
+    """The study's task graph (kept with its version); ``None`` while it has errors."""
+    entry = _loaded(study)
+    checked = entry.result.valid_study
+    if checked is None:
+        return None
+    with entry.lock:
         if entry.graph is None:
             entry.graph = prepare(checked)
-        entry.analyses[plan_id] = analyse_plan(checked, plan_id, graph=entry.graph)
-    return entry.analyses[plan_id]
+        return entry.graph
 
 
 def plan_analysis(study: m.Study, plan_id: str) -> PlanAnalysis | None:

@@ -45,6 +45,7 @@ from django.db.models import F, Max
 from allocation import audit, selectors
 from allocation import models as m
 from allocation.core import LoadResult, Problem, StudyInvalid, load_study
+from allocation.core.rowedit import reassigned
 
 __all__ = [
     "BUMPED",
@@ -115,6 +116,8 @@ class StudyEdit:
     study_fields: list[str] = field(default_factory=list)
     unchanged: bool = False
     copied: Document | None = field(default=None, repr=False)
+    #: The plan row a row edit changed (plan, task), for the analyses to follow it.
+    row: tuple[str, str] | None = None
 
     @property
     def document(self) -> Document:
@@ -144,6 +147,40 @@ class StudyEdit:
             raise StudyInvalid(added)
         self.result = result
         return self.document
+
+    def reassign_row(self, plan_key: str, task_key: str, item: dict[str, Any] | None) -> None:
+        """Set one plan row (``item`` None: remove it) and check the row alone, as
+        reading the whole changed document would (``allocation.core.rowedit``): the
+        plan editor's save, whose cost follows the row, not the study.
+
+        The document then shares every part but the row's plan with :attr:`before`:
+        the service changes nothing else in it.
+
+        Raises
+        ------
+        StudyInvalid
+            Listing the errors the row adds, with their JSON paths.
+        """
+        loaded = selectors.study_load(self.study)
+        if loaded.study is None or plan_key not in loaded.study.plans_by_id:
+            # Not read as a study at all, or the plan is not one: the whole check says so.
+            plan = self.document["plans"][item_index(self.document["plans"], plan_key)]
+            _row_set(plan, task_key, item)
+            self.check()
+            return
+        document = {**self.before, "plans": list(self.before["plans"])}
+        index = item_index(document["plans"], plan_key)
+        plan = document["plans"][index] = {
+            **document["plans"][index],
+            "assignments": dict(document["plans"][index]["assignments"]),
+        }
+        _row_set(plan, task_key, item)
+        existing = {(p.path, p.message) for p in loaded.errors}
+        result = reassigned(loaded, plan_key, task_key, item)
+        added = [p for p in result.errors if (p.path, p.message) not in existing]
+        if added:
+            raise StudyInvalid(added)
+        self.copied, self.result, self.row = document, result, (plan_key, task_key)
 
     def study_set(self, values: Mapping[str, Any]) -> None:
         """Change fields of the study row itself (its header, assumptions, risk policy):
@@ -201,10 +238,19 @@ def study_edit(
         study_touch(locked, fields=edit.study_fields)
         if edit.result is not None:
             # The cache hand-off: this document, checked, is the new version's.
-            selectors.study_remember(locked, edit.document, edit.result)
+            selectors.study_remember(
+                locked, edit.document, edit.result, before=edit.before, row=edit.row
+            )
 
 
 # -- helpers ------------------------------------------------------------------------
+
+
+def _row_set(plan: Document, task_key: str, item: dict[str, Any] | None) -> None:
+    if item is None:
+        plan["assignments"].pop(task_key, None)
+    else:
+        plan["assignments"][task_key] = item
 
 
 def study_locked(study: m.Study) -> m.Study:

@@ -172,15 +172,7 @@ def assignment_set(
             )
             _check_assignment(edit, plan_key, task_key, expected_version, stored)
 
-        def mutate(document: Document) -> None:
-            plan = document["plans"][item_index(document["plans"], plan_key)]
-            if item is None:
-                plan["assignments"].pop(task_key, None)
-            else:
-                plan["assignments"][task_key] = item
-
-        mutate(edit.document)
-        edit.check()
+        edit.reassign_row(plan_key, task_key, item)
         plan = edit.study.plans.get(key=plan_key)
         task = edit.study.tasks.get(key=task_key)
         existing = plan.assignments.filter(task=task).first()

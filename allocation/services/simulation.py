@@ -591,7 +591,13 @@ def simulation_chunk_run(*, run_id: int, chunk: int) -> str:
             # It had no errors when the run was asked for, so it has changed since.
             raise SimulationStudyChanged
         part = simulate_chunk(
-            result.study, run.plan_key, seed=run.seed, chunk=chunk, days=run.days
+            result.study,
+            run.plan_key,
+            seed=run.seed,
+            chunk=chunk,
+            days=run.days,
+            # The tables of the analysis the pages show, shared by the chunks.
+            plan=selectors.plan_sim_tables(run.study, run.plan_key),
         )
         if simulation_chunk_store(run_id=run_id, chunk=chunk, data=part.to_json()):
             doing = "combining the chunks"

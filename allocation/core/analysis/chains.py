@@ -33,16 +33,24 @@ References
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, NamedTuple
 
 from ..graph import Trigger
 from ..model import Lag, Range, Study
 from .duty import duty_wait
-from .occurrences import Occurrences
+from .occurrences import Occurrences, TriggerTiming
 from .timeofday import asleep_intervals
 
-__all__ = ["ChainTiming", "Span", "TaskTiming", "chain_timings", "response_latency"]
+__all__ = [
+    "ChainContext",
+    "ChainTiming",
+    "Span",
+    "TaskTiming",
+    "chain_timings",
+    "response_latency",
+    "time_chain",
+]
 
 
 class Span(NamedTuple):
@@ -205,9 +213,7 @@ def chain_timings(
     -------
     list of ChainTiming
     """
-    default_human = assumptions["default_response_s"]
-    sleep_of = {agent.id: asleep_intervals(agent) for agent in study.humans}
-    duty_of = {agent.id: agent.on_duty for agent in study.humans if agent.on_duty}
+    context = ChainContext.of(study, assumptions)
     chains = []
     for trigger_id, timing in occurrences.timings.items():
         members = {
@@ -215,75 +221,135 @@ def chain_timings(
             for task_id, chance in occurrences.chains[trigger_id].items()
             if chance > 0
         }
-        latencies: dict[tuple[str | None, int], Span] = {}
-
-        def latency_of(
-            agent_id: str | None, after: Span, _timing=timing, _cache=latencies
-        ) -> Span:
-            """The agent's latency when the work reaches them ``after`` the chain's start
-            (typically, and on average): asleep or awake as that moment of the day makes
-            it."""
-            key = (agent_id, round(after.typical / 60), round(after.mean / 60))
-            if key not in _cache:
-                pieces = sleep_of.get(agent_id or "", [])
-                day = _timing.timing
-                duty = duty_of.get(agent_id or "")
-                if duty is not None:
-                    # Off duty the work waits for the next duty start; on duty the person
-                    # answers awake (methods document, #duty-hours).
-                    awake = response_latency(study, agent_id, 0.0, default_human, 0.0)
-                    _off, typical_wait, _longest = duty_wait(day.shifted(after.typical), duty)
-                    _off, mean_wait, longest = duty_wait(day.shifted(after.mean), duty)
-                    _cache[key] = Span(
-                        awake.low,
-                        awake.typical + typical_wait,
-                        awake.high + longest,
-                        awake.mean + mean_wait,
-                    )
-                    return _cache[key]
-                share = day.shifted(after.typical).share_within(pieces) if pieces else 0
-                mean_share = day.shifted(after.mean).share_within(pieces) if pieces else 0
-                _cache[key] = response_latency(study, agent_id, share, default_human, mean_share)
-            return _cache[key]
-
-        done: dict[str, TaskTiming] = {}
-        roots = set(timing.trigger.roots)
-        for task_id in sorted(members, key=position.__getitem__):
-            receiver = holder(task_id)
-            if task_id in roots:
-                ready = ZERO
-                latency = latency_of(receiver, ZERO) if timing.from_event else ZERO
-                start = latency
-            else:
-                arrivals = []
-                for source, lag in predecessors.get(task_id, ()):
-                    if source not in done:
-                        continue
-                    arrival = done[source].finish + Span.of(lag)
-                    handed = receiver is not None and holder(source) != receiver
-                    arrivals.append((arrival, latency_of(receiver, arrival) if handed else ZERO))
-                ready = Span.later([arrival for arrival, _wait in arrivals])
-                if all(wait is ZERO for _arrival, wait in arrivals):
-                    # No handover: the start is the ready time itself, shared, which
-                    # keeps the memory per task-in-chain entry down.
-                    start, latency = ready, ZERO
-                else:
-                    start = Span.later([arrival + wait for arrival, wait in arrivals])
-                    latency = Span(
-                        start.low - ready.low,
-                        start.typical - ready.typical,
-                        start.high - ready.high,
-                        start.mean - ready.mean,
-                    )
-            task = study.task(task_id)
-            done[task_id] = TaskTiming(
-                task_id=task_id,
-                probability=members[task_id],
-                ready=ready,
-                latency=latency,
-                start=start,
-                finish=start + Span.of(duration(task_id)),
-                window_s=None if task.window_s is None else float(task.window_s),
-            )
-        chains.append(ChainTiming(timing.trigger, timing.per_day, tuple(done.values())))
+        chains.append(
+            time_chain(context, timing, members, predecessors, position, holder, duration, {})
+        )
     return chains
+
+
+@dataclass(frozen=True)
+class ChainContext:
+    """What every chain's timing reads of the study, made once per analysis."""
+
+    study: Study
+    default_human: list[float]
+    sleep_of: dict[str, list[tuple[float, float]]]
+    duty_of: dict[str, Any]
+    #: Each duration's and lag's span, made once: by identity, with the value kept so
+    #: that its identity is not reused.
+    spans: dict[int, tuple[Range | Lag, Span]] = field(default_factory=dict)
+
+    def span(self, value: Range | Lag | None) -> Span:
+        """:meth:`Span.of` a duration or lag of the study or its plans, made once."""
+        if value is None:
+            return ZERO
+        made = self.spans.get(id(value))
+        if made is None or made[0] is not value:
+            made = self.spans[id(value)] = (value, Span.of(value))
+        return made[1]
+
+    @classmethod
+    def of(cls, study: Study, assumptions: dict[str, Any]) -> ChainContext:
+        return cls(
+            study,
+            assumptions["default_response_s"],
+            {agent.id: asleep_intervals(agent) for agent in study.humans},
+            {agent.id: agent.on_duty for agent in study.humans if agent.on_duty},
+        )
+
+
+def time_chain(
+    context: ChainContext,
+    timing: TriggerTiming,
+    members: dict[str, float],
+    predecessors: dict[str, list[tuple[str, Lag | None]]],
+    position: dict[str, int],
+    holder: Callable[[str], str | None],
+    duration: Callable[[str], Range | None],
+    latencies: dict[tuple[str | None, int, int], Span],
+    kept: dict[str, TaskTiming] | None = None,
+    from_position: int | None = None,
+) -> ChainTiming:
+    """The timing of one trigger's chain (see :func:`chain_timings`).
+
+    ``latencies`` caches each agent's latency by the moment the work reaches them; it
+    depends on the study and the trigger only, so a caller may keep it between plans'
+    edits. With ``kept`` (the chain's earlier timing, task to timing) and
+    ``from_position``, the tasks placed before that position in the topological order
+    keep their timing: a change to a task changes nothing upstream of it.
+    """
+    study, default_human = context.study, context.default_human
+    sleep_of, duty_of = context.sleep_of, context.duty_of
+
+    def latency_of(agent_id: str | None, after: Span) -> Span:
+        """The agent's latency when the work reaches them ``after`` the chain's start
+        (typically, and on average): asleep or awake as that moment of the day, to the
+        minute, makes it. To the minute, each moment's latency is made once, and the
+        same whatever reached it first."""
+        key = (agent_id, round(after.typical / 60), round(after.mean / 60))
+        if key not in latencies:
+            pieces = sleep_of.get(agent_id or "", [])
+            day = timing.timing
+            duty = duty_of.get(agent_id or "")
+            typical_at, mean_at = 60.0 * key[1], 60.0 * key[2]
+            if duty is not None:
+                # Off duty the work waits for the next duty start; on duty the person
+                # answers awake (methods document, #duty-hours).
+                awake = response_latency(study, agent_id, 0.0, default_human, 0.0)
+                _off, typical_wait, _longest = duty_wait(day.shifted(typical_at), duty)
+                _off, mean_wait, longest = duty_wait(day.shifted(mean_at), duty)
+                latencies[key] = Span(
+                    awake.low,
+                    awake.typical + typical_wait,
+                    awake.high + longest,
+                    awake.mean + mean_wait,
+                )
+                return latencies[key]
+            share = day.shifted(typical_at).share_within(pieces) if pieces else 0
+            mean_share = day.shifted(mean_at).share_within(pieces) if pieces else 0
+            latencies[key] = response_latency(study, agent_id, share, default_human, mean_share)
+        return latencies[key]
+
+    done: dict[str, TaskTiming] = {}
+    roots = set(timing.trigger.roots)
+    for task_id in sorted(members, key=position.__getitem__):
+        if kept is not None and from_position is not None and position[task_id] < from_position:
+            done[task_id] = kept[task_id]
+            continue
+        receiver = holder(task_id)
+        if task_id in roots:
+            ready = ZERO
+            latency = latency_of(receiver, ZERO) if timing.from_event else ZERO
+            start = latency
+        else:
+            arrivals = []
+            for source, lag in predecessors.get(task_id, ()):
+                if source not in done:
+                    continue
+                arrival = done[source].finish + context.span(lag)
+                handed = receiver is not None and holder(source) != receiver
+                arrivals.append((arrival, latency_of(receiver, arrival) if handed else ZERO))
+            ready = Span.later([arrival for arrival, _wait in arrivals])
+            if all(wait is ZERO for _arrival, wait in arrivals):
+                # No handover: the start is the ready time itself, shared, which keeps
+                # the memory per task-in-chain entry down.
+                start, latency = ready, ZERO
+            else:
+                start = Span.later([arrival + wait for arrival, wait in arrivals])
+                latency = Span(
+                    start.low - ready.low,
+                    start.typical - ready.typical,
+                    start.high - ready.high,
+                    start.mean - ready.mean,
+                )
+        task = study.task(task_id)
+        done[task_id] = TaskTiming(
+            task_id=task_id,
+            probability=members[task_id],
+            ready=ready,
+            latency=latency,
+            start=start,
+            finish=start + context.span(duration(task_id)),
+            window_s=None if task.window_s is None else float(task.window_s),
+        )
+    return ChainTiming(timing.trigger, timing.per_day, tuple(done.values()))

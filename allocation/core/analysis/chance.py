@@ -181,16 +181,24 @@ def _enumerate(members, roots, predecessors, shared) -> dict[str, float]:
         fixed[(source, target)] = came
         weight *= np.where(came > 0, p, 1.0 - p)
     chance = _propagate(members, roots, predecessors, fixed, outcomes.size)
+    # One product for the tasks whose chance depends on the outcomes; the others' chance
+    # is the same in every outcome, weighted by the outcomes' total.
+    varying = [task for task, value in chance.items() if np.ndim(value)]
+    averaged: Any = np.vstack([chance[task] for task in varying]) @ weight if varying else []
+    result = dict(zip(varying, map(float, averaged), strict=True))
+    total = float(weight.sum())
     return {
-        task: float(np.dot(weight, np.broadcast_to(value, weight.shape)))
+        task: result[task] if task in result else float(value) * total
         for task, value in chance.items()
     }
 
 
 def _draw(rng: np.random.Generator, p: float) -> np.ndarray:
     """``SAMPLES`` draws that come out with probability ``p``, to within 2 ** -17: 16-bit
-    random integers against a threshold, ten times faster than comparing floats."""
-    return rng.integers(0, 1 << 16, SAMPLES, dtype=np.uint16) < round(p * (1 << 16))
+    random integers (four from each 64 raw bits of the generator) against a threshold,
+    many times faster than comparing floats."""
+    bits = rng.bit_generator.random_raw(-(-SAMPLES // 4)).view(np.uint16)[:SAMPLES]
+    return bits < round(p * (1 << 16))
 
 
 def _sample(members, roots, predecessors, key: str) -> ChainChance:
@@ -207,6 +215,7 @@ def _sample(members, roots, predecessors, key: str) -> ChainChance:
             came = occurred[source]
             here |= came & _draw(rng, p) if p < 1 else came
         occurred[task] = here
-    chance = {task: float(draws.mean()) for task, draws in occurred.items()}
+    # The share of draws in which each task occurred (a count: the mean, faster).
+    chance = {task: int(np.count_nonzero(draws)) / SAMPLES for task, draws in occurred.items()}
     se = {task: (p * (1 - p) / SAMPLES) ** 0.5 for task, p in chance.items()}
     return ChainChance(chance, se)

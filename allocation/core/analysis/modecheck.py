@@ -577,8 +577,10 @@ class _Checker:
         self.critical = int(resolve_policy(study.risk_policy)["critical_severity"])
         self.leaves = [task.id for task in study.leaves]
         leaf_set = set(self.leaves)
-        # Only overridden tasks can differ between modes; the rest hold the plan's holder.
-        self.base = {task_id: self._holder(task_id, None, assumptions) for task_id in self.leaves}
+        # Only overridden tasks can differ between modes; the rest hold the plan's holder,
+        # made as a question needs it (most tasks are never asked about).
+        self.assumptions = assumptions
+        self.base: dict[str, tuple[str | None, bool]] = {}
         self.overridden: dict[str, dict[str, tuple[str | None, bool]]] = {
             mode.id: {
                 task_id: self._holder(task_id, mode.id, assumptions)
@@ -597,7 +599,14 @@ class _Checker:
         return involved.principal, involved.applies
 
     def holder(self, mode: str, task_id: str) -> tuple[str | None, bool]:
-        return self.overridden[mode].get(task_id, self.base[task_id])
+        held = self.overridden[mode].get(task_id)
+        return held if held is not None else self.base_holder(task_id)
+
+    def base_holder(self, task_id: str) -> tuple[str | None, bool]:
+        """The plan's own holder of a task, and whether it applies."""
+        if task_id not in self.base:
+            self.base[task_id] = self._holder(task_id, None, self.assumptions)
+        return self.base[task_id]
 
     def differences(self, first: str, second: str) -> tuple[str, ...]:
         """Tasks held differently in two modes, in task-file order."""
@@ -632,7 +641,7 @@ class _Checker:
         differing = set()
         for task_id in touched:
             here = self.holder(actual, task_id)[0]
-            there = holders.get(task_id, {self.base[task_id][0]})
+            there = holders.get(task_id, {self.base_holder(task_id)[0]})
             if there != {here}:
                 differing.add(task_id)
         return tuple(task_id for task_id in self.leaves if task_id in differing)

@@ -13,15 +13,23 @@ chain does not continue through it.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 
 from ..graph import Trigger, root_occurs, trigger_rule, triggers
 from ..model import Event, Occurs, Study, seconds_of_day
-from .chance import chain_chances
+from .chance import ChainChance, chain_chances
 from .timeofday import DayShare, asleep_intervals, awake_intervals, rule_sleeper
 
-__all__ = ["Occurrences", "TriggerTiming", "occurrences", "rate_and_timing", "trigger_timings"]
+__all__ = [
+    "Occurrences",
+    "TriggerTiming",
+    "occurrences",
+    "rate_and_timing",
+    "tally",
+    "trigger_chances",
+    "trigger_timings",
+]
 
 
 @dataclass(frozen=True)
@@ -121,24 +129,61 @@ def occurrences(
     Occurrences
     """
     result = Occurrences(per_day={task.id: 0.0 for task in study.leaves})
-    for task in study.leaves:
-        result.probability[task.id] = {}
-        result.from_trigger[task.id] = {}
+    reaching: dict[str, list[tuple[TriggerTiming, ChainChance]]] = {
+        task.id: [] for task in study.leaves
+    }
     for timing in trigger_timings(study, every_days_when):
-        trigger = timing.trigger
-        result.timings[trigger.id] = timing
-        roots = {}
-        for root in trigger.roots:
-            own = root_occurs(study, root).probability
-            roots[root] = 1.0 if own is None else float(own)
-        chained = chain_chances(roots, successors, position, applies, key=trigger.id)
-        chance = chained.chance
-        result.chains[trigger.id] = chance
-        for task_id, probability in chance.items():
-            result.probability[task_id][trigger.id] = probability
-            result.from_trigger[task_id][trigger.id] = timing.per_day * probability
-            result.per_day[task_id] += timing.per_day * probability
-        for task_id, error in (chained.se or {}).items():
-            variance = result.se_per_day.get(task_id, 0.0) ** 2 + (timing.per_day * error) ** 2
-            result.se_per_day[task_id] = variance**0.5
+        result.timings[timing.trigger.id] = timing
+        chained = trigger_chances(study, timing, successors, position, applies)
+        result.chains[timing.trigger.id] = chained.chance
+        for task_id in chained.chance:
+            reaching[task_id].append((timing, chained))
+    for task_id, entries in reaching.items():
+        tally(result, task_id, entries)
     return result
+
+
+def trigger_chances(
+    study: Study,
+    timing: TriggerTiming,
+    successors: dict[str, list[tuple[str, float]]],
+    position: dict[str, int],
+    applies: Callable[[str], bool],
+) -> ChainChance:
+    """The chance of each task in one happening of a trigger's chain."""
+    trigger = timing.trigger
+    roots = {}
+    for root in trigger.roots:
+        own = root_occurs(study, root).probability
+        roots[root] = 1.0 if own is None else float(own)
+    return chain_chances(roots, successors, position, applies, key=trigger.id)
+
+
+def tally(
+    result: Occurrences,
+    task_id: str,
+    entries: Iterable[tuple[TriggerTiming, ChainChance]],
+) -> None:
+    """A task's occurrences from the chains that reach it, in trigger order: its chance
+    and occurrences a day from each, their sum, and the standard error where a chance
+    was estimated."""
+    probability: dict[str, float] = {}
+    from_trigger: dict[str, float] = {}
+    per_day = 0.0
+    se: float | None = None
+    for timing, chained in entries:
+        trigger_id = timing.trigger.id
+        chance = chained.chance[task_id]
+        probability[trigger_id] = chance
+        from_trigger[trigger_id] = timing.per_day * chance
+        per_day += timing.per_day * chance
+        if chained.se is not None and task_id in chained.se:
+            variance = (se or 0.0) ** 2 + (timing.per_day * chained.se[task_id]) ** 2
+            se = variance**0.5
+    result.probability[task_id] = probability
+    result.from_trigger[task_id] = from_trigger
+    result.per_day[task_id] = per_day
+    if se is None:
+        result.se_per_day.pop(task_id, None)
+    else:
+        result.se_per_day[task_id] = se
