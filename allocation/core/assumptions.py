@@ -399,6 +399,13 @@ METHOD_NOTES = (
         "and starts when all of those that occurred are done.",
     ),
     (
+        "latency_minute",
+        TOOL,
+        "In a chain, a person's response latency is awake or asleep as the minute the "
+        "work reaches them makes it (the share of the chain's start times that fall in "
+        "their asleep window, read at that minute).",
+    ),
+    (
         "doa",
         TOOL,
         "Overall degree of automation weighs the stages 1 : 2 : 3 : 4 (after "

@@ -17,9 +17,14 @@ it, so a page cannot quietly show a raw key or link to a missing section.
 
 from __future__ import annotations
 
+import functools
+from typing import Any
+
 from django import template
 from django.urls import reverse
 from django.utils.html import format_html
+from django.utils.safestring import mark_safe
+from django.utils.text import Truncator
 
 from allocation.core import registry
 from allocation.core.methods import methods_document
@@ -151,3 +156,52 @@ def method_link(anchor: str, text: str = "") -> str:
 def method_summary(anchor: str) -> str:
     """The first paragraph of a section of the methods document, as plain text."""
     return methods_document().section(anchor).summary
+
+
+@register.simple_tag
+def options(
+    choices: Any,
+    selected: Any,
+    blank: str = "",
+    truncate: int = 0,
+    title: bool = False,
+    text: str = "label",
+    prefix: str = "",
+    pick: str = "",
+) -> str:
+    """The ``<option>`` elements of a select, the one whose value equals ``selected``
+    (with ``pick``, ``selected[pick]``) marked selected; ``blank`` adds a first option
+    with no value. ``choices`` holds (value, label) pairs or plain values; each option
+    shows its label (``text="value"``: its value, after ``prefix``), cut to ``truncate``
+    characters, with the label as its title if ``title``.
+
+    A plan editor page renders the same lists in every row: each distinct list and choice
+    is made once.
+    """
+    if pick:
+        selected = selected.get(pick) if hasattr(selected, "get") else None
+    pairs = tuple(tuple(c) if isinstance(c, list | tuple) else (c, c) for c in choices)
+    try:
+        return _options(pairs, selected, blank, truncate, title, text, prefix)
+    except TypeError:  # a value that cannot be a key of the cache
+        return _options.__wrapped__(pairs, selected, blank, truncate, title, text, prefix)
+
+
+@functools.lru_cache(maxsize=4096)
+def _options(pairs, selected, blank, truncate, title, text, prefix) -> str:
+    parts = [format_html('<option value="">{}</option>', blank)] if blank else []
+    for value, label in pairs:
+        shown = str(label if text == "label" else value)
+        if truncate:
+            shown = Truncator(shown).chars(truncate)
+        parts.append(
+            format_html(
+                '<option value="{}"{}{}>{}{}</option>',
+                value,
+                format_html(' title="{}"', label) if title else "",
+                mark_safe(" selected") if selected == value else "",
+                prefix,
+                shown,
+            )
+        )
+    return mark_safe("".join(parts))

@@ -63,7 +63,7 @@ from .plan import (
     is_interruption,
     prepare,
     reach_shares,
-    start_asleep_share,
+    start_asleep_window,
     task_modes,
     window_findings,
 )
@@ -137,6 +137,11 @@ class PlanEvaluation:
                 response_latency(study, human, 0.0, default).mean,
                 response_latency(study, human, 1.0, default).mean,
             )
+            for human in self.sleep
+        }
+        # Where work reaching each person starts while they sleep, by its ready time.
+        self.start_asleep = {
+            human: start_asleep_window(self.sleep[human], self.latency_means[human])
             for human in self.sleep
         }
         self.context = ChainContext.of(study, self.assumptions)
@@ -579,7 +584,8 @@ class PlanEvaluation:
                 if not pieces:
                     continue
                 if holder == human and timing.latency.mean > 0:
-                    share = start_asleep_share(day, timing, pieces, self.latency_means[human])
+                    window = self.start_asleep[human]
+                    share = day.shifted(timing.ready.mean).share_within(window)
                 else:
                     moved = moved or day.shifted(timing.start.mean)
                     share = moved.share_within(pieces)

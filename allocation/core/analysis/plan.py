@@ -25,7 +25,7 @@ from ..describe import seconds_text
 from ..graph import precedence_order
 from ..model import Lag, Plan, Study
 from .awareness import Awareness
-from .chains import ChainTiming, Span, TaskTiming
+from .chains import ChainTiming, Span
 from .coherence import Coherence
 from .duty import on_duty_pieces
 from .escalation import Escalation, Segment
@@ -35,7 +35,7 @@ from .involvement import Involvement, involvement
 from .modes import assignment_in_mode
 from .modetime import ModeTime
 from .occurrences import Occurrences
-from .timeofday import DAY_S, DayShare, asleep_intervals, wrap_interval
+from .timeofday import DAY_S, asleep_intervals, wrap_interval
 
 __all__ = ["PersonFigures", "PlanAnalysis", "StudyGraph", "TaskFigures", "analyse_plan", "prepare"]
 
@@ -387,25 +387,22 @@ def _outside(first, second) -> list[tuple[float, float]]:
     return result
 
 
-def start_asleep_share(
-    day: DayShare,
-    timing: TaskTiming,
-    asleep: list[tuple[float, float]],
-    latency_means: tuple[float, float],
-) -> float:
-    """The chance that a task of a chain, whose work reaches the person with a response
-    latency, starts inside their asleep window.
+def start_asleep_window(
+    asleep: list[tuple[float, float]], latency_means: tuple[float, float]
+) -> list[tuple[float, float]]:
+    """The moments at which work reaching a person with a response latency makes them
+    start it inside their asleep window.
 
     Their latency is the asleep one when the work arrives in their sleep and the awake one
     otherwise (as the simulation draws it): the start is asleep when the work arrives
     asleep and the asleep latency leaves them asleep, or arrives awake and the awake
-    latency reaches into the window. Without a latency, the chain's start times shifted
-    by the task's expected start place it.
+    latency reaches into the window. The chance that a task starts asleep is the share
+    of its ready times in these moments (the same for all the person's tasks: made once).
     """
     awake_s, asleep_s = latency_means
     stays = _overlap(asleep, _shift(asleep, -asleep_s))
     reaches = _outside(_shift(asleep, -awake_s), asleep)
-    return day.shifted(timing.ready.mean).share_within(stays + reaches)
+    return stays + reaches
 
 
 _MISS_ORDER = {"always": 3, "typically": 2, "possibly": 1}
