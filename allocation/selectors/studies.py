@@ -6,6 +6,7 @@ database, the file format and the analyses share one reading and one set of chec
 
 from __future__ import annotations
 
+import logging
 import threading
 from collections import OrderedDict
 from dataclasses import dataclass, field
@@ -18,8 +19,7 @@ from django.http import Http404
 
 from allocation import models as m
 from allocation.core import LoadResult, load_study
-from allocation.core.analysis import PlanAnalysis, StudyGraph, prepare
-from allocation.core.analysis.evaluation import PlanEvaluation
+from allocation.core.analysis import PlanAnalysis, PlanEvaluation, StudyGraph, prepare
 from allocation.core.model import ANY_MODE, Study
 from allocation.core.reading import FORMAT_NAME, FORMAT_VERSION
 from allocation.core.simulation import SimPlan, build_sim_plan
@@ -145,6 +145,8 @@ class _Loaded:
     lock: threading.Lock = field(default_factory=threading.Lock, repr=False)
 
 
+logger = logging.getLogger(__name__)
+
 #: Recently read studies, by primary key, newest last. Every write through the services
 #: moves the study's ``updated_at``, which is the version an entry is valid for, so an
 #: entry is never served after its study changed. Per process; a handful of studies.
@@ -202,10 +204,15 @@ def study_remember(
         with previous.lock:
             carried, previous.evaluations = previous.evaluations, {}
         plan_id, task_id = row
-        for key, evaluation in carried.items():
-            if key == plan_id:
-                evaluation.reassign(task_id, checked.plan(plan_id).assignments.get(task_id))
-            evaluation.restudy(checked)
+        try:
+            for key, evaluation in carried.items():
+                if key == plan_id:
+                    evaluation.reassign(task_id, checked.plan(plan_id).assignments.get(task_id))
+                evaluation.restudy(checked)
+        except Exception:
+            # A cache: the edit stands, and the analyses are made afresh when read.
+            logger.exception("the analyses of study %s did not follow its edit", study.pk)
+            carried = {}
         entry.graph, entry.evaluations = previous.graph, carried
     with _LOADED_LOCK:
         _LOADED[study.pk] = entry

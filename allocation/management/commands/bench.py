@@ -30,8 +30,7 @@ from contextlib import contextmanager
 from django.core.management.base import BaseCommand
 
 from allocation.core import load_study, load_study_text
-from allocation.core.analysis import analyse_plan, prepare
-from allocation.core.analysis.evaluation import PlanEvaluation
+from allocation.core.analysis import PlanEvaluation, analyse_plan, prepare
 from allocation.core.analysis.modecheck import verify_mode_map
 from allocation.core.assumptions import resolve_assumptions
 from allocation.core.canonical import BATON_1, CURRENT_FORM, canonical_json, digest, verify
@@ -513,24 +512,25 @@ class Command(BaseCommand):
             def row_save():
                 client.post(row_url, choices[next(turn) % 2], headers={"HX-Request": "true"})
 
-            trivial_s = _median_seconds(trivial, repeats * 4, True)
             rows = [
-                ("open the plan editor (study read from the rows)", editor_cold),
-                ("open the plan editor again (study already read)", editor_warm),
-                ("save one row (check, write, re-analyse, answer)", row_save),
+                ("open the plan editor (study read from the rows)", editor_cold, False),
+                ("open the plan editor again (study already read)", editor_warm, True),
+                ("save one row (check it, write, update the analysis)", row_save, True),
             ]
-            self.stdout.write(
-                f"pages on the 1,000-task study: trivial page (the study list) "
-                f"{trivial_s * 1000:.1f} ms"
-            )
-            for label, work in rows:
-                seconds = _median_seconds(work, repeats, True)
-                ratio = seconds / trivial_s
-                verdict = "met" if ratio <= PAGE_LIMIT else "MISSED"
+            for collect, mode in ((False, "gc paused"), (True, "gc running")):
+                trivial_s = _median_seconds(trivial, repeats * 4, collect)
                 self.stdout.write(
-                    f"    {label:52} {seconds * 1000:8.1f} ms  "
-                    f"{ratio:6.1f}x trivial (target <= {PAGE_LIMIT:g}: {verdict})"
+                    f"pages on the 1,000-task study, {mode}: trivial page (the study list) "
+                    f"{trivial_s * 1000:.1f} ms"
                 )
+                for label, work, targeted in rows:
+                    seconds = _median_seconds(work, repeats, collect)
+                    ratio = seconds / trivial_s
+                    verdict = "met" if ratio <= PAGE_LIMIT else "MISSED"
+                    target = f" (target <= {PAGE_LIMIT:g}: {verdict})" if targeted else ""
+                    self.stdout.write(
+                        f"    {label:52} {seconds * 1000:8.1f} ms  {ratio:6.1f}x trivial{target}"
+                    )
 
     def mode_check_at_limit(self, *, repeats: int) -> None:
         """The mode-map check of a map of 23 look-alike modes whose random actions give
