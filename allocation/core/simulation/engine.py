@@ -584,11 +584,12 @@ def person_segments(
     variant = draw.variant
     scale = draw.duration
     mine = sim.human[variant] == person
-    shares = sim.stage_share[variant]
-    total = shares.sum(axis=1)
+    # Each variant's share first, then per occurrence: one gather, not one per stage.
+    total = sim.stage_share.sum(axis=1)[variant]
     # Each piece: rows of the draw, begins, ends, kind, and "sup"/"mon" for the extras.
     pieces: list[tuple[np.ndarray, np.ndarray, np.ndarray, int, str | None]] = []
     if by_stage:
+        shares = sim.stage_share[variant]
         before = np.cumsum(shares, axis=1) - shares
         for s in range(shares.shape[1]):
             rows = np.flatnonzero(mine & (shares[:, s] > 0) & (scale > 0))

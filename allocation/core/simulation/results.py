@@ -72,7 +72,7 @@ def chunk_figures(sim: SimPlan, draw: ChunkDraw) -> dict[str, dict[str, np.ndarr
     days = draw.days
     variant = draw.variant
     worked = draw.duration
-    active = worked * sim.stage_share[variant].sum(axis=1)
+    active = worked * sim.stage_share.sum(axis=1)[variant]
     edges, per_day = bin_edges(draw.first_day, days, sim.bin_s)
     day_edges = np.arange(draw.first_day, draw.first_day + days + 1) * DAY_S
     lengths = np.diff(edges)[: days * per_day].reshape(days, per_day)
