@@ -153,6 +153,10 @@ logger = logging.getLogger(__name__)
 _LOADED: OrderedDict[int, _Loaded] = OrderedDict()
 _LOADED_SIZE = 8
 _LOADED_LOCK = threading.Lock()
+#: At most this many plan-task pairs analysed among the kept studies (an evaluation with
+#: its analysis takes about 14 KB a pair: two studies at the size limits, about 570 MB);
+#: past it the studies read longest ago are forgotten.
+_LOADED_PLAN_TASKS = 40_000
 
 
 def _loaded(study: m.Study) -> _Loaded:
@@ -236,17 +240,40 @@ def study_load(study: m.Study) -> LoadResult:
 
 def _analysis(entry: _Loaded, checked: Study, plan_id: str) -> PlanAnalysis:
     """Plan ``plan_id`` of the entry's checked study analysed, kept with the entry."""
+    made = False
     with entry.lock:
         if plan_id not in entry.analyses:
             if entry.graph is None:
                 entry.graph = prepare(checked)
             evaluation = entry.evaluations.get(plan_id)
             if evaluation is None:
+                made = True
                 evaluation = entry.evaluations[plan_id] = PlanEvaluation(
                     checked, plan_id, entry.graph
                 )
             entry.analyses[plan_id] = evaluation.analysis()
-        return entry.analyses[plan_id]
+        analysis = entry.analyses[plan_id]
+    if made:
+        _forget_past_budget(keep=entry)
+    return analysis
+
+
+def _forget_past_budget(*, keep: _Loaded) -> None:
+    """Forget the studies read longest ago while the kept analyses hold more plan-task
+    pairs than ``_LOADED_PLAN_TASKS`` (never ``keep``, the one just analysed)."""
+    with _LOADED_LOCK:
+
+        def pairs(entry: _Loaded) -> int:
+            study = entry.result.study
+            leaves = len(study.leaves) if study is not None else 0
+            return leaves * max(len(entry.evaluations), len(entry.analyses))
+
+        total = sum(pairs(entry) for entry in _LOADED.values())
+        for key in list(_LOADED):
+            if total <= _LOADED_PLAN_TASKS:
+                break
+            if _LOADED[key] is not keep:
+                total -= pairs(_LOADED.pop(key))
 
 
 def plan_sim_tables(study: m.Study, plan_id: str) -> SimPlan | None:

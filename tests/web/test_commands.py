@@ -155,9 +155,13 @@ def test_analyse_a_file_with_errors_lists_them(heating_document, tmp_path):
 
 
 def test_bench_prints_the_ratios_against_the_targets(db):
-    output = run("bench", "--large", "2000", "--repeats", "1")
+    output = run("bench", "--large", "2000", "--memory-tasks", "1500", "--repeats", "1")
     assert "analysis / floor at 1,000 tasks" in output
     assert "2,000 / 1,000 tasks" in output
-    assert "save one row (check, write, re-analyse, answer)" in output
+    assert "save one row (check it, write, update the analysis)" in output
     assert "mode-map verification of plan-1" in output
-    assert output.count("x trivial (target <= 10") == 3
+    # Opening the editor again and saving a row, with the collector paused and running.
+    assert output.count("x trivial (target <= 10") == 4
+    assert output.count("one incremental edit of plan-1") == 2
+    assert output.count("edit / analysis") == 2
+    assert "of a 1,500-task study" in output and "peak" in output

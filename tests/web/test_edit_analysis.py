@@ -102,3 +102,15 @@ def test_the_insulin_example_follows_row_saves(client, owner):
         assert response.status_code == 200
         shown = shown_analysis_file(study, plan["id"])
         assert shown == fresh_analysis_file(study, plan["id"]), (task, values, assignment)
+
+
+def test_the_kept_analyses_stay_within_their_budget(study, owner, heating_document, monkeypatch):
+    """Two studies of two leaf tasks, two plans each: 8 plan-task pairs. With room for 6,
+    analysing the second study forgets the first; the one just analysed stays."""
+    other = services.study_import(data={**heating_document}, owner=owner)
+    monkeypatch.setattr(cache, "_LOADED_PLAN_TASKS", 6)
+    selectors.study_cache_clear()
+    selectors.study_analyses(study)
+    assert study.pk in cache._LOADED
+    selectors.study_analyses(other)
+    assert other.pk in cache._LOADED and study.pk not in cache._LOADED

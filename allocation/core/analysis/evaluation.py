@@ -60,6 +60,7 @@ from .plan import (
     TaskFigures,
     default_initiator,
     duty_shares,
+    headline_figures,
     is_interruption,
     prepare,
     reach_shares,
@@ -424,24 +425,17 @@ class PlanEvaluation:
     # -- reading ----------------------------------------------------------------------
 
     def headline(self) -> dict[str, float]:
-        """The plan's headline figures (as :meth:`.PlanAnalysis.headline`)."""
-        coherence = self.partition.coherence()
+        """The plan's headline figures (as :meth:`.PlanAnalysis.headline`), read without
+        building the analysis."""
         aware = self.awareness[~np.isnan(self.awareness)].tolist()
         findings = sum(len(items) for items in self.found.values()) + len(self.cuts)
-        findings += len(self.mode_findings)
-        people = self.people.values()
-        return {
-            "burden_s_per_day": sum(p.burden_s_per_day for p in people),
-            "interruptions_per_day": sum(p.interruptions_per_day for p in people),
-            "night_interruptions_per_day": sum(p.night_interruptions_per_day for p in people),
-            "failures_per_day": sum(p.failures_per_day for p in people),
-            "escalations_per_day": sum(p.escalations_per_day for p in people),
-            **self.table.headline(),
-            "mean_awareness": math.fsum(aware) / len(aware) if len(aware) else 0.0,
-            "cut_ratio": coherence.cut_ratio,
-            "modularity": coherence.modularity,
-            "findings": findings,
-        }
+        return headline_figures(
+            self.people,
+            self.table.headline(),
+            math.fsum(aware) / len(aware) if aware else 0.0,
+            self.partition.coherence(),
+            findings + len(self.mode_findings),
+        )
 
     def analysis(self) -> PlanAnalysis:
         """The plan's analysis as it stands."""

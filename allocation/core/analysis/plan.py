@@ -196,23 +196,19 @@ class PlanAnalysis:
     def headline(self) -> dict[str, float]:
         """The plan's headline figures, for overviews and comparison (sums over
         handovers and tasks correctly rounded, whatever their order)."""
-        people = self.people.values()
-        risks = [handover.risk for handover in self.handovers]
-        return {
-            "burden_s_per_day": sum(p.burden_s_per_day for p in people),
-            "interruptions_per_day": sum(p.interruptions_per_day for p in people),
-            "night_interruptions_per_day": sum(p.night_interruptions_per_day for p in people),
-            "failures_per_day": sum(p.failures_per_day for p in people),
-            "escalations_per_day": sum(p.escalations_per_day for p in people),
+        handovers = {
             "handovers": len(self.handovers),
             "handovers_per_day": math.fsum(h.site.per_day for h in self.handovers),
             "handovers_to_review": sum(h.band != "acceptable" for h in self.handovers),
-            "max_risk": max(risks, default=0),
-            "mean_awareness": self.mean_awareness(self.tasks.values()),
-            "cut_ratio": self.coherence.cut_ratio,
-            "modularity": self.coherence.modularity,
-            "findings": len(self.findings),
+            "max_risk": max((h.risk for h in self.handovers), default=0),
         }
+        return headline_figures(
+            self.people,
+            handovers,
+            self.mean_awareness(self.tasks.values()),
+            self.coherence,
+            len(self.findings),
+        )
 
     @staticmethod
     def mean_awareness(tasks) -> float:
@@ -225,6 +221,30 @@ class PlanAnalysis:
         from .report import analysis_json
 
         return analysis_json(self)
+
+
+def headline_figures(
+    people: dict[str, PersonFigures],
+    handovers: dict[str, float],
+    mean_awareness: float,
+    coherence: Coherence,
+    findings: int,
+) -> dict[str, float]:
+    """A plan's headline figures: the people's daily figures summed, the handover
+    figures, the mean awareness index, coherence and the count of findings."""
+    everyone = people.values()
+    return {
+        "burden_s_per_day": sum(p.burden_s_per_day for p in everyone),
+        "interruptions_per_day": sum(p.interruptions_per_day for p in everyone),
+        "night_interruptions_per_day": sum(p.night_interruptions_per_day for p in everyone),
+        "failures_per_day": sum(p.failures_per_day for p in everyone),
+        "escalations_per_day": sum(p.escalations_per_day for p in everyone),
+        **handovers,
+        "mean_awareness": mean_awareness,
+        "cut_ratio": coherence.cut_ratio,
+        "modularity": coherence.modularity,
+        "findings": findings,
+    }
 
 
 def default_initiator(

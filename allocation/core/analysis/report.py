@@ -22,7 +22,7 @@ from ..scales import level_text, shared_levels, single_level
 from ..vocabulary import STAGES
 from ..writing import monitoring_to_json, reliability_to_json
 from .involvement import Involvement
-from .plan import PlanAnalysis
+from .plan import PERSON_FIGURES, PlanAnalysis
 from .reliability import failure_chance
 
 __all__ = ["METHODS", "METHOD_ANCHORS", "analysis_json", "levels_with_words", "text_report"]
@@ -200,14 +200,7 @@ def text_report(result: PlanAnalysis, *, top: int = 10) -> str:
     study, plan = result.study, result.plan
     lines = [f"{study.title} — plan {plan.id}: {plan.name}", ""]
     lines.append("People (per day)")
-    people = (
-        "burden_s_per_day",
-        "interactions_per_day",
-        "interruptions_per_day",
-        "night_interruptions_per_day",
-        "monitoring_s_per_day",
-        "failures_per_day",
-    )
+    people = PERSON_FIGURES  # every daily figure, calls passed on to them included
     rows = [["Person", *(FIGURES[key].heading for key in people)]]
     for agent_id, person in result.people.items():
         daily = person.to_json()
