@@ -81,7 +81,7 @@ def _study_files():
 FILES = _study_files()
 
 
-@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(data=st.data())
 def test_a_row_checked_alone_gives_the_problems_of_the_whole_file(data):
     document = copy.deepcopy(data.draw(st.sampled_from(FILES)))
@@ -100,3 +100,22 @@ def test_a_row_checked_alone_gives_the_problems_of_the_whole_file(data):
         assert problems(result) == problems(whole), (task_id, item)
         assert result.study.plan(plan["id"]) == whole.study.plan(plan["id"])
         assert result.study == whole.study
+
+
+def test_a_warning_an_error_hid_comes_back_with_the_error():
+    """An unallocated leaf's warning is dropped while another row of the plan has an
+    error (a warning above an error is not shown); it shows again once that row is right,
+    as reading the whole file says."""
+    document = copy.deepcopy(FILES[0])
+    result = load_study(document)
+    plan = document["plans"][1]
+    steps = [("T3", None), ("T1", {"human": 3}), ("T1", {"applies": False})]
+    for task_id, item in steps:
+        if item is None:
+            plan["assignments"].pop(task_id, None)
+        else:
+            plan["assignments"][task_id] = item
+        result = reassigned(result, plan["id"], task_id, item)
+        assert problems(result) == problems(load_study(document)), (task_id, item)
+    unallocated = [p for p in result.problems if "does not allocate leaf task T3" in p.message]
+    assert len(unallocated) == 1
