@@ -123,7 +123,6 @@ class PlanEvaluation:
         self.overridden = {
             task_id for mode in (modes.states if modes else ()) for task_id in mode.overrides or {}
         }
-
         self.leaves = [task.id for task in study.leaves]
         self.place = {task_id: index for index, task_id in enumerate(self.leaves)}
         self.humans = [agent.id for agent in study.humans]

@@ -1,4 +1,4 @@
-"""Analyse one plan of a study: the one entry point of the analyses.
+"""Analyse one plan of a study: the one entry point of the analyses, and its records.
 
 >>> graph = prepare(study)                       # plan-independent, reuse across plans
 >>> result = analyse_plan(study, "hybrid-loop", graph=graph)
@@ -6,10 +6,13 @@
 
 The steps, each in its own module: assignments resolve into degrees, holders and person
 time (:mod:`.involvement`); the mode map gives the share of the day in each mode
-(:mod:`.modes`); occurrences per day propagate along chains (:mod:`.occurrences`); chains
-get their timing and deadlines (:mod:`.chains`); daily figures per person follow; then
-mode awareness (:mod:`.awareness`), handovers (:mod:`.handovers`), coherence
-(:mod:`.coherence`) and findings (:mod:`.findings`).
+(:mod:`.modetime`); occurrences per day propagate along chains (:mod:`.occurrences`);
+chains get their timing and deadlines (:mod:`.chains`); daily figures per person follow;
+then mode awareness (:mod:`.awareness`), handovers (:mod:`.handovers`), coherence
+(:mod:`.coherence`) and findings (:mod:`.findings`). :mod:`.evaluation` runs them task by
+task, link by link and chain by chain, and keeps what it made, so that an edit of one
+task computes again only what depends on it; this module holds the records it fills
+(:class:`PlanAnalysis` and its parts) and the per-task pieces it shares.
 """
 
 from __future__ import annotations
