@@ -15,7 +15,6 @@ from .studies import (
     study_cache_clear,
     study_document,
     study_for_user,
-    study_graph,
     study_load,
     study_remember,
     study_rows,
@@ -34,7 +33,6 @@ __all__ = [
     "study_document",
     "study_for_user",
     "study_load",
-    "study_graph",
     "study_remember",
     "study_rows",
 ]

@@ -280,27 +280,16 @@ def plan_sim_tables(study: m.Study, plan_id: str) -> SimPlan | None:
     """A plan's simulation tables, built once per study version from the analysis the
     pages show, for every chunk of its runs this process simulates; ``None`` while the
     study has errors."""
-    analysis = plan_analysis(study, plan_id)
-    if analysis is None:
+    entry = _loaded(study)  # one version for the analysis and the tables
+    checked = entry.result.valid_study
+    if checked is None or plan_id not in checked.plans_by_id:
         return None
-    entry = _loaded(study)
+    analysis = _analysis(entry, checked, plan_id)
     with entry.lock:
         if plan_id not in entry.sim_plans:
             assert entry.graph is not None  # made with the analysis
             entry.sim_plans[plan_id] = build_sim_plan(analysis.study, analysis, entry.graph)
         return entry.sim_plans[plan_id]
-
-
-def study_graph(study: m.Study) -> StudyGraph | None:
-    """The study's task graph (kept with its version); ``None`` while it has errors."""
-    entry = _loaded(study)
-    checked = entry.result.valid_study
-    if checked is None:
-        return None
-    with entry.lock:
-        if entry.graph is None:
-            entry.graph = prepare(checked)
-        return entry.graph
 
 
 def plan_analysis(study: m.Study, plan_id: str) -> PlanAnalysis | None:

@@ -39,7 +39,7 @@ from typing import Any, NamedTuple
 from ..graph import Trigger
 from ..model import Lag, Range, Study
 from .duty import duty_wait
-from .occurrences import Occurrences, TriggerTiming
+from .occurrences import TriggerTiming
 from .timeofday import asleep_intervals
 
 __all__ = [
@@ -47,7 +47,6 @@ __all__ = [
     "ChainTiming",
     "Span",
     "TaskTiming",
-    "chain_timings",
     "response_latency",
     "time_chain",
 ]
@@ -181,51 +180,6 @@ def response_latency(
     )
 
 
-def chain_timings(
-    study: Study,
-    occurrences: Occurrences,
-    predecessors: dict[str, list[tuple[str, Lag | None]]],
-    position: dict[str, int],
-    holder: Callable[[str], str | None],
-    duration: Callable[[str], Range | None],
-    assumptions: dict[str, Any],
-) -> list[ChainTiming]:
-    """The timing of every chain under a plan.
-
-    Parameters
-    ----------
-    study : Study
-    occurrences : Occurrences
-        From :func:`~allocation.core.analysis.occurrences.occurrences` for the plan.
-    predecessors : dict
-        Task id to its ``precedes`` predecessors as ``(task id, lag)``.
-    position : dict
-        Task id to its place in a topological order.
-    holder : callable
-        Task id to its principal holder (agent id) under the plan, or ``None``.
-    duration : callable
-        Task id to its duration under the plan.
-    assumptions : dict
-        The resolved assumptions (``default_response_s``).
-
-    Returns
-    -------
-    list of ChainTiming
-    """
-    context = ChainContext.of(study, assumptions)
-    chains = []
-    for trigger_id, timing in occurrences.timings.items():
-        members = {
-            task_id: chance
-            for task_id, chance in occurrences.chains[trigger_id].items()
-            if chance > 0
-        }
-        chains.append(
-            time_chain(context, timing, members, predecessors, position, holder, duration, {})
-        )
-    return chains
-
-
 @dataclass(frozen=True)
 class ChainContext:
     """What every chain's timing reads of the study, made once per analysis."""
@@ -269,7 +223,10 @@ def time_chain(
     kept: dict[str, TaskTiming] | None = None,
     from_position: int | None = None,
 ) -> ChainTiming:
-    """The timing of one trigger's chain (see :func:`chain_timings`).
+    """The timing of one trigger's chain under a plan: ``members`` are the tasks its
+    chain reaches with their chance (above 0), ``predecessors`` each task's ``precedes``
+    predecessors with their lag, ``position`` a topological order, ``holder`` and
+    ``duration`` a task's principal holder and duration under the plan.
 
     ``latencies`` caches each agent's latency by the moment the work reaches them; it
     depends on the study and the trigger only, so a caller may keep it between plans'
